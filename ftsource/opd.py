@@ -1,0 +1,566 @@
+"""Optical path difference from the reference channel(s), and the record split into sweeps.
+
+Three sources of optical path are supported:
+
+* a **quadrature pair** (I, Q): offsets, unequal gains and non-orthogonality are removed by an
+  ellipse fit (Heydemann 1981) per sweep, then the four-quadrant phase is unwrapped; its sign
+  gives the direction of travel;
+* a **single reference channel**: normalised for a drifting DC level and amplitude from its
+  running extremes, then the phase of its analytic signal (Hilbert transform) is unwrapped; that
+  phase only grows, so the direction flips at each turnaround (a minimum of the fringe rate);
+* a **position encoder**: OPD = 2 × mirror position (the air index is applied later).
+
+The OPD is the reference phase / 2π × the reference's *vacuum* wavelength; in air the source
+wavenumbers are corrected afterwards for the index ratio (:mod:`ftsource.air`).
+
+Kernel units: OPD in cm, time in s.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from ftsource.errors import AnalysisError
+
+__all__ = [
+    "EllipseFit",
+    "Sweep",
+    "OpticalPath",
+    "fit_ellipse",
+    "ellipse_phase",
+    "opd_from_quadrature",
+    "opd_from_single",
+    "opd_from_position",
+    "opd_from_constant_speed",
+]
+
+#: Reference amplitude below this fraction of the record's median counts as a dropout.
+DROPOUT_LEVEL = 0.3
+#: Sweeps shorter than this many reference fringes are not used.
+MIN_SWEEP_FRINGES = 32
+
+
+@dataclass(frozen=True)
+class EllipseFit:
+    """Parameters of ``I = p + a cos φ``, ``Q = q + b sin(φ + α)`` and the fit's RMS residual.
+
+    ``residual`` is the RMS deviation of the corrected radius from 1 (dimensionless).
+    """
+
+    p: float
+    q: float
+    a: float
+    b: float
+    alpha: float
+    residual: float
+
+
+@dataclass(frozen=True)
+class Sweep:
+    """One monotonic stretch of mirror travel, samples ``start:stop`` of the record.
+
+    ``segment`` numbers the stretches of continuous reference between dropouts or slips: OPD
+    values are comparable between sweeps of the same segment only.
+    """
+
+    index: int
+    start: int
+    stop: int
+    direction: int
+    segment: int
+    opd_span_cm: float
+    mean_speed_cm_s: float
+    max_speed_cm_s: float
+
+
+@dataclass(frozen=True)
+class OpticalPath:
+    """OPD for every sample (NaN where unknown) and the sweeps found in it."""
+
+    opd_cm: np.ndarray
+    kind: str
+    sweeps: tuple[Sweep, ...]
+    ellipse_residual: float | None
+    fringe_slips: int
+    dropouts: int
+    warnings: tuple[str, ...]
+
+    @property
+    def max_speed_cm_s(self) -> float:
+        return max((s.max_speed_cm_s for s in self.sweeps), default=float("nan"))
+
+
+def fit_ellipse(i: np.ndarray, q: np.ndarray) -> EllipseFit:
+    """Fit the Lissajous ellipse of a quadrature pair (Heydemann 1981).
+
+    A general conic ``A u² + B uv + C v² + D u + E v = 1`` is fitted by linear least squares
+    to the mean-removed, scaled data, and converted to offsets, amplitudes and the phase error.
+
+    References
+    ----------
+    .. [1] P. L. M. Heydemann, "Determination and correction of quadrature fringe measurement
+       errors in interferometers", Appl. Opt. 20, 3382–3384 (1981).
+    """
+    i = np.asarray(i, dtype=float)
+    q = np.asarray(q, dtype=float)
+    mi, mq = float(np.mean(i)), float(np.mean(q))
+    si, sq = float(np.std(i)), float(np.std(q))
+    if not (si > 0 and sq > 0):
+        raise AnalysisError("the quadrature reference channels carry no fringes (constant)")
+    u, v = (i - mi) / si, (q - mq) / sq
+    m = np.column_stack([u * u, u * v, v * v, u, v])
+    coef, *_ = np.linalg.lstsq(m, np.ones_like(u), rcond=None)
+    A, B, C, D, E = coef
+    det = 4 * A * C - B * B
+    if not det > 0:
+        raise AnalysisError("the quadrature reference does not trace an ellipse (no fringes?)")
+    u0 = (B * E - 2 * C * D) / det
+    v0 = (B * D - 2 * A * E) / det
+    f = 1 + A * u0 * u0 + B * u0 * v0 + C * v0 * v0  # value at the centre, scales the form
+    m11, m22, m12 = A / f, C / f, B / (2 * f)
+    if not (m11 > 0 and m22 > 0):
+        raise AnalysisError("the quadrature reference does not trace an ellipse (no fringes?)")
+    s = float(np.clip(-m12 / np.sqrt(m11 * m22), -0.999, 0.999))
+    alpha = float(np.arcsin(s))
+    ca = np.cos(alpha)
+    a = 1 / (ca * np.sqrt(m11)) * si
+    b = 1 / (ca * np.sqrt(m22)) * sq
+    p = mi + u0 * si
+    qq = mq + v0 * sq
+    fit = EllipseFit(float(p), float(qq), float(a), float(b), alpha, 0.0)
+    c, sn = _corrected(i, q, fit)
+    res = float(np.sqrt(np.mean((np.hypot(c, sn) - 1.0) ** 2)))
+    return EllipseFit(fit.p, fit.q, fit.a, fit.b, fit.alpha, res)
+
+
+def _corrected(i, q, fit: EllipseFit):
+    c = (i - fit.p) / fit.a
+    s = ((q - fit.q) / fit.b - c * np.sin(fit.alpha)) / np.cos(fit.alpha)
+    return c, s
+
+
+def ellipse_phase(i: np.ndarray, q: np.ndarray, fit: EllipseFit) -> np.ndarray:
+    """Wrapped fringe phase φ in (−π, π] after the Heydemann correction."""
+    c, s = _corrected(np.asarray(i, float), np.asarray(q, float), fit)
+    return np.arctan2(s, c)
+
+
+# --------------------------------------------------------------------------------------------
+# helpers
+
+
+def _runs(mask: np.ndarray) -> list[tuple[int, int]]:
+    """Start/stop index pairs of the True runs of a boolean array."""
+    m = np.concatenate([[False], np.asarray(mask, bool), [False]])
+    d = np.diff(m.astype(np.int8))
+    return list(zip(np.flatnonzero(d == 1), np.flatnonzero(d == -1)))
+
+
+def _trim_runs(runs, margin: int, n: int) -> list[tuple[int, int]]:
+    """Shrink runs by ``margin`` samples at ends that border a dropout (not the record's ends)."""
+    out = []
+    for a, b in runs:
+        a2 = a if a == 0 else a + margin
+        b2 = b if b == n else b - margin
+        if b2 - a2 >= 64:
+            out.append((a2, b2))
+    return out
+
+
+def _close_gaps(mask: np.ndarray, gap: int) -> np.ndarray:
+    """Copy of a boolean mask with False runs shorter than ``gap`` inside True runs filled."""
+    out = np.array(mask, bool)
+    for g0, g1 in _runs(~out):
+        if g0 > 0 and g1 < out.size and g1 - g0 < gap:
+            out[g0:g1] = True
+    return out
+
+
+def _odd(n: float, lo: int = 5) -> int:
+    n = max(int(n), lo)
+    return n if n % 2 else n + 1
+
+
+def _smooth_phase(phi: np.ndarray, samples_per_fringe: float) -> np.ndarray:
+    """Savitzky–Golay smoothing (cubic) over about one fringe: keeps the mirror motion, removes
+    most of the periodic (2×fringe) error and the noise of the phase measurement."""
+    from scipy.signal import savgol_filter
+
+    w = _odd(min(samples_per_fringe, 64))
+    if phi.size <= w or w < 5:
+        return phi
+    return savgol_filter(phi, w, 3, mode="interp")
+
+
+def _split_sweeps(
+    x: np.ndarray,
+    seg_runs: list[tuple[int, int]],
+    fs: float,
+    ref_wavelength_cm: float,
+    *,
+    min_fringes: float = MIN_SWEEP_FRINGES,
+    guard: float = 0.02,
+    segment_ids: list[int] | None = None,
+) -> list[Sweep]:
+    """Monotonic stretches of ``x`` within each run, turnarounds excluded.
+
+    ``segment_ids`` gives each run's stretch of continuous reference (default: its own).
+    """
+    from scipy.ndimage import uniform_filter1d
+
+    sweeps: list[Sweep] = []
+    ids = segment_ids if segment_ids is not None else list(range(len(seg_runs)))
+    for seg, (a, b) in zip(ids, seg_runs):
+        xs = x[a:b]
+        if xs.size < 16:
+            continue
+        v = np.gradient(xs) * fs
+        # smooth the velocity over ~1 ms so noise does not flip its sign
+        v_s = uniform_filter1d(v, max(int(fs * 1e-3), 3))
+        vmed = np.median(np.abs(v_s))
+        if not vmed > 0:
+            continue
+        moving = np.abs(v_s) > guard * vmed
+        sign = np.sign(v_s) * moving
+        for sgn in (1, -1):
+            for s0, s1 in _runs(sign == sgn):
+                seg_x = xs[s0:s1]
+                if seg_x.size < 8:
+                    continue
+                # strictly monotonic part only
+                span = abs(seg_x[-1] - seg_x[0])
+                if span < min_fringes * ref_wavelength_cm:
+                    continue
+                spd = np.abs(v_s[s0:s1])
+                sweeps.append(
+                    Sweep(
+                        index=0,
+                        start=a + s0,
+                        stop=a + s1,
+                        direction=sgn,
+                        segment=seg,
+                        opd_span_cm=float(span),
+                        mean_speed_cm_s=float(np.mean(spd)),
+                        max_speed_cm_s=float(np.max(spd)),
+                    )
+                )
+    sweeps.sort(key=lambda s: s.start)
+    return [
+        Sweep(k, s.start, s.stop, s.direction, s.segment, s.opd_span_cm, s.mean_speed_cm_s,
+              s.max_speed_cm_s)
+        for k, s in enumerate(sweeps)
+    ]
+
+
+def _check_sweeps(sweeps, kind):
+    if not sweeps:
+        raise AnalysisError(
+            f"no usable sweep found in the {kind} reference: the mirror must travel at least "
+            f"{MIN_SWEEP_FRINGES} reference fringes in one direction without a dropout"
+        )
+
+
+def _segments_from_amplitude(amp: np.ndarray, min_len: int) -> tuple[np.ndarray, list]:
+    med = np.median(amp)
+    if not med > 0:
+        return np.zeros(amp.shape, bool), []
+    ok = amp > DROPOUT_LEVEL * med
+    runs = [(a, b) for a, b in _runs(ok) if b - a >= min_len]
+    return ok, runs
+
+
+def _bridge_turnarounds(mx, mn, amp, zc, period):
+    """Tell turnarounds from dropouts in a single reference channel.
+
+    Near a turnaround the fringes slow down and the running extremes no longer span a fringe,
+    so the apparent amplitude falls just as in a dropout. A turnaround is preceded or followed
+    by slowing fringes (level-crossing intervals above 1.5× the median, or hardly any crossings
+    within six fringe periods); a dropout cuts in at full speed on both sides. Across a turnaround the envelope is bridged linearly from its edges.
+    """
+    med = np.median(amp)
+    low = _close_gaps(amp < DROPOUT_LEVEL * med, max(int(10 * period), 3))
+    if not low.any():
+        return mx, mn, amp
+    mx, mn, amp = mx.copy(), mn.copy(), amp.copy()
+    half = period / 2
+    look = int(6 * period)
+    for s0, s1 in _runs(low):
+        before = zc[(zc >= s0 - look) & (zc < s0)]
+        after = zc[(zc > s1) & (zc <= s1 + look)]
+        slowing = any(
+            z.size < 3 or np.mean(np.diff(z)) > 1.5 * half for z in (before, after)
+        )
+        if not slowing or s0 == 0 or s1 >= amp.size:
+            continue
+        a0, a1 = max(s0 - 1, 0), min(s1, amp.size - 1)
+        ramp = np.linspace(0.0, 1.0, s1 - s0 + 2)[1:-1]
+        mx[s0:s1] = mx[a0] + (mx[a1] - mx[a0]) * ramp
+        mn[s0:s1] = mn[a0] + (mn[a1] - mn[a0]) * ramp
+        amp[s0:s1] = (mx[s0:s1] - mn[s0:s1]) / 2
+    return mx, mn, amp
+
+
+def _samples_per_fringe(phase_step: np.ndarray) -> float:
+    step = np.median(np.abs(phase_step))
+    return float(2 * np.pi / step) if step > 0 else np.inf
+
+
+# --------------------------------------------------------------------------------------------
+# public stages
+
+
+def opd_from_quadrature(
+    ref_i: np.ndarray,
+    ref_q: np.ndarray,
+    sample_rate_hz: float,
+    reference_wavelength_nm: float,
+    *,
+    smooth: bool = True,
+) -> OpticalPath:
+    """OPD per sample from a quadrature reference pair.
+
+    Dropouts (ellipse radius below :data:`DROPOUT_LEVEL` of its median) split the record into
+    segments; a phase step of more than 0.6π between two samples is a possible fringe-count
+    slip and also splits the record, so the OPD scale is never silently changed. Each sweep gets
+    its own ellipse fit; the fit residual is reported.
+
+    References
+    ----------
+    .. [1] P. L. M. Heydemann, Appl. Opt. 20, 3382 (1981).
+    """
+    i = np.asarray(ref_i, float)
+    q = np.asarray(ref_q, float)
+    lam_cm = reference_wavelength_nm * 1e-7
+    warnings: list[str] = []
+    n = i.size
+    # rough normalisation for the dropout test
+    ci, cq = np.percentile(i, [1, 99]), np.percentile(q, [1, 99])
+    ai, aq = (ci[1] - ci[0]) / 2, (cq[1] - cq[0]) / 2
+    if not (ai > 0 and aq > 0):
+        raise AnalysisError("the reference channels carry no fringes (constant signal)")
+    from scipy.ndimage import uniform_filter1d
+
+    r = np.hypot((i - ci.mean()) / ai, (q - cq.mean()) / aq)
+    r_s = uniform_filter1d(r, 16)
+    ok, runs = _segments_from_amplitude(r_s, 64)
+    runs = _trim_runs(runs, 32, n)  # the radius is smoothed over 16 samples: keep clear of edges
+    if not runs:
+        raise AnalysisError("no fringes found on the quadrature reference channels")
+    fit0 = fit_ellipse(i[ok], q[ok])
+    if fit0.residual > 0.2:
+        raise AnalysisError(
+            "the quadrature reference channels do not trace a clean ellipse "
+            f"(RMS residual {fit0.residual:.2f}); check that ref_i and ref_q see the same fringes"
+        )
+    phi_w = ellipse_phase(i, q, fit0)
+    # split at possible slips: wrapped step too large
+    seg_runs: list[tuple[int, int]] = []
+    slips = 0
+    for a, b in runs:
+        d = np.angle(np.exp(1j * np.diff(phi_w[a:b])))
+        bad = np.flatnonzero(np.abs(d) > 0.6 * np.pi)
+        slips += bad.size
+        edges = [a] + [a + k + 1 for k in bad] + [b]
+        seg_runs += [(s, e) for s, e in zip(edges[:-1], edges[1:]) if e - s >= 64]
+    if slips:
+        warnings.append(
+            f"{slips} possible fringe-count slip(s) on the reference (phase steps above 0.6π "
+            "between samples): the record was split there instead of trusting the count. Sample "
+            "faster or move the mirror slower."
+        )
+    x = np.full(n, np.nan)
+    for a, b in seg_runs:
+        x[a:b] = np.unwrap(phi_w[a:b])
+    spf = _samples_per_fringe(np.diff(x[np.isfinite(x)])) if np.isfinite(x).sum() > 2 else np.inf
+    if spf < 4:
+        warnings.append(
+            f"the reference fringes are sampled only {spf:.1f} times per fringe: sample faster "
+            "than 4 samples per reference fringe for a reliable path"
+        )
+    x *= lam_cm / (2 * np.pi)
+    sweeps = _split_sweeps(x, seg_runs, sample_rate_hz, lam_cm)
+    _check_sweeps(sweeps, "quadrature")
+    # refine: one ellipse fit per sweep, phase kept continuous with the first pass
+    residuals = []
+    for sw in sweeps:
+        sl = slice(sw.start, sw.stop)
+        try:
+            fit = fit_ellipse(i[sl], q[sl])
+        except AnalysisError:
+            continue
+        residuals.append(fit.residual)
+        ph = np.unwrap(ellipse_phase(i[sl], q[sl], fit))
+        old = x[sl] * 2 * np.pi / lam_cm
+        ph += 2 * np.pi * np.round(np.mean(old - ph) / (2 * np.pi))
+        x[sl] = ph * lam_cm / (2 * np.pi)
+    if smooth:
+        for a, b in seg_runs:
+            x[a:b] = _smooth_phase(x[a:b], spf)
+    return OpticalPath(
+        opd_cm=x,
+        kind="quadrature",
+        sweeps=tuple(sweeps),
+        ellipse_residual=float(np.sqrt(np.mean(np.square(residuals)))) if residuals else None,
+        fringe_slips=slips,
+        dropouts=max(len(runs) - 1, 0),
+        warnings=tuple(warnings),
+    )
+
+
+def opd_from_single(
+    ref: np.ndarray,
+    sample_rate_hz: float,
+    reference_wavelength_nm: float,
+    *,
+    smooth: bool = True,
+) -> OpticalPath:
+    """OPD per sample from a single reference channel.
+
+    The channel is normalised to ±1 with its running extremes (over a few fringes), which
+    removes a drifting DC level and amplitude; the phase of the analytic signal (Hilbert
+    transform) is unwrapped. It grows whatever the direction, so the direction flips at each
+    turnaround, found as a stretch where the fringe rate falls below a quarter of its median.
+    The first sweep is taken as positive: a single channel cannot tell the absolute direction,
+    which does not change any spectrum. The slow stretches around turnarounds are not used.
+
+    References
+    ----------
+    .. [1] D. Gabor, "Theory of communication", J. IEE 93, 429–457 (1946) (analytic signal).
+    """
+    from scipy.fft import fft, ifft, next_fast_len
+    from scipy.ndimage import maximum_filter1d, minimum_filter1d, uniform_filter1d
+
+    c = np.asarray(ref, float)
+    n = c.size
+    lam_cm = reference_wavelength_nm * 1e-7
+    warnings: list[str] = []
+    # fringe period from mean-level crossings
+    cm = c - np.median(c)
+    zc = np.flatnonzero(np.diff(np.signbit(cm)))
+    if zc.size < 2 * MIN_SWEEP_FRINGES:
+        raise AnalysisError(
+            "no fringes found on the reference channel (too few level crossings); check the "
+            "reference detector and the column mapping"
+        )
+    period = 2 * float(np.median(np.diff(zc)))
+    w = max(int(3 * period), 8)
+    mx = uniform_filter1d(maximum_filter1d(c, w), w)
+    mn = uniform_filter1d(minimum_filter1d(c, w), w)
+    amp = (mx - mn) / 2
+    mx, mn, amp = _bridge_turnarounds(mx, mn, amp, zc, period)
+    ok, runs = _segments_from_amplitude(amp, int(4 * w))
+    if not runs:
+        raise AnalysisError("no fringes found on the reference channel")
+    cn = np.where(ok, (c - (mx + mn) / 2) / np.where(amp > 0, amp, 1.0), 0.0)
+    x = np.full(n, np.nan)
+    seg_runs = []
+    seg_ids = []
+    slips = 0
+    for run_id, (a, b) in enumerate(runs):
+        seg = cn[a:b]
+        m = next_fast_len(seg.size)
+        spec = fft(seg, m)
+        h = np.zeros(m)
+        h[0] = 1
+        h[1 : (m + 1) // 2] = 2
+        if m % 2 == 0:
+            h[m // 2] = 1
+        psi = np.unwrap(np.angle(ifft(spec * h)[: seg.size]))
+        # drop a few fringes at each end (envelope window, Hilbert edge effects, partial fringes)
+        cut = 2 * w
+        if seg.size <= 4 * cut:
+            continue
+        psi = psi[cut:-cut]
+        a2, b2 = a + cut, b - cut
+        rate = np.gradient(psi)
+        rate_s = uniform_filter1d(rate, max(int(period), 3))
+        # slips: rate spikes far from the smooth rate
+        spikes = np.flatnonzero(np.abs(rate - rate_s) > np.pi / 2)
+        slips += int(spikes.size > 0)
+        med = np.median(rate_s)
+        slow = rate_s < 0.25 * med
+        # one turnaround gives one slow stretch: close gaps shorter than a few fringes
+        slow = _close_gaps(slow, max(int(4 * period), 3))
+        # direction: flips at every slow stretch (turnaround); slow samples are not used
+        sign = np.ones(psi.size)
+        s = 1.0
+        pos = 0
+        for s0, s1 in _runs(slow):
+            turn = s0 + int(np.argmin(rate_s[s0:s1]))  # turnaround: slowest fringe rate
+            sign[pos:turn] = s
+            s = -s
+            pos = turn
+        sign[pos:] = s
+        # build x continuous across turnarounds: integrate signed phase increments
+        dpsi = np.diff(psi, prepend=psi[0])
+        xs = np.cumsum(sign * dpsi)
+        xs[slow] = np.nan
+        x[a2:b2] = xs * lam_cm / (2 * np.pi)
+        fast_runs = [(a2 + p0, a2 + p1) for p0, p1 in _runs(~slow) if p1 - p0 >= 64]
+        seg_runs += fast_runs
+        seg_ids += [run_id] * len(fast_runs)
+    if slips:
+        warnings.append(
+            "the reference phase jumped in places (possible fringe-count slips): the affected "
+            "stretches were split; check the reference detector's signal level"
+        )
+    spf = period
+    if spf < 4:
+        warnings.append(
+            f"the reference fringes are sampled only {spf:.1f} times per fringe: sample faster "
+            "than 4 samples per reference fringe"
+        )
+    if smooth:
+        for a, b in seg_runs:
+            x[a:b] = _smooth_phase(x[a:b], spf)
+    sweeps = _split_sweeps(x, seg_runs, sample_rate_hz, lam_cm, segment_ids=seg_ids)
+    _check_sweeps(sweeps, "single-channel")
+    return OpticalPath(
+        opd_cm=x,
+        kind="single",
+        sweeps=tuple(sweeps),
+        ellipse_residual=None,
+        fringe_slips=slips,
+        dropouts=max(len(runs) - 1, 0),
+        warnings=tuple(warnings),
+    )
+
+
+def opd_from_position(
+    position_m: np.ndarray, sample_rate_hz: float, *, smooth: bool = True
+) -> OpticalPath:
+    """Geometric OPD = 2 × mirror position (cm) from an encoder column in metres.
+
+    The index of air is applied later (:func:`ftsource.air.correct_dispersion` with a unit
+    reference index).
+    """
+    p = np.asarray(position_m, float)
+    x = 2 * p * 100.0
+    if not np.ptp(x) > 0:
+        raise AnalysisError("the position column does not change: the mirror did not move")
+    if smooth:
+        from scipy.signal import savgol_filter
+
+        w = _odd(max(int(sample_rate_hz * 2e-4), 5))
+        if x.size > w:
+            x = savgol_filter(x, w, 3, mode="interp")
+    runs = [(0, x.size)]
+    sweeps = _split_sweeps(x, runs, sample_rate_hz, 632.991e-7)
+    _check_sweeps(sweeps, "encoder")
+    return OpticalPath(x, "encoder", tuple(sweeps), None, 0, 0, ())
+
+
+def opd_from_constant_speed(n_samples: int, sample_rate_hz: float, mirror_speed_m_s: float):
+    """OPD for an assumed constant mirror speed (no reference): x = 2·v·t, one sweep."""
+    t = np.arange(n_samples) / sample_rate_hz
+    v = 2 * mirror_speed_m_s * 100.0
+    x = v * t
+    sw = Sweep(0, 0, n_samples, 1 if v > 0 else -1, 0, float(abs(x[-1] - x[0])), abs(v), abs(v))
+    msg = (
+        "no reference: the OPD scale assumes a constant mirror speed of "
+        f"{mirror_speed_m_s * 1e3:g} mm/s; every wavelength is only as good as that speed and "
+        "any speed variation broadens and shifts the lines"
+    )
+    return OpticalPath(x, "constant-speed", (sw,), None, 0, 0, (msg,))

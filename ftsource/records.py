@@ -1,0 +1,1400 @@
+"""Read and write records: tables of samples taken at a constant rate.
+
+A record holds the columns named in ``docs/contract.md`` (``time``, ``signal``, ``ref``,
+``ref_i``, ``ref_q``, ``position``) as read-only float64 arrays, the sample rate when it is
+known, and the metadata found in the file. Three file forms are read:
+
+* text tables (``.csv``, ``.tsv``, ``.txt``, ``.dat``): ``#`` comments, ``# key = value``
+  metadata lines before the data, one header line naming the columns, then numbers separated by
+  commas, tabs, semicolons or whitespace (sniffed from the header line);
+* NumPy ``.npz`` archives, one 1-D array per column and an optional ``metadata`` array of
+  ``key = value`` strings (pickled objects are refused);
+* WAV files (16-, 24-, 32-bit integer PCM, 8-bit unsigned PCM, 32- or 64-bit float), one
+  channel per column, scaled so that integer full scale is 1.0.
+
+The rules, the metadata keys and every error message with its fix are in ``docs/records.md``.
+"""
+
+from __future__ import annotations
+
+import itertools
+import math
+import os
+import re
+import struct
+import tempfile
+import warnings
+from collections.abc import Mapping
+from dataclasses import dataclass, field
+from types import MappingProxyType
+from typing import Any
+
+import numpy as np
+
+from .errors import FtsourceError, OptionError, OutputError, RecordError
+
+__all__ = [
+    "Record",
+    "read_record",
+    "parse_column_map",
+    "write_record_csv",
+    "write_record_npz",
+    "write_record_wav",
+    "COLUMN_NAMES",
+    "MIN_SAMPLES",
+    "TEXT_EXTENSIONS",
+    "RATE_TOLERANCE",
+    "KNOWN_KEYS",
+]
+
+#: The column names of the contract; ``--columns`` may map only onto these.
+COLUMN_NAMES = ("time", "signal", "ref", "ref_i", "ref_q", "position")
+#: Fewest samples a record may hold.
+MIN_SAMPLES = 64
+TEXT_EXTENSIONS = (".csv", ".tsv", ".txt", ".dat")
+#: Relative difference allowed between two statements of the sample rate (time column versus
+#: metadata or argument) before they are called a conflict.
+RATE_TOLERANCE = 1e-3
+
+_WAV_DEFAULTS = {
+    1: ("signal",),
+    2: ("signal", "ref"),
+    3: ("signal", "ref_i", "ref_q"),
+}
+_SOURCE_FORMATS = ("text", "npz", "wav", "memory")
+_KEY = re.compile(r"^[A-Za-z_][A-Za-z0-9_.\-]{0,63}$")
+#: Metadata keys the analysis uses (docs/contract.md); a conflicting repeat of one is an error.
+KNOWN_KEYS = (
+    "sample_rate", "reference_wavelength", "position_unit", "air_temperature", "air_pressure",
+    "air_humidity", "description",
+)
+_METADATA_LINE = re.compile(r"^#\s*(?P<key>[^=#]+?)\s*=\s*(?P<value>.*?)\s*$")
+
+
+def _show(value: object, limit: int = 60) -> str:
+    """Quote a value for a one-line message, replacing control characters."""
+    s = "".join(ch if ch.isprintable() else "?" for ch in str(value))
+    if len(s) > limit:
+        s = s[: limit - 3] + "..."
+    return repr(s)
+
+
+def _norm_key(key: str) -> str:
+    return re.sub(r"[\s\-.]+", "_", key.strip().lower())
+
+
+# --------------------------------------------------------------------------------------------
+# Record
+# --------------------------------------------------------------------------------------------
+
+
+@dataclass(frozen=True, eq=False)
+class Record:
+    """Samples of one recording, as read from a file or made in memory.
+
+    Parameters
+    ----------
+    columns : mapping of str to array_like
+        Column name (matched case-insensitively, stored in lower case) to 1-D samples. All
+        columns have the same length, at least :data:`MIN_SAMPLES`, and finite values. A
+        ``signal`` column is required; ``ref_i`` and ``ref_q`` come as a pair; a ``time``
+        column must increase strictly.
+    sample_rate_hz : float or None
+        Samples per second, when known.
+    metadata : mapping of str to str
+        ``key = value`` pairs from the file, keys in lower case with ``_`` for spaces.
+    path : str
+        Where the record came from (``"<memory>"`` for one made in memory).
+    source_format : str
+        ``'text'``, ``'npz'``, ``'wav'`` or ``'memory'``.
+
+    Notes
+    -----
+    Arrays are stored as read-only float64 arrays; arrays given by the caller are copied unless
+    they are already read-only float64, so the caller's data are never changed.
+
+    References
+    ----------
+    .. [1] ftsource contract, ``docs/contract.md``, section "Record columns".
+    """
+
+    columns: Mapping[str, np.ndarray]
+    sample_rate_hz: float | None = None
+    metadata: Mapping[str, str] = field(default_factory=dict)
+    path: str = "<memory>"
+    source_format: str = "memory"
+
+    def __post_init__(self) -> None:
+        where = str(self.path)
+        object.__setattr__(self, "path", where)
+        if self.source_format not in _SOURCE_FORMATS:
+            raise ValueError(
+                f"source_format {self.source_format!r} is not one of {', '.join(_SOURCE_FORMATS)}"
+            )
+        if not isinstance(self.columns, Mapping) or not self.columns:
+            raise RecordError(f"{where}: holds no columns; a record needs at least 'signal'")
+        cols: dict[str, np.ndarray] = {}
+        n = None
+        for raw_name, values in self.columns.items():
+            if not isinstance(raw_name, str) or not raw_name.strip():
+                raise RecordError(f"{where}: column name {_show(raw_name)} is not a name")
+            name = raw_name.strip().lower()
+            if name in cols:
+                raise RecordError(
+                    f"{where}: column {_show(name)} appears twice (names ignore case)"
+                )
+            arr = _as_readonly_float(values, where=where, name=name)
+            if n is None:
+                n = arr.shape[0]
+            elif arr.shape[0] != n:
+                raise RecordError(
+                    f"{where}: column {_show(name)} has {arr.shape[0]} samples but "
+                    f"{_show(next(iter(cols)))} has {n}; all columns need the same length"
+                )
+            bad = np.flatnonzero(~np.isfinite(arr))
+            if bad.size:
+                raise RecordError(
+                    f"{where}: column {_show(name)} holds a non-finite value "
+                    f"({arr[bad[0]]}) at sample {bad[0]}; remove or fill the gap"
+                )
+            cols[name] = arr
+        assert n is not None
+        if n < MIN_SAMPLES:
+            raise RecordError(
+                f"{where}: holds {n} sample{'s' if n != 1 else ''}; at least {MIN_SAMPLES} "
+                "are needed"
+            )
+        if "signal" not in cols:
+            raise RecordError(
+                f"{where}: has no 'signal' column (columns: {', '.join(cols)}); name the "
+                "detector column 'signal' or map it with --columns signal=NAME"
+            )
+        if ("ref_i" in cols) != ("ref_q" in cols):
+            have, lack = ("ref_i", "ref_q") if "ref_i" in cols else ("ref_q", "ref_i")
+            raise RecordError(
+                f"{where}: has '{have}' but no '{lack}'; a quadrature reference needs both "
+                "(or name a single reference channel 'ref')"
+            )
+        if "time" in cols:
+            _check_time(cols["time"], where=where)
+        rate = self.sample_rate_hz
+        if rate is not None:
+            rate = _check_rate(rate, where=where, name="sample rate")
+            if "time" in cols:
+                t = cols["time"]
+                t_rate = (t.size - 1) / (t[-1] - t[0])
+                if abs(t_rate - rate) > RATE_TOLERANCE * t_rate:
+                    raise RecordError(
+                        f"{where}: the 'time' column gives {t_rate:.6g} Hz but the sample rate "
+                        f"is {rate:.6g} Hz; they must agree"
+                    )
+        object.__setattr__(self, "sample_rate_hz", rate)
+        object.__setattr__(self, "columns", MappingProxyType(cols))
+        meta = {}
+        for k, v in dict(self.metadata or {}).items():
+            if not isinstance(k, str) or not isinstance(v, str):
+                raise RecordError(f"{where}: metadata must map text to text, got {_show(k)}")
+            meta[_norm_key(k)] = v
+        object.__setattr__(self, "metadata", MappingProxyType(meta))
+
+    @property
+    def n_samples(self) -> int:
+        """Number of samples in every column."""
+        return int(next(iter(self.columns.values())).shape[0])
+
+    def has(self, name: str) -> bool:
+        """Whether the record holds column ``name`` (case-insensitive)."""
+        return name.strip().lower() in self.columns
+
+    def __getitem__(self, name: str) -> np.ndarray:
+        key = name.strip().lower()
+        if key not in self.columns:
+            raise RecordError(
+                f"{self.path}: has no column {_show(name)} (columns: {', '.join(self.columns)})"
+            )
+        return self.columns[key]
+
+    @property
+    def time(self) -> np.ndarray:
+        """Sample times in s: the ``time`` column, else ``arange(n) / sample_rate_hz``.
+
+        Raises
+        ------
+        RecordError
+            If the record has neither a ``time`` column nor a sample rate.
+        """
+        if "time" in self.columns:
+            return self.columns["time"]
+        if self.sample_rate_hz is None:
+            raise RecordError(
+                f"{self.path}: has no 'time' column and no sample rate; give --sample-rate "
+                "(e.g. '48 kHz') or a '# sample_rate = 48 kHz' metadata line"
+            )
+        t = np.arange(self.n_samples, dtype=np.float64) / self.sample_rate_hz
+        t.flags.writeable = False
+        return t
+
+    @property
+    def time_jitter(self) -> float | None:
+        """Largest deviation of a time step from the mean step, relative to the mean step.
+
+        ``None`` without a ``time`` column. A few parts in 1e6 are rounding of written time
+        stamps; values near 1 or above mean dropped or repeated samples.
+        """
+        if "time" not in self.columns:
+            return None
+        return _relative_jitter(self.columns["time"])
+
+    def opd_source(self) -> str | None:
+        """Which optical-path source the columns allow, in the contract's order of preference.
+
+        Returns
+        -------
+        {'quadrature', 'single', 'encoder', None}
+            ``'quadrature'`` with ``ref_i`` and ``ref_q``, ``'single'`` with ``ref``,
+            ``'encoder'`` with ``position``; ``None`` when there is none (the pipeline then
+            needs a mirror speed).
+        """
+        if "ref_i" in self.columns and "ref_q" in self.columns:
+            return "quadrature"
+        if "ref" in self.columns:
+            return "single"
+        if "position" in self.columns:
+            return "encoder"
+        return None
+
+    @property
+    def position_m(self) -> np.ndarray:
+        """The ``position`` column in metres, using the ``position_unit`` metadata (default m).
+
+        Raises
+        ------
+        RecordError
+            Without a ``position`` column, or if ``position_unit`` is not a length unit.
+        """
+        pos = self["position"]
+        unit_text = self.metadata.get("position_unit", "m")
+        scale = _position_scale(unit_text, where=self.path)
+        out = pos * scale
+        out.flags.writeable = False
+        return out
+
+    def metadata_quantity(self, key: str, physical_type: str):
+        """Parse metadata ``key`` as a quantity, or return ``None`` when the key is absent.
+
+        Parameters
+        ----------
+        key : str
+            A metadata key such as ``'reference_wavelength'`` or ``'air_temperature'``.
+        physical_type : str
+            See :func:`ftsource.quantity.parse_quantity`.
+
+        Returns
+        -------
+        astropy.units.Quantity or None
+
+        Raises
+        ------
+        RecordError
+            If the value is present but not a valid quantity of that type.
+        """
+        from .quantity import parse_quantity
+
+        k = _norm_key(key)
+        if k not in self.metadata:
+            return None
+        try:
+            return parse_quantity(
+                self.metadata[k], physical_type=physical_type, name=f"{self.path}: metadata {k}"
+            )
+        except OptionError as exc:
+            raise RecordError(str(exc)) from None
+
+
+def _as_readonly_float(values: Any, *, where: str, name: str) -> np.ndarray:
+    if isinstance(values, np.ndarray) and values.dtype == np.float64 and not values.flags.writeable:
+        arr = values
+    else:
+        try:
+            src = np.asarray(values)
+        except Exception:
+            raise RecordError(f"{where}: column {_show(name)} is not an array of numbers") from None
+        if src.dtype.kind not in "biuf":
+            raise RecordError(
+                f"{where}: column {_show(name)} holds {src.dtype} values; numbers are needed"
+            )
+        arr = np.array(src, dtype=np.float64, copy=True)
+    if arr.ndim != 1:
+        raise RecordError(
+            f"{where}: column {_show(name)} has shape {arr.shape}; each column must be 1-D"
+        )
+    if arr.flags.writeable:
+        arr.flags.writeable = False
+    return arr
+
+
+def _relative_jitter(t: np.ndarray) -> float:
+    dt = np.diff(t)
+    mean = (t[-1] - t[0]) / (t.size - 1)
+    return float(np.max(np.abs(dt - mean)) / mean)
+
+
+def _check_time(t: np.ndarray, *, where: str, line_of=None) -> None:
+    dt = np.diff(t)
+    bad = np.flatnonzero(~(dt > 0))
+    if bad.size:
+        i = int(bad[0]) + 1
+        at = f"line {line_of(i)}" if line_of else f"sample {i}"
+        raise RecordError(
+            f"{where}: column 'time' does not increase at {at} ({t[i - 1]!r} then {t[i]!r}); "
+            "times must increase strictly: sort the rows or remove repeated samples"
+        )
+
+
+def _check_rate(rate: Any, *, where: str, name: str) -> float:
+    try:
+        value = float(rate)
+    except (TypeError, ValueError):
+        raise RecordError(f"{where}: {name} {_show(rate)} is not a number of Hz") from None
+    if not math.isfinite(value) or value <= 0:
+        raise RecordError(
+            f"{where}: {name} {value!r} Hz is not allowed; a sample rate is finite and positive"
+        )
+    return value
+
+
+def _position_scale(unit_text: str, *, where: str) -> float:
+    from .quantity import parse_quantity
+
+    try:
+        q = parse_quantity(f"1 {unit_text}", physical_type="length", name="position_unit")
+    except OptionError:
+        raise RecordError(
+            f"{where}: metadata position_unit = {_show(unit_text)} is not a length unit; "
+            "use e.g. 'm', 'mm' or 'um'"
+        ) from None
+    return float(q.to_value("m"))
+
+
+# --------------------------------------------------------------------------------------------
+# Column mapping
+# --------------------------------------------------------------------------------------------
+
+
+def parse_column_map(text: str | Mapping[str, str], *, name: str = "--columns") -> dict[str, str]:
+    """Parse a column mapping such as ``"signal=PD1,ref=2"``.
+
+    Parameters
+    ----------
+    text : str or mapping
+        ``target=source`` pairs separated by commas. Targets are contract column names
+        (``time``, ``signal``, ``ref``, ``ref_i``, ``ref_q``, ``position``); sources are
+        column names in the file, or 0-based column/channel numbers (``2`` or ``ch2``).
+        A mapping is checked the same way.
+    name : str
+        How the option is named in error messages.
+
+    Returns
+    -------
+    dict
+        Lower-case target to source (source as written, stripped).
+
+    Raises
+    ------
+    OptionError
+        For an empty mapping, an item without ``=``, an unknown target, or a target or source
+        named twice.
+
+    References
+    ----------
+    .. [1] ftsource contract, ``docs/contract.md``, option ``--columns``.
+    """
+    if isinstance(text, Mapping):
+        items = [(str(k), str(v)) for k, v in text.items()]
+    elif isinstance(text, str):
+        items = []
+        for part in text.split(","):
+            if not part.strip():
+                continue
+            if part.count("=") != 1:
+                raise OptionError(
+                    f"{name}: {_show(part.strip())} is not 'name=column'; "
+                    "write e.g. 'signal=PD1,ref=PD2'"
+                )
+            k, v = part.split("=")
+            items.append((k, v))
+    else:
+        raise OptionError(f"{name}: {_show(text)} is not a column mapping such as 'signal=PD1'")
+    if not items:
+        raise OptionError(f"{name}: the mapping is empty; write e.g. 'signal=PD1,ref=PD2'")
+    out: dict[str, str] = {}
+    sources: dict[str, str] = {}
+    for k, v in items:
+        target = k.strip().lower()
+        source = v.strip()
+        if target not in COLUMN_NAMES:
+            raise OptionError(
+                f"{name}: {_show(k.strip())} is not a column name; "
+                f"allowed: {', '.join(COLUMN_NAMES)}"
+            )
+        if not source:
+            raise OptionError(f"{name}: {target}= names no column")
+        if target in out:
+            raise OptionError(f"{name}: {target} is mapped twice")
+        skey = _source_key(source)
+        if skey in sources:
+            raise OptionError(
+                f"{name}: column {_show(source)} is mapped to both {sources[skey]} and {target}"
+            )
+        sources[skey] = target
+        out[target] = source
+    return out
+
+
+def _source_key(source: str) -> str:
+    s = source.strip().lower()
+    m = re.fullmatch(r"(?:ch)?(\d+)", s)
+    return f"#{int(m.group(1))}" if m else s
+
+
+def _apply_map(
+    names: list[str], arrays: list[np.ndarray], mapping: dict[str, str] | None, *, where: str,
+    allow_index: bool, default_names: tuple[str, ...] | None = None,
+) -> dict[str, np.ndarray]:
+    """Name the file's columns: by mapping, else by the file's own (or default) names."""
+    lower = [n.strip().lower() for n in names]
+    if mapping is None:
+        final = list(default_names) + lower[len(default_names):] if default_names else lower
+        return dict(zip(final, arrays, strict=True))
+    renamed: dict[int, str] = {}
+    for target, source in mapping.items():
+        s = source.strip().lower()
+        if s in lower:
+            idx = lower.index(s)
+        elif allow_index and re.fullmatch(r"(?:ch)?\d+", s):
+            idx = int(s.removeprefix("ch"))
+            if idx >= len(names):
+                count = len(names)
+                what = "channel" if default_names is not None else "column"
+                extra = (
+                    " (mono); a reference needs a second channel: record the reference "
+                    "detector on the other channel of the sound card"
+                    if count == 1 and what == "channel" else ""
+                )
+                raise OptionError(
+                    f"--columns: {target}={source} names {what} {idx} but {where} has "
+                    f"{count} {what}{'s' if count != 1 else ''}{extra}; {what}s are "
+                    "numbered from 0"
+                )
+        else:
+            raise OptionError(
+                f"--columns: {target}={source}: {where} has no column {_show(source)}; "
+                f"available: {', '.join(names)}"
+            )
+        renamed[idx] = target
+    out: dict[str, np.ndarray] = {}
+    targets = set(renamed.values())
+    for idx, (nm, arr) in enumerate(zip(lower, arrays, strict=True)):
+        if idx in renamed:
+            out[renamed[idx]] = arr
+        elif nm not in targets:
+            out[nm] = arr
+    # keep mapped columns first, in contract order, for a tidy listing
+    order = [c for c in COLUMN_NAMES if c in out] + [c for c in out if c not in COLUMN_NAMES]
+    return {c: out[c] for c in order}
+
+
+# --------------------------------------------------------------------------------------------
+# Reading
+# --------------------------------------------------------------------------------------------
+
+
+def read_record(
+    path: str | os.PathLike,
+    *,
+    columns: str | Mapping[str, str] | None = None,
+    sample_rate: Any = None,
+) -> Record:
+    """Read a record file (text table, ``.npz`` or ``.wav``) into a :class:`Record`.
+
+    Parameters
+    ----------
+    path : str or path-like
+        The file. Its extension chooses the reader: ``.csv``, ``.tsv``, ``.txt``, ``.dat``
+        (text), ``.npz``, ``.wav`` (case-insensitive).
+    columns : str or mapping, optional
+        Column mapping, see :func:`parse_column_map`. Without it, text and ``.npz`` columns
+        keep their names and WAV channels are named by count (1: ``signal``; 2: ``signal,
+        ref``; 3: ``signal, ref_i, ref_q``; more: the first three as for 3, then ``ch3``,
+        ``ch4``, ...).
+    sample_rate : Quantity, str or float, optional
+        Sample rate (a float is in Hz). Overrides the ``sample_rate`` metadata and a WAV
+        header's rate; must agree (within :data:`RATE_TOLERANCE`) with a ``time`` column.
+
+    Returns
+    -------
+    Record
+
+    Raises
+    ------
+    RecordError
+        If the file is missing, unreadable, malformed, too short, holds non-finite values or
+        pickled objects, or states conflicting sample rates.
+    OptionError
+        If ``columns`` or ``sample_rate`` is not valid, or ``columns`` names a column the file
+        does not have.
+
+    References
+    ----------
+    .. [1] ftsource contract, ``docs/contract.md``: record columns, file forms and metadata.
+    .. [2] IBM and Microsoft, "Multimedia Programming Interface and Data Specifications 1.0"
+       (1991): the RIFF WAVE layout.
+    .. [3] NumPy Enhancement Proposal 1, "A simple file format for NumPy arrays" (``.npz``).
+    """
+    where = os.fspath(path) if isinstance(path, (str, os.PathLike)) else None
+    if not isinstance(where, str):
+        raise RecordError(f"record path {_show(path)} is not a file name")
+    mapping = parse_column_map(columns) if columns is not None else None
+    rate_arg = _rate_argument(sample_rate) if sample_rate is not None else None
+    if not os.path.exists(where):
+        raise RecordError(f"{where}: no such file")
+    if os.path.isdir(where):
+        raise RecordError(f"{where}: is a directory, not a record file")
+    ext = os.path.splitext(where)[1].lower()
+    if ext not in TEXT_EXTENSIONS + (".npz", ".wav"):
+        raise RecordError(
+            f"{where}: the extension {_show(ext or '(none)')} is not a record form; use "
+            f"{', '.join(TEXT_EXTENSIONS)}, .npz or .wav"
+        )
+    try:
+        size = os.path.getsize(where)
+        with open(where, "rb") as fh:
+            head = fh.read(16)
+    except OSError as exc:
+        raise RecordError(f"{where}: cannot be read ({exc.strerror or exc})") from None
+    if size == 0:
+        raise RecordError(f"{where}: is empty")
+    try:
+        if ext == ".npz":
+            return _read_npz(where, head, mapping, rate_arg)
+        if ext == ".wav":
+            return _read_wav(where, mapping, rate_arg)
+        return _read_text(where, head, mapping, rate_arg)
+    except OSError as exc:
+        raise RecordError(f"{where}: cannot be read ({exc.strerror or exc})") from None
+    except MemoryError:
+        raise RecordError(f"{where}: is too large to read into memory") from None
+
+
+def _rate_argument(sample_rate: Any) -> float:
+    from .quantity import to_float
+
+    if _is_number(sample_rate):
+        value = float(sample_rate)
+    else:
+        value = to_float(sample_rate, "Hz", name="sample_rate")
+    if not math.isfinite(value) or value <= 0:
+        raise OptionError(
+            f"sample_rate: {_show(sample_rate)} is not allowed; a sample rate is finite and "
+            "positive, e.g. '48 kHz'"
+        )
+    return value
+
+
+def _is_number(x: Any) -> bool:
+    return isinstance(x, (int, float, np.integer, np.floating)) and not isinstance(x, bool)
+
+
+def _metadata_rate(meta: dict[str, str], where: str) -> float | None:
+    if "sample_rate" not in meta:
+        return None
+    from .quantity import parse_quantity
+
+    try:
+        q = parse_quantity(
+            meta["sample_rate"], physical_type="frequency", name=f"{where}: metadata sample_rate"
+        )
+    except OptionError as exc:
+        raise RecordError(str(exc)) from None
+    value = float(q.to_value("Hz"))
+    if value <= 0:
+        raise RecordError(
+            f"{where}: metadata sample_rate = {_show(meta['sample_rate'])} is not allowed; "
+            "a sample rate is positive"
+        )
+    return value
+
+
+def _finish(
+    where: str, cols: dict[str, np.ndarray], meta: dict[str, str], rate_arg: float | None,
+    header_rate: float | None, source_format: str, *, line_of=None,
+    header_label: str = "sample_rate metadata",
+) -> Record:
+    """Check finiteness and time, settle the sample rate, and build the Record."""
+    for name, arr in cols.items():
+        bad = np.flatnonzero(~np.isfinite(arr))
+        if bad.size:
+            i = int(bad[0])
+            at = f"line {line_of(i)}" if line_of else f"sample {i}"
+            raise RecordError(
+                f"{where}: column {_show(name)} holds a non-finite value ({arr[i]}) at {at}; "
+                "remove or fill the gap"
+            )
+    n = next(iter(cols.values())).shape[0] if cols else 0
+    if n < MIN_SAMPLES:
+        raise RecordError(
+            f"{where}: holds {n} sample{'s' if n != 1 else ''}; at least {MIN_SAMPLES} are "
+            "needed"
+        )
+    rate = rate_arg if rate_arg is not None else header_rate
+    if "time" in cols:
+        t = cols["time"]
+        _check_time(t, where=where, line_of=line_of)
+        time_rate = (t.size - 1) / (t[-1] - t[0])
+        for given, what in ((rate_arg, "sample_rate argument"), (header_rate, header_label)):
+            if given is not None and abs(given - time_rate) > RATE_TOLERANCE * time_rate:
+                raise RecordError(
+                    f"{where}: the 'time' column gives {time_rate:.6g} Hz but the {what} says "
+                    f"{given:.6g} Hz; remove one or make them agree"
+                )
+        rate = float(time_rate)
+    for arr in cols.values():
+        arr.flags.writeable = False
+    return Record(
+        columns=cols, sample_rate_hz=rate, metadata=meta, path=where, source_format=source_format
+    )
+
+
+# ---- text --------------------------------------------------------------------------------
+
+
+def _decode(line: str) -> str:
+    """Lines are read as Latin-1 (never fails); recover UTF-8 text where it is UTF-8."""
+    try:
+        return line.encode("latin-1").decode("utf-8")
+    except UnicodeDecodeError:
+        return line
+
+
+def _split(line: str, delimiter: str | None) -> list[str]:
+    parts = line.split(delimiter) if delimiter else line.split()
+    return [p.strip().strip('"').strip("'").strip() for p in parts]
+
+
+def _sniff(header: str) -> str | None:
+    for d in (",", "\t", ";"):
+        if d in header:
+            return d
+    return None
+
+
+def _is_number_text(cell: str) -> bool:
+    if "_" in cell:
+        return False
+    try:
+        float(cell)
+    except ValueError:
+        return False
+    return True
+
+
+def _read_text(where: str, head: bytes, mapping, rate_arg) -> Record:
+    if head.startswith((b"\xff\xfe", b"\xfe\xff")):
+        raise RecordError(f"{where}: is UTF-16 text; save it as UTF-8 (or ASCII) text")
+    if head.startswith((b"PK\x03\x04", b"RIFF", b"\x93NUMPY")):
+        raise RecordError(
+            f"{where}: is a binary file (.npz, .wav or .npy) with a text extension; "
+            "give it its proper extension"
+        )
+    meta: dict[str, str] = {}
+    meta_line: dict[str, int] = {}
+    header = None
+    header_lineno = 0
+    with open(where, encoding="latin-1", newline=None) as fh:
+        for lineno, raw in enumerate(fh, start=1):
+            if "\x00" in raw:
+                raise RecordError(
+                    f"{where}: line {lineno} holds NUL bytes; this is not a text table"
+                )
+            line = _decode(raw)
+            if lineno == 1:
+                line = line.removeprefix("\ufeff")
+            stripped = line.strip()
+            if not stripped:
+                continue
+            if stripped.startswith("#"):
+                m = _METADATA_LINE.match(stripped)
+                if m and _KEY.match(m.group("key")):
+                    key = _norm_key(m.group("key"))
+                    value = m.group("value")
+                    if key in KNOWN_KEYS and key in meta and meta[key] != value:
+                        raise RecordError(
+                            f"{where}: metadata {key} is given twice with different values "
+                            f"(lines {meta_line[key]} and {lineno}); keep one"
+                        )
+                    meta[key] = value
+                    meta_line[key] = lineno
+                continue
+            header = line.split("#", 1)[0].strip()
+            header_lineno = lineno
+            break
+    if header is None:
+        raise RecordError(
+            f"{where}: has no header line and no data; the first line that is not a comment "
+            "must name the columns, e.g. 'time,signal,ref'"
+        )
+    delimiter = _sniff(header)
+    names = _split(header, delimiter)
+    if all(_is_number_text(c) for c in names):
+        raise RecordError(
+            f"{where}: line {header_lineno} holds numbers where the header should be; add a "
+            "first line naming the columns, e.g. 'time,signal,ref'"
+        )
+    seen: dict[str, int] = {}
+    for i, nm in enumerate(names):
+        if not nm or not nm.isprintable() or len(nm) > 64:
+            raise RecordError(
+                f"{where}: line {header_lineno}: column {i} has no usable name "
+                f"({_show(nm)}); name every column in the header"
+            )
+        if nm.lower() in seen:
+            raise RecordError(
+                f"{where}: line {header_lineno}: column name {_show(nm)} appears twice "
+                "(names ignore case)"
+            )
+        seen[nm.lower()] = i
+
+    reader = _TextData(where, header_lineno, names, delimiter)
+    arrays = reader.read()
+    cols = _apply_map(names, arrays, mapping, where=where, allow_index=True)
+    header_rate = _metadata_rate(meta, where)
+    return _finish(where, cols, meta, rate_arg, header_rate, "text", line_of=reader.line_of)
+
+
+class _TextData:
+    """The data lines of a text table, parsed in blocks.
+
+    Each block of lines goes to :func:`numpy.loadtxt` (fast). A block that it refuses is read
+    again cell by cell in Python, which either finds the line and cell at fault for the error
+    message or parses what loadtxt did not accept (e.g. a line holding only a comment after
+    leading blanks).
+    """
+
+    BLOCK = 65536
+
+    def __init__(self, where: str, header_lineno: int, names: list[str], delimiter: str | None):
+        self.where = where
+        self.header_lineno = header_lineno
+        self.names = names
+        self.delimiter = delimiter
+
+    def read(self) -> list[np.ndarray]:
+        ncol = len(self.names)
+        parts: list[list[np.ndarray]] = [[] for _ in range(ncol)]
+        total = 0
+        with open(self.where, encoding="latin-1", newline=None) as fh:
+            for _ in itertools.islice(fh, self.header_lineno):
+                pass
+            first = self.header_lineno + 1
+            while True:
+                lines = list(itertools.islice(fh, self.BLOCK))
+                if not lines:
+                    break
+                block = self._fast(lines)
+                if block is None:
+                    block = self._slow(lines, first)
+                for j in range(ncol):
+                    parts[j].append(block[:, j])
+                total += block.shape[0]
+                first += len(lines)
+        if total == 0:
+            raise RecordError(
+                f"{self.where}: has a header (line {self.header_lineno}) but no data rows"
+            )
+        return [np.concatenate(p) if len(p) > 1 else np.ascontiguousarray(p[0]) for p in parts]
+
+    def _fast(self, lines: list[str]) -> np.ndarray | None:
+        try:
+            with warnings.catch_warnings():
+                warnings.simplefilter("ignore")  # "input contained no data": a comment block
+                block = np.loadtxt(
+                    lines, dtype=np.float64, delimiter=self.delimiter, comments="#",
+                    ndmin=2, quotechar='"',
+                )
+        except (ValueError, IndexError, TypeError):
+            return None
+        if block.shape[0] == 0:
+            return np.empty((0, len(self.names)))
+        if block.shape[1] != len(self.names):
+            return None
+        return block
+
+    def _slow(self, lines: list[str], first: int) -> np.ndarray:
+        ncol = len(self.names)
+        sep = {",": "commas", "\t": "tabs", ";": "semicolons", None: "whitespace"}
+        values: list[float] = []
+        for k, raw in enumerate(lines):
+            line = raw.split("#", 1)[0].strip()
+            if not line:
+                continue
+            lineno = first + k
+            cells = _split(line, self.delimiter)
+            if len(cells) != ncol:
+                raise RecordError(
+                    f"{self.where}: line {lineno} has {len(cells)} value"
+                    f"{'s' if len(cells) != 1 else ''} but the header (line "
+                    f"{self.header_lineno}) names {ncol} columns ({', '.join(self.names)}); "
+                    f"values are separated by {sep[self.delimiter]}"
+                )
+            for j, cell in enumerate(cells):
+                if not _is_number_text(cell):
+                    what = "is empty" if not cell else f"holds {_show(cell, 30)}, not a number"
+                    hint = (
+                        "; use '.' as the decimal mark"
+                        if re.fullmatch(r"[+-]?\d+,\d+", cell) else ""
+                    )
+                    raise RecordError(
+                        f"{self.where}: line {lineno}: the cell in column "
+                        f"{_show(self.names[j])} {what}{hint}"
+                    )
+                values.append(float(cell))
+        return np.array(values, dtype=np.float64).reshape(-1, ncol)
+
+    def line_of(self, row: int) -> int:
+        """File line number of data row ``row`` (0-based); for error messages only."""
+        k = -1
+        with open(self.where, encoding="latin-1", newline=None) as fh:
+            for lineno, raw in enumerate(fh, start=1):
+                if lineno <= self.header_lineno or not raw.split("#", 1)[0].strip():
+                    continue
+                k += 1
+                if k == row:
+                    return lineno
+        return -1
+
+
+# ---- npz ---------------------------------------------------------------------------------
+
+
+def _read_npz(where: str, head: bytes, mapping, rate_arg) -> Record:
+    if head.startswith(b"\x93NUMPY"):
+        raise RecordError(
+            f"{where}: holds a single .npy array, not an .npz archive of named columns; save "
+            "with numpy.savez(path, signal=..., ref=...)"
+        )
+    if not head.startswith((b"PK\x03\x04", b"PK\x05\x06")):
+        raise RecordError(
+            f"{where}: is not an .npz archive (a zip file of .npy arrays, as numpy.savez writes)"
+        )
+    with open(where, "rb") as fh:
+        # numpy.load is given an open file so that a damaged archive cannot leak the handle
+        try:
+            loaded = np.load(fh, allow_pickle=False)
+        except Exception as exc:  # zipfile.BadZipFile, OSError, EOFError, ValueError, ...
+            raise RecordError(f"{where}: is a damaged .npz archive ({_one_line(exc)})") from None
+        if not isinstance(loaded, np.lib.npyio.NpzFile):
+            raise RecordError(f"{where}: is not an .npz archive of named columns")
+        with loaded:
+            try:
+                names, arrays, meta = _npz_members(where, loaded)
+            except FtsourceError:
+                raise
+            except Exception as exc:  # zipfile, zlib, struct, EOF errors of a damaged archive
+                raise RecordError(
+                    f"{where}: is a damaged .npz archive ({_one_line(exc)})"
+                ) from None
+    if not names:
+        raise RecordError(f"{where}: holds no column arrays; save e.g. signal=..., ref=...")
+    lengths = {a.shape[0] for a in arrays}
+    if len(lengths) > 1:
+        desc = ", ".join(f"{n}: {a.shape[0]}" for n, a in zip(names, arrays, strict=True))
+        raise RecordError(f"{where}: columns differ in length ({desc}); all need the same length")
+    seen = set()
+    for nm in names:
+        if nm.strip().lower() in seen:
+            raise RecordError(f"{where}: column name {_show(nm)} appears twice (names ignore case)")
+        seen.add(nm.strip().lower())
+    cols = _apply_map(names, arrays, mapping, where=where, allow_index=False)
+    header_rate = _metadata_rate(meta, where)
+    return _finish(where, cols, meta, rate_arg, header_rate, "npz")
+
+
+def _npz_members(
+    where: str, loaded
+) -> tuple[list[str], list[np.ndarray], dict[str, str]]:
+    names: list[str] = []
+    arrays: list[np.ndarray] = []
+    meta: dict[str, str] = {}
+    for key in list(loaded.files):
+        try:
+            arr = loaded[key]
+        except ValueError as exc:
+            if "pickle" in str(exc).lower() or "object" in str(exc).lower():
+                raise RecordError(
+                    f"{where}: refused: holds pickled objects (array {_show(key)}); save "
+                    "plain numeric arrays"
+                ) from None
+            raise
+        if not isinstance(arr, np.ndarray):
+            raise RecordError(
+                f"{where}: member {_show(key)} is not a NumPy array; an .npz record holds "
+                "only .npy arrays"
+            )
+        if key.lower() == "metadata":
+            meta = _npz_metadata(arr, where)
+            continue
+        if arr.dtype.kind not in "biuf":
+            raise RecordError(
+                f"{where}: array {_show(key)} holds {arr.dtype} values; columns must be "
+                "numbers (real integers or floats)"
+            )
+        if arr.ndim != 1:
+            raise RecordError(
+                f"{where}: array {_show(key)} has shape {arr.shape}; each column must "
+                "be a 1-D array"
+            )
+        names.append(key)
+        arrays.append(np.ascontiguousarray(arr, dtype=np.float64))
+    return names, arrays, meta
+
+
+def _npz_metadata(arr: np.ndarray, where: str) -> dict[str, str]:
+    if arr.dtype.kind not in "US" or arr.ndim > 1:
+        raise RecordError(
+            f"{where}: the 'metadata' array must be 1-D text ('key = value' strings), "
+            f"not {arr.dtype} of shape {arr.shape}"
+        )
+    meta: dict[str, str] = {}
+    for item in np.atleast_1d(arr).tolist():
+        text = item.decode("utf-8", "replace") if isinstance(item, bytes) else str(item)
+        text = text.strip().removeprefix("#").strip()
+        if not text:
+            continue
+        key, eq, value = text.partition("=")
+        if not eq or not _KEY.match(key.strip()):
+            raise RecordError(
+                f"{where}: metadata entry {_show(text)} is not 'key = value'"
+            )
+        k = _norm_key(key)
+        value = value.strip()
+        if k in KNOWN_KEYS and k in meta and meta[k] != value:
+            raise RecordError(f"{where}: metadata {k} is given twice with different values")
+        meta[k] = value
+    return meta
+
+
+def _one_line(exc: BaseException) -> str:
+    text = " ".join(str(exc).split()) or type(exc).__name__
+    return f"{type(exc).__name__}: {text}"[:160]
+
+
+# ---- wav ---------------------------------------------------------------------------------
+
+
+def _wav_layout(where: str) -> tuple[int, int, int, int]:
+    """Walk the RIFF chunks and refuse truncated or malformed files before decoding.
+
+    scipy.io.wavfile returns the part of a truncated data chunk with only a warning; a record
+    with missing samples must be refused instead.
+    """
+    size = os.path.getsize(where)
+    with open(where, "rb") as fh:
+        head = fh.read(12)
+        if len(head) < 12:
+            raise RecordError(f"{where}: is too short ({size} bytes) to be a WAV file")
+        riff, _, wave = struct.unpack("<4sI4s", head)
+        if riff not in (b"RIFF", b"RIFX") or wave != b"WAVE":
+            raise RecordError(f"{where}: is not a RIFF WAVE file (starts with {head[:4]!r})")
+        endian = "<" if riff == b"RIFF" else ">"
+        pos = 12
+        fmt = None
+        while pos + 8 <= size:
+            fh.seek(pos)
+            cid, csize = struct.unpack(endian + "4sI", fh.read(8))
+            if cid == b"fmt ":
+                if csize < 16 or pos + 8 + csize > size:
+                    raise RecordError(f"{where}: its 'fmt ' chunk is damaged or truncated")
+                fmt = struct.unpack(endian + "HHIIHH", fh.read(16))
+            elif cid == b"data":
+                if fmt is None:
+                    raise RecordError(f"{where}: has a 'data' chunk before its 'fmt ' chunk")
+                have = size - pos - 8
+                if csize > have:
+                    raise RecordError(
+                        f"{where}: is truncated: its data chunk declares {csize} bytes but "
+                        f"only {have} are present; the recording was cut short"
+                    )
+                block = fmt[4]
+                if block == 0 or csize % block:
+                    raise RecordError(
+                        f"{where}: its data chunk ({csize} bytes) is not a whole number of "
+                        f"frames of {block} bytes; the file is damaged"
+                    )
+                return fmt[0], fmt[1], fmt[2], fmt[5]
+            pos += 8 + csize + (csize & 1)
+    raise RecordError(f"{where}: has no complete 'data' chunk (truncated or not a WAV file)")
+
+
+def _read_wav(where: str, mapping, rate_arg) -> Record:
+    import scipy.io.wavfile as wavfile
+
+    bits = _wav_layout(where)[3]
+    try:
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore")  # unknown chunks (LIST, ...) are skipped silently
+            file_rate, data = wavfile.read(where, mmap=False)
+    except FtsourceError:
+        raise
+    except Exception as exc:  # ValueError for unsupported formats, struct.error, EOFError, ...
+        raise RecordError(f"{where}: cannot be decoded as WAV ({_one_line(exc)})") from None
+    if data.ndim == 1:
+        data = data[:, None]
+    nch = data.shape[1]
+    if nch == 0:
+        raise RecordError(f"{where}: holds no channels")
+    values = _wav_scale(data, where)
+    arrays = [np.ascontiguousarray(values[:, j]) for j in range(nch)]
+    del values
+    names = [f"ch{j}" for j in range(nch)]
+    defaults = _WAV_DEFAULTS.get(nch, _WAV_DEFAULTS[3])
+    cols = _apply_map(names, arrays, mapping, where=where, allow_index=True, default_names=defaults)
+    header_rate = None
+    if file_rate:
+        header_rate = float(file_rate)
+    elif rate_arg is None:
+        raise RecordError(
+            f"{where}: its header gives a sample rate of 0 Hz; give the true rate with "
+            "--sample-rate"
+        )
+    kind = "float" if data.dtype.kind == "f" else "integer"
+    meta = {"wav_channels": str(nch), "wav_sample_format": f"{bits}-bit {kind}"}
+    return _finish(where, cols, meta, rate_arg, header_rate, "wav", header_label="WAV header")
+
+
+def _wav_scale(data: np.ndarray, where: str) -> np.ndarray:
+    """Scale WAV samples to float64 with integer full scale at 1.0.
+
+    scipy.io.wavfile returns 24-bit samples in int32 with the 24 bits left-justified, so 24-
+    and 32-bit integer PCM both scale by 2**31 here (for 24-bit that is the shift right by 8
+    followed by division by 2**23).
+    """
+    kind, size = data.dtype.kind, data.dtype.itemsize
+    if kind == "f":
+        with np.errstate(invalid="ignore", over="ignore"):  # NaN/inf are refused afterwards
+            return data.astype(np.float64)
+    if kind == "u" and size == 1:
+        return (data.astype(np.float64) - 128.0) / 128.0
+    if kind == "i":
+        return data.astype(np.float64) / float(2 ** (8 * size - 1))
+    raise RecordError(f"{where}: holds {data.dtype} samples, which this reader does not handle")
+
+
+# --------------------------------------------------------------------------------------------
+# Writing
+# --------------------------------------------------------------------------------------------
+
+
+def _columns_of(record_like: Record | Mapping[str, Any]) -> dict[str, np.ndarray]:
+    src = record_like.columns if isinstance(record_like, Record) else record_like
+    if not isinstance(src, Mapping) or not src:
+        raise OptionError("columns: give a Record or a non-empty mapping of name to samples")
+    out = {}
+    for k, v in src.items():
+        name = str(k).strip().lower()
+        arr = np.asarray(v, dtype=np.float64)
+        if arr.ndim != 1:
+            raise OptionError(f"columns: {_show(name)} has shape {arr.shape}; columns are 1-D")
+        out[name] = arr
+    if len({a.shape[0] for a in out.values()}) != 1:
+        raise OptionError("columns: all columns need the same length")
+    return out
+
+
+def _metadata_for(
+    record_like, sample_rate_hz: float | None, metadata: Mapping[str, str] | None,
+    cols: Mapping[str, np.ndarray],
+) -> dict[str, str]:
+    meta: dict[str, str] = {}
+    if isinstance(record_like, Record):
+        meta.update(record_like.metadata)
+        if sample_rate_hz is None:
+            sample_rate_hz = record_like.sample_rate_hz
+    for k, v in (metadata or {}).items():
+        meta[_norm_key(str(k))] = str(v)
+    for k, v in meta.items():
+        if not _KEY.match(k) or "\n" in v or "\r" in v:
+            raise OptionError(
+                f"metadata: {_show(k)} = {_show(v)} cannot be written; keys are names and "
+                "values are single lines"
+            )
+    for k in ("wav_channels", "wav_sample_format"):
+        meta.pop(k, None)
+    if sample_rate_hz is not None and "time" not in cols:
+        rate = _check_rate_option(sample_rate_hz)
+        meta["sample_rate"] = f"{rate!r} Hz"
+    elif "time" in cols:
+        meta.pop("sample_rate", None)
+    return meta
+
+
+def _check_rate_option(rate: Any) -> float:
+    try:
+        value = float(rate)
+    except (TypeError, ValueError):
+        raise OptionError(f"sample_rate_hz: {_show(rate)} is not a number of Hz") from None
+    if not math.isfinite(value) or value <= 0:
+        raise OptionError(f"sample_rate_hz: {value!r} is not allowed; it is finite and positive")
+    return value
+
+
+def _atomic_write(path: str | os.PathLike, write, *, overwrite: bool) -> None:
+    target = os.fspath(path)
+    if os.path.isdir(target):
+        raise OutputError(f"{target}: is a directory; give a file name")
+    if not overwrite and os.path.exists(target):
+        raise OutputError(f"{target}: exists already; allow overwriting or choose another name")
+    folder = os.path.dirname(os.path.abspath(target))
+    try:
+        fd, tmp = tempfile.mkstemp(
+            dir=folder, prefix="." + os.path.basename(target) + ".", suffix=".tmp"
+        )
+    except OSError as exc:
+        raise OutputError(f"{target}: cannot be written ({exc.strerror or exc})") from None
+    try:
+        with os.fdopen(fd, "wb") as fh:
+            write(fh)
+        mode = os.stat(target).st_mode & 0o7777 if os.path.exists(target) else 0o644
+        os.chmod(tmp, mode)
+        os.replace(tmp, target)
+    except BaseException as exc:
+        try:
+            os.unlink(tmp)
+        except OSError:
+            pass
+        if isinstance(exc, OSError) and not isinstance(exc, FtsourceError):
+            raise OutputError(f"{target}: cannot be written ({exc.strerror or exc})") from None
+        raise
+
+
+def write_record_csv(
+    path: str | os.PathLike,
+    record_like: Record | Mapping[str, Any],
+    *,
+    sample_rate_hz: float | None = None,
+    metadata: Mapping[str, str] | None = None,
+    delimiter: str = ",",
+    overwrite: bool = True,
+) -> None:
+    """Write a record as a text table that :func:`read_record` reads back exactly.
+
+    Parameters
+    ----------
+    path : str or path-like
+        The file to write (written to a temporary file first, then moved into place).
+    record_like : Record or mapping of str to array_like
+        The columns (and, for a Record, its metadata and sample rate).
+    sample_rate_hz : float, optional
+        Written as ``# sample_rate = ... Hz`` when there is no ``time`` column.
+    metadata : mapping, optional
+        Extra ``# key = value`` lines (override the Record's).
+    delimiter : {',', '\\t', ';', ' '}
+        Column separator.
+    overwrite : bool
+        Replace an existing file (default) or raise :class:`OutputError`.
+
+    Notes
+    -----
+    Numbers are written with 17 significant digits, enough to restore every float64 exactly.
+
+    References
+    ----------
+    .. [1] IEEE 754-2008, section 5.12.2: 17 significant decimal digits round-trip binary64.
+    """
+    if delimiter not in (",", "\t", ";", " "):
+        raise OptionError(f"delimiter: {_show(delimiter)} is not one of ',', tab, ';', ' '")
+    cols = _columns_of(record_like)
+    meta = _metadata_for(record_like, sample_rate_hz, metadata, cols)
+    for name in cols:
+        if not name or any(ch in name for ch in ",\t; #\"'") or not name.isprintable():
+            raise OptionError(f"columns: {_show(name)} cannot be a text column name")
+    table = np.column_stack(list(cols.values()))
+
+    def write(fh):
+        lines = [f"# {k} = {v}\n" for k, v in meta.items()]
+        lines.append(delimiter.join(cols) + "\n")
+        fh.write("".join(lines).encode("utf-8"))
+        np.savetxt(fh, table, fmt="%.17g", delimiter=delimiter)
+
+    _atomic_write(path, write, overwrite=overwrite)
+
+
+def write_record_npz(
+    path: str | os.PathLike,
+    record_like: Record | Mapping[str, Any],
+    *,
+    sample_rate_hz: float | None = None,
+    metadata: Mapping[str, str] | None = None,
+    compress: bool = False,
+    overwrite: bool = True,
+) -> None:
+    """Write a record as an ``.npz`` archive: one array per column plus ``metadata``.
+
+    Parameters
+    ----------
+    path : str or path-like
+        The file to write (written to a temporary file first, then moved into place).
+    record_like : Record or mapping of str to array_like
+        The columns (and, for a Record, its metadata and sample rate).
+    sample_rate_hz : float, optional
+        Stored as the metadata entry ``sample_rate = ... Hz`` when there is no ``time`` column.
+    metadata : mapping, optional
+        Extra metadata entries (override the Record's).
+    compress : bool
+        Use :func:`numpy.savez_compressed`.
+    overwrite : bool
+        Replace an existing file (default) or raise :class:`OutputError`.
+
+    References
+    ----------
+    .. [1] NumPy Enhancement Proposal 1, "A simple file format for NumPy arrays".
+    """
+    cols = _columns_of(record_like)
+    meta = _metadata_for(record_like, sample_rate_hz, metadata, cols)
+    if "metadata" in cols:
+        raise OptionError("columns: 'metadata' is reserved in .npz records")
+    arrays: dict[str, np.ndarray] = dict(cols)
+    if meta:
+        arrays["metadata"] = np.array([f"{k} = {v}" for k, v in meta.items()], dtype=str)
+    saver = np.savez_compressed if compress else np.savez
+
+    def write(fh):
+        saver(fh, **arrays)
+
+    _atomic_write(path, write, overwrite=overwrite)
+
+
+_WAV_BITS = (8, 16, 24, 32, "float", "float64")
+
+
+def write_record_wav(
+    path: str | os.PathLike,
+    columns: Record | Mapping[str, Any],
+    sample_rate_hz: float | None = None,
+    *,
+    bits: int | str = 16,
+    clip: bool = False,
+    overwrite: bool = True,
+) -> None:
+    """Write columns as a WAV file, one channel per column.
+
+    Parameters
+    ----------
+    path : str or path-like
+        The file to write (written to a temporary file first, then moved into place).
+    columns : Record or mapping of str to array_like
+        Samples in full-scale units (integer full scale is 1.0). When the names are exactly
+        one of the contract's default channel sets (``signal``; ``signal, ref``; ``signal,
+        ref_i, ref_q``) they are written in that order so that they read back by name;
+        otherwise in the mapping's order. A ``time`` column is dropped after checking that it
+        matches ``sample_rate_hz``.
+    sample_rate_hz : float
+        A whole number of Hz (the WAV header stores an integer). Taken from a Record when
+        omitted.
+    bits : {16, 24, 32, 8, 'float', 'float64'}
+        Integer PCM depth, or IEEE float (32-bit ``'float'``, 64-bit ``'float64'``).
+    clip : bool
+        Clip integer PCM to full scale instead of refusing samples outside [-1, 1].
+    overwrite : bool
+        Replace an existing file (default) or raise :class:`OutputError`.
+
+    Notes
+    -----
+    Integer samples are ``round(x * 2**(bits-1))`` limited to the integer range, so +1.0 is
+    stored as the largest code, ``1 - 2**(1-bits)`` (8-bit is unsigned with offset 128).
+    The file has a ``fmt`` chunk with format tag 1 (PCM) or 3 (IEEE float; then also a
+    ``fact`` chunk) and a ``data`` chunk, little-endian.
+
+    References
+    ----------
+    .. [1] IBM and Microsoft, "Multimedia Programming Interface and Data Specifications 1.0"
+       (1991), chapter 3, "WAVE form": fmt, fact and data chunks.
+    """
+    if bits not in _WAV_BITS:
+        raise OptionError(f"bits: {_show(bits)} is not one of 8, 16, 24, 32, 'float', 'float64'")
+    if isinstance(columns, Record) and sample_rate_hz is None:
+        sample_rate_hz = columns.sample_rate_hz
+    if sample_rate_hz is None:
+        raise OptionError("sample_rate_hz: a WAV file needs a sample rate")
+    rate = _check_rate_option(sample_rate_hz)
+    if rate != round(rate) or rate > 0xFFFFFFFF:
+        raise OptionError(
+            f"sample_rate_hz: {rate!r} is not allowed in a WAV header; it holds a whole "
+            "number of Hz up to 4294967295"
+        )
+    cols = _columns_of(columns)
+    if "time" in cols:
+        t = cols.pop("time")
+        if t.size > 1:
+            t_rate = (t.size - 1) / (t[-1] - t[0]) if t[-1] != t[0] else math.inf
+            if not abs(t_rate - rate) <= RATE_TOLERANCE * rate:
+                raise OptionError(
+                    f"columns: the 'time' column gives {t_rate:.6g} Hz but sample_rate_hz is "
+                    f"{rate:.6g}; a WAV file stores only the rate"
+                )
+    if not cols:
+        raise OptionError("columns: nothing to write besides 'time'")
+    names = list(cols)
+    for default in _WAV_DEFAULTS.values():
+        if set(names) == set(default):
+            names = list(default)
+            break
+    data = np.column_stack([cols[n] for n in names])
+    if not np.all(np.isfinite(data)):
+        raise OptionError("columns: hold non-finite values; a WAV file cannot store them")
+    payload, tag, width = _wav_encode(data, bits, clip)
+    nch = data.shape[1]
+    block = nch * width
+    fmt = struct.pack("<HHIIHH", tag, nch, int(rate), int(rate) * block, block, width * 8)
+    chunks = b"fmt " + struct.pack("<I", len(fmt)) + fmt
+    if tag == 3:
+        fmt = fmt + struct.pack("<H", 0)
+        chunks = b"fmt " + struct.pack("<I", len(fmt)) + fmt
+        chunks += b"fact" + struct.pack("<II", 4, data.shape[0])
+    pad = b"\x00" if len(payload) % 2 else b""
+    body = b"WAVE" + chunks + b"data" + struct.pack("<I", len(payload))
+    riff_size = len(body) + len(payload) + len(pad)
+    if riff_size > 0xFFFFFFFF:
+        raise OptionError("columns: too many samples for one WAV file (over 4 GiB)")
+
+    def write(fh):
+        fh.write(b"RIFF" + struct.pack("<I", riff_size) + body)
+        fh.write(payload)
+        fh.write(pad)
+
+    _atomic_write(path, write, overwrite=overwrite)
+
+
+def _wav_encode(data: np.ndarray, bits, clip: bool) -> tuple[bytes, int, int]:
+    if bits == "float":
+        return data.astype("<f4").tobytes(), 3, 4
+    if bits == "float64":
+        return data.astype("<f8").tobytes(), 3, 8
+    full = float(2 ** (bits - 1))
+    peak = float(np.max(np.abs(data))) if data.size else 0.0
+    if not clip and peak > 1.0:
+        raise OptionError(
+            f"columns: samples reach {peak:.6g} of full scale; {bits}-bit PCM holds -1 to 1; "
+            "scale the data or pass clip=True"
+        )
+    ints = np.rint(data * full)
+    lo, hi = -full, full - 1
+    ints = np.clip(ints, lo, hi).astype(np.int64)
+    if bits == 8:
+        return (ints + 128).astype(np.uint8).tobytes(), 1, 1
+    if bits == 16:
+        return ints.astype("<i2").tobytes(), 1, 2
+    if bits == 32:
+        return ints.astype("<i4").tobytes(), 1, 4
+    # 24-bit: three little-endian bytes per sample
+    u32 = ints.astype("<i4").view("<u4").reshape(-1, 1).view(np.uint8)
+    return np.ascontiguousarray(u32[:, :3]).tobytes(), 1, 3

@@ -1,0 +1,510 @@
+"""Reference wavelengths: calibration-lamp lines, laser standards and nominal laser lines.
+
+The line lists live as small ECSV tables in ``reference_spectra/`` (shipped inside the wheel as
+``ftsource/reference_spectra``). Every table has the same columns:
+
+``wavelength_vac_nm``
+    Vacuum wavelength, the primary value used for matching.
+``wavelength_air_nm``
+    The wavelength in standard air: for atomic lines the value NIST quotes; for lasers a value
+    computed from the vacuum one (see each file's metadata).
+``relative_intensity``
+    Relative intensity on the scale of the row's source (NaN where none was retrieved).
+``species``, ``kind``, ``note``, ``status``, ``ref``
+    Emitter (``"Ne I"``), kind of entry (``"atomic line"``, ``"standard"``, ``"nominal"``),
+    free text, verification status (V, V2, C, M) and a key into the file's ``references``
+    metadata.
+``u_vac_nm``
+    Standard uncertainty of the vacuum value where the source states one (NaN otherwise).
+
+Each file's metadata names its source, version, retrieval date and how the vacuum values were
+obtained. See ``docs/reference_spectra.md``.
+"""
+
+from __future__ import annotations
+
+import importlib.resources
+import math
+from collections.abc import Callable, Iterable, Sequence
+from dataclasses import dataclass
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+
+from .errors import FtsourceError, OptionError
+
+__all__ = [
+    "Candidate",
+    "line_list_names",
+    "load_line_list",
+    "search_lines",
+    "identify",
+    "standard_air_to_vacuum_nm",
+    "standard_vacuum_to_air_nm",
+]
+
+_FOLDER = "reference_spectra"
+_SUFFIX = ".ecsv"
+#: Columns every line list must have.
+REQUIRED_COLUMNS = (
+    "wavelength_vac_nm",
+    "wavelength_air_nm",
+    "relative_intensity",
+    "species",
+    "kind",
+    "note",
+    "status",
+    "ref",
+    "u_vac_nm",
+)
+_MEDIA = ("vacuum", "air")
+
+# IAU/Morton (2000, ApJS 130:403, eq. 8) standard-air dispersion, after Birch & Downs (1994).
+_MORTON_A = 8.34254e-5
+_MORTON_B = 2.406147e-2
+_MORTON_C = 130.0
+_MORTON_D = 1.5998e-4
+_MORTON_E = 38.9
+
+
+# --------------------------------------------------------------------------------------------
+# standard air
+# --------------------------------------------------------------------------------------------
+def _morton_n_minus_1(wl_vac_nm: np.ndarray) -> np.ndarray:
+    s2 = (1.0e3 / wl_vac_nm) ** 2  # sigma in um^-1, squared
+    return _MORTON_A + _MORTON_B / (_MORTON_C - s2) + _MORTON_D / (_MORTON_E - s2)
+
+
+def standard_vacuum_to_air_nm(wl_vac_nm: float | np.ndarray) -> float | np.ndarray:
+    """Convert vacuum wavelengths to wavelengths in IAU standard air.
+
+    Parameters
+    ----------
+    wl_vac_nm : float or array_like
+        Vacuum wavelength(s) in nm, 200 nm to 2000 nm (the range in which atomic-line tables
+        quote air values).
+
+    Returns
+    -------
+    float or numpy.ndarray
+        ``wl_vac_nm / n`` with ``n`` the refractive index of standard air (dry, 15 °C,
+        101 325 Pa) from Morton's formula, evaluated at the vacuum wavenumber.
+
+    Raises
+    ------
+    OptionError
+        If a wavelength is not finite or lies outside 200–2000 nm.
+
+    Notes
+    -----
+    n − 1 = 8.34254×10⁻⁵ + 2.406147×10⁻²/(130 − σ²) + 1.5998×10⁻⁴/(38.9 − σ²), σ in µm⁻¹.
+    This is the convention of the IAU and of tables quoting "air" wavelengths; it is *not* the
+    air of a real laboratory (for that, use :mod:`ftsource.air`).
+
+    References
+    ----------
+    .. [1] D. C. Morton, "Atomic data for resonance absorption lines. II. Wavelengths longward
+       of the H I Lyman limit for heavy elements", ApJS 130, 403 (2000), eq. 8.
+    .. [2] K. P. Birch and M. J. Downs, "Correction to the updated Edlén equation for the
+       refractive index of air", Metrologia 31, 315 (1994).
+    """
+    wl = _check_wavelengths(wl_vac_nm, "wl_vac_nm")
+    out = wl / (1.0 + _morton_n_minus_1(wl))
+    return float(out) if np.ndim(wl_vac_nm) == 0 else out
+
+
+def standard_air_to_vacuum_nm(wl_air_nm: float | np.ndarray) -> float | np.ndarray:
+    """Convert wavelengths in IAU standard air to vacuum wavelengths.
+
+    Parameters
+    ----------
+    wl_air_nm : float or array_like
+        Standard-air wavelength(s) in nm, 200 nm to 2000 nm.
+
+    Returns
+    -------
+    float or numpy.ndarray
+        Vacuum wavelength(s) ``λ_vac`` such that ``λ_vac / n(λ_vac) = λ_air`` with Morton's
+        standard-air index (see :func:`standard_vacuum_to_air_nm`). Solved by fixed-point
+        iteration on the vacuum wavenumber until the change is below 1×10⁻¹² nm.
+
+    Raises
+    ------
+    OptionError
+        If a wavelength is not finite or lies outside 200–2000 nm.
+
+    References
+    ----------
+    .. [1] D. C. Morton, ApJS 130, 403 (2000), eq. 8.
+    """
+    wl_air = _check_wavelengths(wl_air_nm, "wl_air_nm")
+    wl_vac = wl_air * (1.0 + _morton_n_minus_1(wl_air))
+    for _ in range(20):
+        new = wl_air * (1.0 + _morton_n_minus_1(wl_vac))
+        done = np.all(np.abs(new - wl_vac) < 1.0e-12)
+        wl_vac = new
+        if done:
+            break
+    return float(wl_vac) if np.ndim(wl_air_nm) == 0 else wl_vac
+
+
+def _check_wavelengths(values: Any, name: str) -> np.ndarray:
+    try:
+        arr = np.asarray(values, dtype=float)
+    except (TypeError, ValueError) as exc:
+        raise OptionError(f"{name} = {values!r} is not a number: give wavelengths in nm") from exc
+    if not np.all(np.isfinite(arr)) or np.any(arr < 200.0) or np.any(arr > 2000.0):
+        raise OptionError(
+            f"{name} = {values!r} is outside the standard-air range: allowed 200 nm to 2000 nm"
+        )
+    return arr
+
+
+# --------------------------------------------------------------------------------------------
+# files
+# --------------------------------------------------------------------------------------------
+def _data_folder() -> Path:
+    """The folder holding the line lists: the installed package first, then a source tree."""
+    candidates: list[Path] = []
+    try:
+        candidates.append(Path(str(importlib.resources.files("ftsource") / _FOLDER)))
+    except (ModuleNotFoundError, TypeError):  # pragma: no cover - defensive
+        pass
+    candidates.append(Path(__file__).resolve().parent.parent / _FOLDER)
+    for folder in candidates:
+        if folder.is_dir() and any(folder.glob("*" + _SUFFIX)):
+            return folder
+    raise FtsourceError(
+        f"no line lists found (looked in: {'; '.join(str(c) for c in candidates)}); the "
+        f"ftsource installation is incomplete - reinstall it, or run from a source checkout "
+        f"that has {_FOLDER}/"
+    )
+
+
+def line_list_names() -> list[str]:
+    """Names of the line lists shipped with ftsource.
+
+    Returns
+    -------
+    list of str
+        Sorted file stems of the ``*.ecsv`` tables in ``reference_spectra``, e.g.
+        ``["lamp_ar", ..., "laser_nominal", "laser_standards"]``.
+
+    References
+    ----------
+    .. [1] See ``docs/reference_spectra.md`` for the sources of each list.
+    """
+    return sorted(p.stem for p in _data_folder().glob("*" + _SUFFIX))
+
+
+def load_line_list(name: str):
+    """Load one line list as an astropy Table.
+
+    Parameters
+    ----------
+    name : str
+        A name from :func:`line_list_names`, e.g. ``"lamp_ne"`` or ``"laser_standards"``.
+
+    Returns
+    -------
+    astropy.table.Table
+        The table with the columns listed in the module docstring, sorted by vacuum
+        wavelength; its ``meta`` names the source, version, retrieval date and the way the
+        vacuum values were obtained. A fresh copy on every call.
+
+    Raises
+    ------
+    OptionError
+        If ``name`` is not one of :func:`line_list_names`.
+    FtsourceError
+        If the file lacks a required column.
+
+    References
+    ----------
+    .. [1] NIST Handbook of Basic Atomic Spectroscopic Data (SRD 108), J. E. Sansonetti and
+       W. C. Martin; CIPM recommendations on the practical realization of the metre.
+    """
+    from astropy.table import Table
+
+    names = line_list_names()
+    if not isinstance(name, str) or name not in names:
+        raise OptionError(f"line list {name!r} is not known: choose one of {', '.join(names)}")
+    path = _data_folder() / (name + _SUFFIX)
+    table = Table.read(path, format="ascii.ecsv")
+    missing = [c for c in REQUIRED_COLUMNS if c not in table.colnames]
+    if missing:
+        raise FtsourceError(f"line list {name!r} ({path}) lacks columns {missing}")
+    table.sort("wavelength_vac_nm")
+    table.meta["list_name"] = name
+    return table
+
+
+# --------------------------------------------------------------------------------------------
+# searching
+# --------------------------------------------------------------------------------------------
+def _resolve_lists(lists: str | Iterable[str] | None) -> list[str]:
+    if lists is None:
+        return line_list_names()
+    if isinstance(lists, str):
+        lists = [lists]
+    lists = list(lists)
+    known = line_list_names()
+    bad = [x for x in lists if x not in known]
+    if bad:
+        raise OptionError(f"lists = {bad!r} are not known: choose from {', '.join(known)}")
+    return lists
+
+
+def _element_of(species: str) -> str:
+    return species.split()[0] if species else ""
+
+
+def _check_float(value: Any, name: str, *, positive: bool = False) -> float | None:
+    if value is None:
+        return None
+    try:
+        x = float(value)
+    except (TypeError, ValueError) as exc:
+        raise OptionError(f"{name} = {value!r} is not a number") from exc
+    if not math.isfinite(x) or (positive and x <= 0) or (not positive and x < 0):
+        allowed = "a finite number > 0" if positive else "a finite number >= 0"
+        raise OptionError(f"{name} = {value!r} is not allowed: give {allowed}")
+    return x
+
+
+def search_lines(
+    *,
+    element: str | None = None,
+    min_nm: float | None = None,
+    max_nm: float | None = None,
+    near_nm: float | None = None,
+    tolerance_nm: float | None = None,
+    medium: str = "vacuum",
+    conditions: Any = None,
+    to_air: Callable[[np.ndarray], np.ndarray] | None = None,
+    lists: str | Sequence[str] | None = None,
+):
+    """Select reference lines by element and wavelength.
+
+    Parameters
+    ----------
+    element : str, optional
+        Element symbol (``"Ne"``, ``"Hg"``...), matched against the first word of ``species``
+        (case-insensitive). Laser entries have no element and are left out when it is given.
+    min_nm, max_nm : float, optional
+        Keep lines whose wavelength in ``medium`` lies in ``[min_nm, max_nm]``.
+    near_nm, tolerance_nm : float, optional
+        Keep lines within ``tolerance_nm`` of ``near_nm`` (both in ``medium``). Give both or
+        neither.
+    medium : {"vacuum", "air"}
+        Which wavelength the limits refer to and the column ``wavelength_nm`` holds.
+    conditions : object, optional
+        Air conditions for ``medium="air"``. Without it the standard-air values stored in the
+        files are used. With it, air wavelengths are computed from the vacuum ones by
+        ``to_air(wl_vac_nm)`` if given, else by ``ftsource.air.vacuum_to_air_nm(wl_vac_nm,
+        conditions)``.
+    to_air : callable, optional
+        ``to_air(wl_vac_nm) -> wl_air_nm`` for non-standard air (takes precedence).
+    lists : str or sequence of str, optional
+        Line lists to search (default all, see :func:`line_list_names`).
+
+    Returns
+    -------
+    astropy.table.Table
+        Matching rows from all selected lists, sorted by ``wavelength_nm``, with columns
+        ``list_name, species, kind, wavelength_nm, wavelength_vac_nm, wavelength_air_nm,
+        relative_intensity, u_vac_nm, status, note`` and ``meta["medium"]``. Possibly empty.
+
+    Raises
+    ------
+    OptionError
+        For an unknown medium or list, negative or inverted limits, ``near_nm`` without
+        ``tolerance_nm`` (or the reverse), or ``conditions`` without a way to apply them.
+
+    References
+    ----------
+    .. [1] NIST Handbook of Basic Atomic Spectroscopic Data: air wavelengths above 200 nm are
+       for standard air; D. C. Morton, ApJS 130, 403 (2000).
+    """
+    from astropy.table import Table, vstack
+
+    if medium not in _MEDIA:
+        raise OptionError(f"medium = {medium!r} is not allowed: choose one of {_MEDIA}")
+    lo = _check_float(min_nm, "min_nm")
+    hi = _check_float(max_nm, "max_nm")
+    near = _check_float(near_nm, "near_nm", positive=True)
+    tol = _check_float(tolerance_nm, "tolerance_nm")
+    if lo is not None and hi is not None and lo > hi:
+        raise OptionError(f"min_nm = {lo} is larger than max_nm = {hi}: give min_nm <= max_nm")
+    if (near is None) != (tol is None):
+        raise OptionError(
+            f"near_nm = {near_nm!r} and tolerance_nm = {tolerance_nm!r}: give both or neither"
+        )
+    names = _resolve_lists(lists)
+
+    converter = None
+    if medium == "air" and (conditions is not None or to_air is not None):
+        if to_air is not None:
+            converter = to_air
+        else:
+            try:
+                from .air import vacuum_to_air_nm  # written in parallel; optional here
+            except ImportError as exc:
+                raise OptionError(
+                    "conditions were given but ftsource.air.vacuum_to_air_nm is not available:"
+                    " pass to_air=callable, or leave conditions out for standard air"
+                ) from exc
+
+            def converter(wl):
+                return vacuum_to_air_nm(wl, conditions)
+
+    pieces = []
+    for name in names:
+        t = load_line_list(name)
+        n = len(t)
+        piece = Table()
+        piece["list_name"] = [name] * n
+        piece["species"] = list(t["species"])
+        piece["kind"] = list(t["kind"])
+        vac = np.asarray(t["wavelength_vac_nm"], dtype=float)
+        air = np.asarray(t["wavelength_air_nm"], dtype=float)
+        if converter is not None:
+            air = np.asarray(converter(vac), dtype=float)
+        piece["wavelength_nm"] = vac if medium == "vacuum" else air
+        piece["wavelength_vac_nm"] = vac
+        piece["wavelength_air_nm"] = air
+        piece["relative_intensity"] = np.asarray(t["relative_intensity"], dtype=float)
+        piece["u_vac_nm"] = np.asarray(t["u_vac_nm"], dtype=float)
+        piece["status"] = list(t["status"])
+        piece["note"] = list(t["note"])
+        keep = np.ones(n, dtype=bool)
+        if element is not None:
+            want = str(element).strip().lower()
+            keep &= np.array([_element_of(s).lower() == want for s in t["species"]], dtype=bool)
+        wl = np.asarray(piece["wavelength_nm"], dtype=float)
+        if lo is not None:
+            keep &= wl >= lo
+        if hi is not None:
+            keep &= wl <= hi
+        if near is not None:
+            keep &= np.abs(wl - near) <= tol
+        pieces.append(piece[keep])
+    out = vstack(pieces, metadata_conflicts="silent") if pieces else Table()
+    if len(out):
+        out.sort("wavelength_nm")
+    out.meta = {"medium": medium, "standard_air": converter is None}
+    return out
+
+
+# --------------------------------------------------------------------------------------------
+# identification
+# --------------------------------------------------------------------------------------------
+@dataclass(frozen=True)
+class Candidate:
+    """One reference line compared with a measured wavelength.
+
+    Attributes
+    ----------
+    list_name : str
+        Line list the entry comes from.
+    species : str
+        Emitter or laser, as written in the list.
+    wavelength_vac_nm : float
+        Reference vacuum wavelength.
+    difference_nm : float
+        Measured minus reference, nm.
+    difference_ppm : float
+        ``difference_nm / wavelength_vac_nm × 10⁶``.
+    within_tolerance : bool
+        ``|difference| <= k · sqrt(u² + u_ref²)``, with ``u_ref`` the entry's stated standard
+        uncertainty (0 where none is stated).
+    kind : str
+        ``"atomic line"``, ``"standard"`` or ``"nominal"``.
+    """
+
+    list_name: str
+    species: str
+    wavelength_vac_nm: float
+    difference_nm: float
+    difference_ppm: float
+    within_tolerance: bool
+    kind: str
+
+
+def identify(
+    wavelength_vac_nm: float,
+    u_nm: float,
+    *,
+    k: float = 2.0,
+    lists: str | Sequence[str] | None = None,
+    max_candidates: int = 3,
+) -> list[Candidate]:
+    """Compare a measured vacuum wavelength with the reference lists.
+
+    Parameters
+    ----------
+    wavelength_vac_nm : float
+        Measured vacuum wavelength, nm.
+    u_nm : float
+        Its standard uncertainty, nm (>= 0).
+    k : float, default 2.0
+        Coverage factor for the acceptance interval (JCGM 100, k = 2 ≈ 95 %).
+    lists : str or sequence of str, optional
+        Lists to compare against (default all).
+    max_candidates : int, default 3
+        How many nearest entries to return.
+
+    Returns
+    -------
+    list of Candidate
+        The ``max_candidates`` nearest entries, sorted by ``|difference_nm|``. Each says
+        whether it lies within the interval; if none does, the caller should report "no
+        match". Empty only if the selected lists have no entries.
+
+    Raises
+    ------
+    OptionError
+        For a non-positive wavelength, negative ``u_nm``, non-positive ``k`` or
+        ``max_candidates < 1``.
+
+    Notes
+    -----
+    The acceptance test uses ``u_ref`` from the ``u_vac_nm`` column: the CIPM uncertainty for
+    laser standards, ``tolerance/√3`` for nominal laser lines, and zero for lamp lines whose
+    source states no uncertainty (NIST quotes the Handbook digits as significant; add lamp
+    effects such as pressure shifts to ``u_nm`` yourself).
+
+    References
+    ----------
+    .. [1] JCGM 100:2008, Evaluation of measurement data — Guide to the expression of
+       uncertainty in measurement, §6 (expanded uncertainty).
+    """
+    wl = _check_float(wavelength_vac_nm, "wavelength_vac_nm", positive=True)
+    u = _check_float(u_nm, "u_nm")
+    kk = _check_float(k, "k", positive=True)
+    if isinstance(max_candidates, bool) or not isinstance(max_candidates, (int, np.integer)):
+        raise OptionError(f"max_candidates = {max_candidates!r} is not an integer >= 1")
+    if max_candidates < 1:
+        raise OptionError(f"max_candidates = {max_candidates!r} is not allowed: give >= 1")
+    found: list[Candidate] = []
+    for name in _resolve_lists(lists):
+        t = load_line_list(name)
+        ref = np.asarray(t["wavelength_vac_nm"], dtype=float)
+        u_ref = np.nan_to_num(np.asarray(t["u_vac_nm"], dtype=float), nan=0.0)
+        diff = wl - ref
+        limit = kk * np.sqrt(u**2 + u_ref**2)
+        for i in range(len(t)):
+            found.append(
+                Candidate(
+                    list_name=name,
+                    species=str(t["species"][i]),
+                    wavelength_vac_nm=float(ref[i]),
+                    difference_nm=float(diff[i]),
+                    difference_ppm=float(diff[i] / ref[i] * 1.0e6),
+                    within_tolerance=bool(abs(diff[i]) <= limit[i]),
+                    kind=str(t["kind"][i]),
+                )
+            )
+    found.sort(key=lambda c: abs(c.difference_nm))
+    return found[: int(max_candidates)]

@@ -1,0 +1,260 @@
+"""The measured spectrum: sweeps transformed, phase-corrected or not, and co-added.
+
+Every sweep is transformed on one common wavenumber grid (same OPD step, same transform
+length), so co-adding is a plain mean. A sweep that holds the centre burst (ZPD) is
+phase-corrected (:mod:`ftsource.phase`) and gives a real spectrum whose line shape is known
+exactly; a sweep without ZPD — typical for a narrow laser line scanned away from equal arms —
+gives the magnitude of the transform of the apodized sweep about its own centre, so its
+resolution is set by half the transformed span, never more.
+
+The spectrum carries its :class:`LineShape` (what a monochromatic line looks like in it, for
+the line fits) and a noise estimate per point.
+
+Kernel units: wavenumber in cm⁻¹, OPD in cm.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from ftsource.apodization import get_apodization
+from ftsource.errors import AnalysisError
+from ftsource.resample import Interferogram
+
+__all__ = ["LineShape", "Spectrum", "SweepSpectrum", "sweep_spectrum", "coadd"]
+
+_LN2 = np.log(2.0)
+
+
+def _gauss_legendre_01(n: int):
+    from scipy.special import roots_legendre
+
+    t, w = roots_legendre(n)
+    return 0.5 * (t + 1.0), 0.5 * w
+
+
+@dataclass(frozen=True)
+class LineShape:
+    """What a line looks like in the co-added spectrum.
+
+    A line of Gaussian FWHM ``g`` and Lorentzian FWHM ``l`` (Voigt) seen through maximum OPD
+    ``L`` and apodization ``A`` has the spectral shape
+
+    ``K(δ) = 2 ∫₀ᴸ A(x/L) γ(x) cos(2πδx) dx``,  γ(x) = exp(−(πgx)²/(4 ln 2)) · exp(−πl|x|),
+
+    of unit area (Fourier inversion at x = 0). The co-added spectrum mixes sweeps of different
+    ``L``, so ``K`` is the weighted mean over them. ``kind="magnitude"`` takes ``|K|`` (a
+    magnitude spectrum folds negative sidelobes up).
+    """
+
+    apodization: str
+    L_cm: tuple[float, ...]
+    weights: tuple[float, ...]
+    kind: str = "real"
+
+    def kernel(
+        self, delta_per_cm: np.ndarray, gauss_fwhm: float = 0.0, lorentz_fwhm: float = 0.0
+    ) -> np.ndarray:
+        """The line shape at offsets ``delta_per_cm`` from the centre (area 1 per cm⁻¹)."""
+        return self._transform(delta_per_cm, gauss_fwhm, lorentz_fwhm, power=1)
+
+    def noise_correlation(self, delta_per_cm: np.ndarray) -> np.ndarray:
+        """Correlation between spectral points ``delta`` apart for white interferogram noise:
+        the transform of A², normalised to 1 at zero offset (Wiener–Khinchin)."""
+        k = self._transform(delta_per_cm, 0.0, 0.0, power=2)
+        k0 = self._transform(np.zeros(1), 0.0, 0.0, power=2)[0]
+        return k / k0
+
+    def _transform(self, delta, gauss_fwhm, lorentz_fwhm, power):
+        apo = get_apodization(self.apodization)
+        d = np.abs(np.asarray(delta, dtype=float))
+        out = np.zeros(d.shape)
+        for L, w in zip(self.L_cm, self.weights):
+            u = 2 * L * (float(d.max()) if d.size else 0.0)
+            xi, wq = _gauss_legendre_01(64 + int(2 * u))
+            x = xi * L
+            env = np.ones_like(x)
+            if gauss_fwhm > 0:
+                env = env * np.exp(-((np.pi * gauss_fwhm * x) ** 2) / (4 * _LN2))
+            if lorentz_fwhm > 0:
+                env = env * np.exp(-np.pi * lorentz_fwhm * x)
+            f = (apo(xi) ** power) * env * wq * (2 * L)
+            out += w * (np.cos(2 * np.pi * np.outer(d.ravel(), x)) @ f).reshape(d.shape)
+        if self.kind == "magnitude" and power == 1:
+            out = np.abs(out)
+        return out
+
+    @property
+    def fwhm_per_cm(self) -> float:
+        """FWHM of the instrument line shape itself (a monochromatic line), cm⁻¹."""
+        return _kernel_fwhm(self, 0.0, 0.0)
+
+    @property
+    def max_opd_cm(self) -> float:
+        """Weighted mean of the sweeps' maximum OPD (the L of ``fwhm_factor/(2L)``)."""
+        return float(np.dot(self.L_cm, self.weights))
+
+
+def _kernel_fwhm(shape: LineShape, g: float, lor: float) -> float:
+    """FWHM of ``shape.kernel`` for the given widths (numerical, by bisection)."""
+    from scipy.optimize import brentq
+
+    L = min(shape.L_cm)
+    guess = 2.0 / L + 1.5 * (g + lor)
+    k0 = shape.kernel(np.zeros(1), g, lor)[0]
+    f = lambda d: shape.kernel(np.array([d]), g, lor)[0] - 0.5 * k0  # noqa: E731
+    hi = guess
+    while f(hi) > 0:
+        hi *= 2
+    return 2 * brentq(f, 0.0, hi, xtol=1e-12 * hi)
+
+
+@dataclass(frozen=True)
+class SweepSpectrum:
+    """One sweep's spectrum on the common grid."""
+
+    values: np.ndarray
+    L_cm: float
+    method: str
+    zpd_found: bool
+    x_zpd_cm: float
+    sweep_index: int
+
+
+@dataclass(frozen=True)
+class Spectrum:
+    """A co-added spectrum.
+
+    Attributes
+    ----------
+    sigma_per_cm : ndarray
+        Vacuum wavenumber, cm⁻¹ (after the medium correction when one was applied).
+    density : ndarray
+        Spectral density per unit wavenumber (arbitrary units × cm).
+    noise : ndarray
+        Standard uncertainty of ``density`` at each point.
+    line_shape : LineShape
+        How a monochromatic line appears (for fits and the resolution).
+    phase_method : str
+        ``mertz``, ``forman``, ``magnitude`` or ``mixed``.
+    """
+
+    sigma_per_cm: np.ndarray
+    density: np.ndarray
+    noise: np.ndarray
+    line_shape: LineShape
+    phase_method: str
+    sweeps: tuple[SweepSpectrum, ...] = field(repr=False)
+
+    @property
+    def resolution_per_cm(self) -> float:
+        """``fwhm_factor / (2·max_opd)`` of the apodization actually used, cm⁻¹."""
+        apo = get_apodization(self.line_shape.apodization)
+        return apo.fwhm_factor / (2 * self.line_shape.max_opd_cm)
+
+    @property
+    def max_opd_cm(self) -> float:
+        return self.line_shape.max_opd_cm
+
+    @property
+    def wavelength_nm(self) -> np.ndarray:
+        """Vacuum wavelength, nm (inf at zero wavenumber)."""
+        with np.errstate(divide="ignore"):
+            return 1e7 / self.sigma_per_cm
+
+    @property
+    def density_per_nm(self) -> np.ndarray:
+        """Density per unit wavelength, S_λ = S_σ·σ²/10⁷ (σ in cm⁻¹; CIE 127 works per nm)."""
+        return self.density * self.sigma_per_cm**2 / 1e7
+
+    @property
+    def noise_per_nm(self) -> np.ndarray:
+        return self.noise * self.sigma_per_cm**2 / 1e7
+
+    def with_axis(self, sigma_per_cm: np.ndarray) -> Spectrum:
+        """Copy on a corrected wavenumber axis (same values)."""
+        return Spectrum(
+            np.asarray(sigma_per_cm, float),
+            self.density,
+            self.noise,
+            self.line_shape,
+            self.phase_method,
+            self.sweeps,
+        )
+
+
+def sweep_spectrum(
+    ifg: Interferogram,
+    n_fft: int,
+    *,
+    apodization: str = "happ-genzel",
+    phase_correction: str = "auto",
+    planner=None,
+) -> SweepSpectrum:
+    """Transform one resampled sweep.
+
+    ``phase_correction``: ``auto`` uses Mertz when the sweep holds ZPD and the magnitude about
+    the sweep's centre otherwise; ``mertz``/``forman`` require ZPD in the sweep (else the
+    magnitude is used and the method says so); ``magnitude`` always uses the magnitude.
+    """
+    from ftsource import phase
+    from ftsource.zpd import ZpdInfo, find_zpd
+
+    x = ifg.x_cm
+    zpd = find_zpd(x, ifg.y) if phase_correction != "magnitude" else None
+    if zpd is not None and zpd.found:
+        method = "mertz" if phase_correction in ("auto", "mertz") else phase_correction
+        fn = phase.forman if method == "forman" else phase.mertz
+        if method == "magnitude":
+            fn = phase.magnitude
+        ps = fn(x, ifg.y, zpd, apodization=apodization, n_fft=n_fft, planner=planner)
+        return SweepSpectrum(ps.real, ps.L_cm, ps.method, True, zpd.x_zpd_cm, ifg.sweep.index)
+    # no ZPD: magnitude about the sweep's centre, L = half the span
+    half = (ifg.y.size - 1) // 2
+    centre = ifg.x0_cm + half * ifg.dx_cm
+    fake = ZpdInfo(True, centre, half, half * ifg.dx_cm, half * ifg.dx_cm, 1.0, "")
+    ps = phase.magnitude(
+        x[: 2 * half + 1], ifg.y[: 2 * half + 1], fake, apodization=apodization, n_fft=n_fft,
+        planner=planner,
+    )
+    return SweepSpectrum(ps.real, ps.L_cm, "magnitude", False, float("nan"), ifg.sweep.index)
+
+
+def coadd(
+    sweep_spectra: list[SweepSpectrum],
+    sigma_per_cm: np.ndarray,
+    apodization: str,
+) -> Spectrum:
+    """Mean of sweep spectra on the same grid, with a noise estimate.
+
+    The noise is each sweep's robust noise level (:func:`_noise_floor`: most of the grid lies
+    outside the source's band and holds only noise) combined for the mean. Noise that grows
+    with the signal is not in it; line fits scale their uncertainties by their residuals.
+    """
+    if not sweep_spectra:
+        raise AnalysisError("no sweep could be transformed")
+    vals = np.array([s.values for s in sweep_spectra])
+    n = vals.shape[0]
+    mean = vals.mean(axis=0)
+    methods = {s.method for s in sweep_spectra}
+    kind = "magnitude" if methods == {"magnitude"} else "real"
+    # each sweep's own noise level (its spectrum is noise over most of the grid); sweeps of
+    # different span have different line shapes, so their scatter at a line is not noise
+    floors = np.array([_noise_floor(v) for v in vals])
+    noise = np.full_like(mean, np.sqrt(np.sum(floors**2)) / n)
+    L = tuple(float(s.L_cm) for s in sweep_spectra)
+    w = tuple(1.0 / n for _ in sweep_spectra)
+    shape = LineShape(apodization, L, w, kind)
+    method = methods.pop() if len(methods) == 1 else "mixed"
+    return Spectrum(np.asarray(sigma_per_cm, float), mean, noise, shape, method,
+                    tuple(sweep_spectra))
+
+
+def _noise_floor(values: np.ndarray) -> float:
+    """Robust noise level: 1.4826·MAD of the lowest-lying three quarters of the points."""
+    v = np.asarray(values, float)
+    q = v[v <= np.quantile(v, 0.75)]
+    mad = np.median(np.abs(q - np.median(q)))
+    return float(max(1.4826 * mad, np.finfo(float).tiny))
