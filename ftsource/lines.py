@@ -282,6 +282,11 @@ def _failed(spec, centre, ils, msg) -> LineFit:
                    ils, ils, nan, 0, 0.0, False, msg, {})
 
 
+def _reach(fit: LineFit) -> float:
+    """Distance from a line's centre within which its model is subtracted, cm⁻¹."""
+    return 12 * max(fit.instrument_fwhm_per_cm, fit.fwhm_per_cm)
+
+
 def line_model(spec: Spectrum, fits: list[LineFit]):
     """Callable model of a set of fitted lines (without baselines)."""
     shape = spec.line_shape
@@ -292,8 +297,7 @@ def line_model(spec: Spectrum, fits: list[LineFit]):
         for lf in fits:
             if not lf.success:
                 continue
-            reach = 12 * max(lf.instrument_fwhm_per_cm, lf.fwhm_per_cm)
-            m = np.abs(sig - lf.centre_per_cm) < reach
+            m = np.abs(sig - lf.centre_per_cm) < _reach(lf)
             out[m] += lf.height * shape.kernel(
                 sig[m] - lf.centre_per_cm, lf.gauss_fwhm_per_cm, lf.lorentz_fwhm_per_cm
             ) / k00
@@ -320,16 +324,37 @@ def find_lines(
     lo, hi = band_per_cm if band_per_cm is not None else (sig[1], sig[-1])
     inband = (sig >= lo) & (sig <= hi)
     fits: list[LineFit] = []
+    # Near a fitted line the floor is its fit residual, not the white noise: a strong line
+    # carries sidebands from mirror-speed and sampling errors that must not become "lines".
+    floor2 = spec.noise**2
     for _ in range(max_lines):
         model = line_model(spec, fits)
         resid = spec.density - model(sig)
-        score = np.where(inband, resid / spec.noise, -np.inf)
+        score = np.where(inband, resid / np.sqrt(floor2), -np.inf)
         i0 = int(np.argmax(score))
         if score[i0] < snr_threshold:
             break
         fit = fit_line(spec, sig[i0], profile=profile, others=model if fits else None)
-        if not fit.success or not np.isfinite(fit.centre_per_cm):
-            break
+        peak = resid[i0]
+        plausible = (
+            fit.success
+            and np.isfinite(fit.centre_per_cm)
+            and 0 < fit.height < 2 * peak
+            and abs(fit.centre_per_cm - sig[i0]) < 2 * max(fit.instrument_fwhm_per_cm, fit.fwhm_per_cm)
+            and fit.snr >= snr_threshold
+        )
+        if not plausible:
+            # an unfittable peak: raise the floor there so the search moves on
+            floor2[_fit_window(spec, i0, 2 * spec.line_shape.fwhm_per_cm)] = np.inf
+            continue
         fits.append(fit)
+        win = _fit_window(spec, int(np.argmin(np.abs(sig - fit.centre_per_cm))),
+                          6 * max(fit.instrument_fwhm_per_cm, fit.fwhm_per_cm))
+        r = (spec.density - line_model(spec, fits)(sig))[win]
+        floor2[win] = np.maximum(floor2[win], np.mean(r**2))
+        # beyond the fitted model's reach, the line's far sidelobes (2× their envelope)
+        far = inband & (np.abs(sig - fit.centre_per_cm) > _reach(fit))
+        env = spec.line_shape.sidelobe_envelope(sig[far] - fit.centre_per_cm)
+        floor2[far] += (2 * fit.height * env / snr_threshold) ** 2
     fits.sort(key=lambda f: -f.centre_per_cm)  # by increasing wavelength
     return fits

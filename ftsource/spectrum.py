@@ -28,11 +28,17 @@ __all__ = ["LineShape", "Spectrum", "SweepSpectrum", "sweep_spectrum", "coadd"]
 _LN2 = np.log(2.0)
 
 
-def _gauss_legendre_01(n: int):
-    from scipy.special import roots_legendre
+def _gauss_legendre_01(n: int, cache: dict):
+    """Gauss–Legendre nodes and weights on [0, 1], memoised in ``cache`` (n rounded up to a
+    multiple of 32 so a handful of rules serve every call)."""
+    n = 32 * ((n + 31) // 32)
+    rule = cache.get(n)
+    if rule is None:
+        from scipy.special import roots_legendre
 
-    t, w = roots_legendre(n)
-    return 0.5 * (t + 1.0), 0.5 * w
+        t, w = roots_legendre(n)
+        rule = cache[n] = (0.5 * (t + 1.0), 0.5 * w)
+    return rule
 
 
 @dataclass(frozen=True)
@@ -53,6 +59,7 @@ class LineShape:
     L_cm: tuple[float, ...]
     weights: tuple[float, ...]
     kind: str = "real"
+    _rules: dict = field(default_factory=dict, compare=False, repr=False)
 
     def kernel(
         self, delta_per_cm: np.ndarray, gauss_fwhm: float = 0.0, lorentz_fwhm: float = 0.0
@@ -73,18 +80,37 @@ class LineShape:
         out = np.zeros(d.shape)
         for L, w in zip(self.L_cm, self.weights):
             u = 2 * L * (float(d.max()) if d.size else 0.0)
-            xi, wq = _gauss_legendre_01(64 + int(2 * u))
+            xi, wq = _gauss_legendre_01(64 + int(2 * u), self._rules)
+            a = apo(xi)
             x = xi * L
             env = np.ones_like(x)
             if gauss_fwhm > 0:
                 env = env * np.exp(-((np.pi * gauss_fwhm * x) ** 2) / (4 * _LN2))
             if lorentz_fwhm > 0:
                 env = env * np.exp(-np.pi * lorentz_fwhm * x)
-            f = (apo(xi) ** power) * env * wq * (2 * L)
-            out += w * (np.cos(2 * np.pi * np.outer(d.ravel(), x)) @ f).reshape(d.shape)
-        if self.kind == "magnitude" and power == 1:
-            out = np.abs(out)
+            f = (a**power) * env * wq * (2 * L)
+            k = (np.cos(2 * np.pi * np.outer(d.ravel(), x)) @ f).reshape(d.shape)
+            # sweeps are co-added after taking the modulus, so fold each one's sidelobes
+            out += w * (np.abs(k) if self.kind == "magnitude" and power == 1 else k)
         return out
+
+    def sidelobe_envelope(self, delta_per_cm: np.ndarray) -> np.ndarray:
+        """Upper envelope of |ILS(δ)|/ILS(0) (a monochromatic line's sidelobes).
+
+        Computed on a logarithmic grid of offsets out to the largest ``|δ|`` asked for, as the
+        running maximum of |K| from far to near, and interpolated; 1 inside the main lobe.
+        """
+        d = np.abs(np.asarray(delta_per_cm, dtype=float))
+        fw = self.fwhm_per_cm
+        # numerically out to 100 instrument widths, beyond that a 1/δ decay (an upper bound:
+        # the sidelobes of any apodization that is not smooth at the ends fall as 1/δ or faster)
+        top = 100 * fw
+        grid = np.concatenate([np.linspace(0, 2 * fw, 64)[:-1], np.geomspace(2 * fw, top, 400)])
+        k = np.abs(self.kernel(grid)) / self.kernel(np.zeros(1))[0]
+        env = np.maximum.accumulate(k[::-1])[::-1]
+        env[grid <= fw] = 1.0
+        far = env[-1] * top / np.maximum(d, top)
+        return np.where(d <= top, np.interp(d, grid, env), far)
 
     @property
     def fwhm_per_cm(self) -> float:
@@ -116,6 +142,7 @@ class SweepSpectrum:
     """One sweep's spectrum on the common grid."""
 
     values: np.ndarray
+    imag_residual: np.ndarray
     L_cm: float
     method: str
     zpd_found: bool
@@ -210,7 +237,9 @@ def sweep_spectrum(
         if method == "magnitude":
             fn = phase.magnitude
         ps = fn(x, ifg.y, zpd, apodization=apodization, n_fft=n_fft, planner=planner)
-        return SweepSpectrum(ps.real, ps.L_cm, ps.method, True, zpd.x_zpd_cm, ifg.sweep.index)
+        return SweepSpectrum(
+            ps.real, ps.imag_residual, ps.L_cm, ps.method, True, zpd.x_zpd_cm, ifg.sweep.index
+        )
     # no ZPD: magnitude about the sweep's centre, L = half the span
     half = (ifg.y.size - 1) // 2
     centre = ifg.x0_cm + half * ifg.dx_cm
@@ -219,7 +248,9 @@ def sweep_spectrum(
         x[: 2 * half + 1], ifg.y[: 2 * half + 1], fake, apodization=apodization, n_fft=n_fft,
         planner=planner,
     )
-    return SweepSpectrum(ps.real, ps.L_cm, "magnitude", False, float("nan"), ifg.sweep.index)
+    return SweepSpectrum(
+        ps.real, ps.imag_residual, ps.L_cm, "magnitude", False, float("nan"), ifg.sweep.index
+    )
 
 
 def coadd(
@@ -242,8 +273,8 @@ def coadd(
     kind = "magnitude" if methods == {"magnitude"} else "real"
     # each sweep's own noise level (its spectrum is noise over most of the grid); sweeps of
     # different span have different line shapes, so their scatter at a line is not noise
-    floors = np.array([_noise_floor(v) for v in vals])
-    noise = np.full_like(mean, np.sqrt(np.sum(floors**2)) / n)
+    floors = np.array([_noise_floor(s) for s in sweep_spectra])
+    noise = np.sqrt(np.sum(floors**2, axis=0)) / n
     L = tuple(float(s.L_cm) for s in sweep_spectra)
     w = tuple(1.0 / n for _ in sweep_spectra)
     shape = LineShape(apodization, L, w, kind)
@@ -252,9 +283,23 @@ def coadd(
                     tuple(sweep_spectra))
 
 
-def _noise_floor(values: np.ndarray) -> float:
-    """Robust noise level: 1.4826·MAD of the lowest-lying three quarters of the points."""
-    v = np.asarray(values, float)
-    q = v[v <= np.quantile(v, 0.75)]
-    mad = np.median(np.abs(q - np.median(q)))
-    return float(max(1.4826 * mad, np.finfo(float).tiny))
+def _noise_floor(s: SweepSpectrum, block: int = 1024) -> np.ndarray:
+    """Noise standard deviation at each point of one sweep's spectrum, from blocks of points.
+
+    A phase-corrected spectrum's imaginary residual is pure noise (its real part carries the
+    source), so its robust spread (1.4826 × median absolute value) is used. A magnitude
+    spectrum is Rayleigh distributed where there is no line: the noise per component is its
+    median / √(2 ln 2). Per-block medians ignore the few points a narrow line occupies.
+    """
+    if s.method == "magnitude" or not np.any(s.imag_residual):
+        v = np.abs(s.values)
+        scale = 1.0 / np.sqrt(2 * np.log(2)) if s.method == "magnitude" else 1.4826
+    else:
+        v = np.abs(s.imag_residual)
+        scale = 1.4826
+    nb = max(v.size // block, 1)
+    edges = np.linspace(0, v.size, nb + 1).astype(int)
+    med = np.array([np.median(v[a:b]) for a, b in zip(edges[:-1], edges[1:])]) * scale
+    centres = 0.5 * (edges[:-1] + edges[1:])
+    out = np.interp(np.arange(v.size), centres, med)
+    return np.maximum(out, np.finfo(float).tiny)
