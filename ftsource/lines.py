@@ -114,16 +114,38 @@ def _observed_fwhm(sig, y, i0):
 
 
 def _model_factory(spec: Spectrum, profile: str):
+    """Model ``h·K(σ−c; widths)/K(0) + b`` with signed width parameters (see
+    :meth:`ftsource.spectrum.LineShape.kernel_signed`): ``[h, c, b, q]`` for a Gaussian
+    (q = FWHM²), ``[h, c, b, l]`` for a Lorentzian, ``[h, c, b, q, l]`` for a Voigt."""
     shape = spec.line_shape
     k00 = shape.kernel(np.zeros(1))[0]
 
     def model(p, sig):
-        h, c, b = p[0], p[1], p[2]
-        g = abs(p[3]) if profile in ("gaussian", "voigt") else 0.0
-        lor = abs(p[-1]) if profile in ("lorentzian", "voigt") else 0.0
-        return h * shape.kernel(sig - c, g, lor) / k00 + b
+        q = p[3] if profile in ("gaussian", "voigt") else 0.0
+        lor = p[-1] if profile in ("lorentzian", "voigt") else 0.0
+        return p[0] * shape.kernel_signed(sig - p[1], q, lor) / k00 + p[2]
 
     return model
+
+
+def _widths(profile: str, p: np.ndarray, cov: np.ndarray):
+    """Intrinsic FWHM, its standard uncertainty, and the Gaussian/Lorentzian parts."""
+    if profile == "gaussian":
+        q, uq = p[3], np.sqrt(max(cov[3, 3], 0.0))
+        w = np.sqrt(max(q, 0.0))
+        # u(w) = u(q)/(2w); at w → 0 the square root's own scale √u(q) takes over
+        uw = uq / (2 * w) if w > np.sqrt(uq) else np.sqrt(uq)
+        return w, uw, w, 0.0
+    if profile == "lorentzian":
+        lw = max(p[3], 0.0)
+        return lw, np.sqrt(max(cov[3, 3], 0.0)), 0.0, lw
+    g, lw = np.sqrt(max(p[3], 0.0)), max(p[4], 0.0)
+    w = voigt_fwhm(g, lw)
+    eps = 1e-6 * max(w, 1e-12)
+    dq = (voigt_fwhm(np.sqrt(max(p[3] + eps * max(w, 1e-12), 0.0)), lw) - w) / (eps * max(w, 1e-12))
+    dl = (voigt_fwhm(g, lw + eps) - w) / eps
+    jw = np.array([dq, dl])
+    return w, float(np.sqrt(max(jw @ cov[3:5, 3:5] @ jw, 0.0))), g, lw
 
 
 def fit_line(
@@ -135,6 +157,11 @@ def fit_line(
 ) -> LineFit:
     """Fit one line near ``centre_guess_per_cm``.
 
+    A Gaussian is fitted first; it decides whether the line is resolved. Only a resolved line
+    at least :data:`MIN_ELEMENTS_FOR_PROFILE` resolution elements wide is also fitted with a
+    Lorentzian and a Voigt profile, and the profile with the lowest AIC (on the effective number
+    of independent points) is kept; otherwise the profile is "undetermined".
+
     Parameters
     ----------
     spec : Spectrum
@@ -142,7 +169,7 @@ def fit_line(
     centre_guess_per_cm : float
         Where the line is.
     profile : {"auto", "gaussian", "lorentzian", "voigt"}
-        ``auto`` fits all three and keeps the one with the lowest AIC.
+        ``auto`` as above; a name forces that profile.
     others : callable, optional
         ``others(sigma)`` gives the model of other lines to subtract first.
 
@@ -160,28 +187,24 @@ def fit_line(
     """
     from scipy.optimize import least_squares
 
+    if profile not in ("auto", "gaussian", "lorentzian", "voigt"):
+        raise ValueError(f"profile must be auto, gaussian, lorentzian or voigt, not {profile!r}")
     sig = spec.sigma_per_cm
     y_all = spec.density
     if others is not None:
         y_all = y_all - others(sig)
     i0 = int(np.argmin(np.abs(sig - centre_guess_per_cm)))
-    # climb to the local maximum
     while 0 < i0 < sig.size - 1 and y_all[i0 + 1] > y_all[i0]:
         i0 += 1
     while 0 < i0 < sig.size - 1 and y_all[i0 - 1] > y_all[i0]:
         i0 -= 1
     ils = spec.line_shape.fwhm_per_cm
     obs = _observed_fwhm(sig, y_all, i0)
-    half_width = max(4 * ils, 2.5 * obs)
-    win = _fit_window(spec, i0, half_width)
+    win = _fit_window(spec, i0, max(4 * ils, 2.5 * obs))
     x = sig[win]
     y = y_all[win]
-    noise = spec.noise[win]
-    wts = 1.0 / noise
-    excess = np.sqrt(max(obs**2 - ils**2, (0.1 * ils) ** 2))
-    profiles = ("gaussian", "lorentzian", "voigt") if profile == "auto" else (profile,)
-    if profile not in ("auto", "gaussian", "lorentzian", "voigt"):
-        raise ValueError(f"profile must be auto, gaussian, lorentzian or voigt, not {profile!r}")
+    wts = 1.0 / spec.noise[win]
+    excess2 = max(obs**2 - ils**2, 0.0)
     ds = sig[1] - sig[0]
     # effective number of independent points: N / Σ_k R(k·Δσ)
     lags = ds * np.arange(-x.size + 1, x.size)
@@ -190,80 +213,67 @@ def fit_line(
     n_eff = x.size / max(corr_len, 1.0)
     rmat = r[(np.arange(x.size)[:, None] - np.arange(x.size)[None, :]) + x.size - 1]
 
-    results = {}
-    for prof in profiles:
+    def run(prof):
         model = _model_factory(spec, prof)
         p0 = [y_all[i0], sig[i0], 0.0]
-        if prof == "gaussian":
-            p0.append(excess)
-        elif prof == "lorentzian":
-            p0.append(excess)
-        else:
-            p0 += [excess * 0.7, excess * 0.5]
-
-        def resid(p, model=model):
-            return (model(p, x) - y) * wts
-
-        xs = np.array([abs(y_all[i0]) + 1e-300, ils, abs(y_all[i0]) + 1e-300] + [ils] * (len(p0) - 3))
-        try:
-            res = least_squares(resid, p0, x_scale=xs, method="lm", max_nfev=400 * len(p0))
-        except (ValueError, np.linalg.LinAlgError) as e:  # pragma: no cover - defensive
-            results[prof] = (None, str(e))
-            continue
-        results[prof] = (res, model)
-    best, best_aic, aics = None, np.inf, {}
-    for prof, (res, model) in results.items():
-        if res is None:
-            continue
+        scale = [abs(y_all[i0]) + 1e-300, ils, abs(y_all[i0]) + 1e-300]
+        if prof in ("gaussian", "voigt"):
+            p0.append(excess2 if prof == "gaussian" else 0.5 * excess2)
+            scale.append(ils**2)
+        if prof in ("lorentzian", "voigt"):
+            p0.append(np.sqrt(excess2) * (1.0 if prof == "lorentzian" else 0.5))
+            scale.append(ils)
+        res = least_squares(
+            lambda p: (model(p, x) - y) * wts, p0, x_scale=np.array(scale), method="trf",
+            max_nfev=100 * len(p0),
+        )
         rss = float(np.sum(res.fun**2))
-        k = res.x.size
-        aic = n_eff * np.log(max(rss, 1e-300) / x.size) + 2 * k
-        aics[prof] = float(aic)
-        if aic < best_aic:
-            best, best_aic = prof, aic
-    if best is None:
-        return _failed(spec, centre_guess_per_cm, ils, "the line fit did not run")
-    res, model = results[best]
-    p = res.x
-    J = res.jac
-    dof = max(x.size - p.size, 1)
-    s2 = float(np.sum(res.fun**2)) / dof
-    try:
-        jtj_inv = np.linalg.inv(J.T @ J)
-    except np.linalg.LinAlgError:
-        return _failed(spec, centre_guess_per_cm, ils, "the line fit is degenerate")
-    cov = jtj_inv @ (J.T @ rmat @ J) @ jtj_inv * s2
+        aic = n_eff * np.log(max(rss, 1e-300) / x.size) + 2 * res.x.size
+        return res, aic
+
+    def covariance(res):
+        J = res.jac
+        dof = max(x.size - res.x.size, 1)
+        s2 = float(np.sum(res.fun**2)) / dof
+        jtj_inv = np.linalg.pinv(J.T @ J)
+        return jtj_inv @ (J.T @ rmat @ J) @ jtj_inv * s2
+
+    first = "gaussian" if profile in ("auto", "gaussian") else profile
+    res, aic = run(first)
+    results = {first: (res, aic)}
+    cov = covariance(res)
+    w, uw, g, lw = _widths(first, res.x, cov)
+    resolved = bool(w >= RESOLVED_FACTOR * ils and w > 3 * uw)
+    elements = w / ils if ils > 0 else 0.0
+    best = first
+    if profile == "auto" and resolved and elements >= MIN_ELEMENTS_FOR_PROFILE:
+        for prof in ("lorentzian", "voigt"):
+            results[prof] = run(prof)
+        best = min(results, key=lambda k: results[k][1])
+        res = results[best][0]
+        cov = covariance(res)
+        w, uw, g, lw = _widths(best, res.x, cov)
     perr = np.sqrt(np.clip(np.diag(cov), 0, None))
-    g = abs(p[3]) if best in ("gaussian", "voigt") else 0.0
-    lor = abs(p[-1]) if best in ("lorentzian", "voigt") else 0.0
-    fwhm = voigt_fwhm(g, lor)
-    # uncertainty of the FWHM by propagation through the width parameters
-    if best == "voigt":
-        dg = (voigt_fwhm(g * 1.001 + 1e-12, lor) - fwhm) / (g * 0.001 + 1e-12)
-        dl = (voigt_fwhm(g, lor * 1.001 + 1e-12) - fwhm) / (lor * 0.001 + 1e-12)
-        jw = np.array([dg, dl])
-        u_fwhm = float(np.sqrt(jw @ cov[3:5, 3:5] @ jw))
-    else:
-        u_fwhm = float(perr[3])
-    resolved = bool(fwhm >= RESOLVED_FACTOR * ils and fwhm > 3 * u_fwhm)
-    elements = fwhm / ils if ils > 0 else 0.0
-    prof_claim = best if (resolved and elements >= MIN_ELEMENTS_FOR_PROFILE) else "undetermined"
-    bound = None if resolved else float(max(fwhm + BOUND_K * u_fwhm, ils))
+    claimed = best if (resolved and elements >= MIN_ELEMENTS_FOR_PROFILE) else "undetermined"
+    bound = None
+    if not resolved:
+        # upper bound at coverage factor BOUND_K on the Gaussian width parameter q = FWHM²
+        q, uq = (res.x[3], perr[3]) if best in ("gaussian", "voigt") else (w**2, 2 * w * uw)
+        bound = float(max(np.sqrt(max(q + BOUND_K * uq, 0.0)), ils))
     k00 = spec.line_shape.kernel(np.zeros(1))[0]
-    area = p[0] / k00
-    u_area = perr[0] / k00
     noise_at = float(spec.noise[i0])
+    p = res.x
     return LineFit(
         centre_per_cm=float(p[1]),
         u_centre_per_cm=float(perr[1]),
         height=float(p[0]),
-        area=float(area),
-        u_area=float(u_area),
-        profile=prof_claim,
+        area=float(p[0] / k00),
+        u_area=float(perr[0] / k00),
+        profile=claimed,
         gauss_fwhm_per_cm=float(g),
-        lorentz_fwhm_per_cm=float(lor),
-        fwhm_per_cm=float(fwhm),
-        u_fwhm_per_cm=u_fwhm,
+        lorentz_fwhm_per_cm=float(lw),
+        fwhm_per_cm=float(w),
+        u_fwhm_per_cm=float(uw),
         resolved=resolved,
         fwhm_upper_bound_per_cm=bound,
         instrument_fwhm_per_cm=float(ils),
@@ -272,7 +282,7 @@ def fit_line(
         n_effective=float(n_eff),
         success=bool(res.success),
         message=str(res.message),
-        aic=aics,
+        aic={k: float(v[1]) for k, v in results.items()},
     )
 
 

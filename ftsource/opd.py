@@ -430,7 +430,12 @@ def opd_from_single(
     .. [1] D. Gabor, "Theory of communication", J. IEE 93, 429–457 (1946) (analytic signal).
     """
     from scipy.fft import fft, ifft, next_fast_len
-    from scipy.ndimage import maximum_filter1d, minimum_filter1d, uniform_filter1d
+    from scipy.ndimage import (
+        gaussian_filter1d,
+        maximum_filter1d,
+        minimum_filter1d,
+        uniform_filter1d,
+    )
 
     c = np.asarray(ref, float)
     n = c.size
@@ -496,6 +501,13 @@ def opd_from_single(
         # build x continuous across turnarounds: integrate signed phase increments
         dpsi = np.diff(psi, prepend=psi[0])
         xs = np.cumsum(sign * dpsi)
+        if smooth:
+            # The analytic-signal phase of a normalised single channel carries an error at the
+            # fringe frequency (imperfect offset/amplitude tracking); a Gaussian low-pass of one
+            # fringe period (transfer exp(-2π²) ≈ 3e-9 at the fringe rate) removes it while
+            # following mirror motion far slower than the fringes. It runs over the whole
+            # stretch, turnarounds included, so the sweeps' ends are not distorted.
+            xs = gaussian_filter1d(xs, period, mode="nearest")
         xs[slow] = np.nan
         x[a2:b2] = xs * lam_cm / (2 * np.pi)
         fast_runs = [(a2 + p0, a2 + p1) for p0, p1 in _runs(~slow) if p1 - p0 >= 64]
@@ -512,9 +524,6 @@ def opd_from_single(
             f"the reference fringes are sampled only {spf:.1f} times per fringe: sample faster "
             "than 4 samples per reference fringe"
         )
-    if smooth:
-        for a, b in seg_runs:
-            x[a:b] = _smooth_phase(x[a:b], spf)
     sweeps = _split_sweeps(x, seg_runs, sample_rate_hz, lam_cm, segment_ids=seg_ids)
     _check_sweeps(sweeps, "single-channel")
     return OpticalPath(

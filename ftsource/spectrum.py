@@ -65,7 +65,17 @@ class LineShape:
         self, delta_per_cm: np.ndarray, gauss_fwhm: float = 0.0, lorentz_fwhm: float = 0.0
     ) -> np.ndarray:
         """The line shape at offsets ``delta_per_cm`` from the centre (area 1 per cm⁻¹)."""
-        return self._transform(delta_per_cm, gauss_fwhm, lorentz_fwhm, power=1)
+        return self._transform(delta_per_cm, gauss_fwhm**2, lorentz_fwhm, power=1)
+
+    def kernel_signed(self, delta_per_cm: np.ndarray, q_gauss: float, l_lorentz: float):
+        """:meth:`kernel` continued analytically to negative widths, for smooth fits.
+
+        ``q_gauss`` is the *square* of the Gaussian FWHM and may be negative (an envelope that
+        grows with OPD), ``l_lorentz`` the Lorentzian FWHM, also signed. Near zero width the
+        shape then depends smoothly (linearly) on both parameters, so a least-squares fit of an
+        unresolved line neither stalls at zero nor loses its uncertainty.
+        """
+        return self._transform(delta_per_cm, q_gauss, l_lorentz, power=1)
 
     def noise_correlation(self, delta_per_cm: np.ndarray) -> np.ndarray:
         """Correlation between spectral points ``delta`` apart for white interferogram noise:
@@ -74,7 +84,7 @@ class LineShape:
         k0 = self._transform(np.zeros(1), 0.0, 0.0, power=2)[0]
         return k / k0
 
-    def _transform(self, delta, gauss_fwhm, lorentz_fwhm, power):
+    def _transform(self, delta, q_gauss, lorentz_fwhm, power):
         apo = get_apodization(self.apodization)
         d = np.abs(np.asarray(delta, dtype=float))
         out = np.zeros(d.shape)
@@ -84,9 +94,9 @@ class LineShape:
             a = apo(xi)
             x = xi * L
             env = np.ones_like(x)
-            if gauss_fwhm > 0:
-                env = env * np.exp(-((np.pi * gauss_fwhm * x) ** 2) / (4 * _LN2))
-            if lorentz_fwhm > 0:
+            if q_gauss:
+                env = env * np.exp(-(np.pi**2) * q_gauss * x**2 / (4 * _LN2))
+            if lorentz_fwhm:
                 env = env * np.exp(-np.pi * lorentz_fwhm * x)
             f = (a**power) * env * wq * (2 * L)
             k = (np.cos(2 * np.pi * np.outer(d.ravel(), x)) @ f).reshape(d.shape)
