@@ -1,0 +1,341 @@
+"""The ``ftsource`` command line: a thin shell over the Python API.
+
+Only the standard library is imported at module level, so ``ftsource --help`` starts fast;
+each command imports what it needs. Every error a user can cause ends as one ``error: ...``
+line on standard error and exit status 2; nothing is written when a command fails.
+"""
+
+from __future__ import annotations
+
+import argparse
+import sys
+
+__all__ = ["main", "build_parser"]
+
+SAFETY_LINE = (
+    "Laser safety: never look into a laser beam or its reflections; green pointers may also "
+    "emit invisible infrared. Follow IEC 60825-1 and local laser-safety rules. ftsource "
+    "measures wavelength, not hazard class."
+)
+
+
+def build_parser() -> argparse.ArgumentParser:
+    p = argparse.ArgumentParser(
+        prog="ftsource",
+        description=(
+            "Characterize a light source from scanned-mirror (Michelson) interferograms: "
+            "spectrum, centre wavelength, linewidth, coherence length and modes, each with its "
+            "uncertainty."
+        ),
+        epilog=SAFETY_LINE,
+    )
+    p.add_argument("--version", action="store_true", help="print the version and exit")
+    sub = p.add_subparsers(dest="command", metavar="COMMAND")
+
+    a = sub.add_parser("analyze", help="analyse a recorded scan", epilog=SAFETY_LINE)
+    a.add_argument("record", help="record file: .csv/.tsv/.txt/.dat, .npz or .wav")
+    a.add_argument("--reference-wavelength", metavar="QTY",
+                   help="vacuum wavelength of the reference laser, e.g. 632.991nm")
+    a.add_argument("--reference-uncertainty", metavar="QTY", default="1.5ppm",
+                   help="its standard uncertainty, as a length or ppm (default 1.5ppm, an "
+                        "unstabilised He-Ne laser)")
+    a.add_argument("--alignment-allowance", metavar="QTY", default="0ppm",
+                   help="cosine-error allowance a (ratio): the result may be too long by up to a "
+                        "(negative: too short); corrected by a/2, u = |a|/sqrt(12)")
+    a.add_argument("--medium", choices=("air", "vacuum"), default="air")
+    a.add_argument("--air-temperature", metavar="QTY")
+    a.add_argument("--air-pressure", metavar="QTY")
+    a.add_argument("--air-humidity", metavar="QTY")
+    a.add_argument("--sample-rate", metavar="QTY")
+    a.add_argument("--columns", metavar="MAP", help="column mapping, e.g. signal=PD1,ref=PD2")
+    a.add_argument("--mirror-speed", metavar="QTY",
+                   help="no reference: assume this constant mirror speed (loudly uncalibrated)")
+    a.add_argument("--apodization", default="happ-genzel", metavar="NAME")
+    a.add_argument("--phase-correction", default="auto",
+                   choices=("auto", "mertz", "forman", "magnitude"))
+    a.add_argument("--fft-planning", default="estimate", choices=("estimate", "measure"))
+    a.add_argument("--calibration", metavar="FILE", help="rig calibration saved by 'calibrate'")
+    a.add_argument("--response", metavar="FILE", help="instrument response curve (ECSV)")
+    a.add_argument("--aperture-diameter", metavar="QTY",
+                   help="field stop diameter (extended sources only)")
+    a.add_argument("--focal-length", metavar="QTY", help="collimator focal length")
+    a.add_argument("--json", action="store_true", help="print the result JSON")
+    a.add_argument("--out", metavar="DIR", help="write result.json and spectrum.ecsv into DIR")
+    a.add_argument("--overwrite", action="store_true", help="replace files in --out")
+
+    s = sub.add_parser("simulate", help="make a record of a known source (planning, testing)")
+    s.add_argument("out", help="output record: .csv, .npz or .wav")
+    s.add_argument("--source", action="append", metavar="SPEC",
+                   help="laser:WL[:FWHM], led:WL:FWHM, multimode:WL:SPACING:ENVELOPE "
+                        "(repeatable; default laser:650nm)")
+    s.add_argument("--reference", default="quadrature",
+                   choices=("quadrature", "single", "encoder", "none"))
+    s.add_argument("--reference-wavelength", default="632.991nm", metavar="QTY")
+    s.add_argument("--sample-rate", default="48kHz", metavar="QTY")
+    s.add_argument("--duration", default="2s", metavar="QTY")
+    s.add_argument("--opd-centre", default="0mm", metavar="QTY",
+                   help="optical path difference at the centre of the travel")
+    s.add_argument("--opd-amplitude", default="1mm", metavar="QTY",
+                   help="half the OPD travel (the mirror moves half of it)")
+    s.add_argument("--sweep-rate", default="1Hz", metavar="QTY")
+    s.add_argument("--noise", type=float, default=0.002, help="detector noise (full scale 1)")
+    s.add_argument("--medium", choices=("air", "vacuum"), default="vacuum")
+    s.add_argument("--seed", type=int, default=0)
+    s.add_argument("--overwrite", action="store_true")
+
+    d = sub.add_parser("demo", help="analyse the bundled demo records (an invented scenario)")
+    d.add_argument("--out", metavar="DIR", help="also write each result into DIR/<record>/")
+    d.add_argument("--overwrite", action="store_true")
+
+    ln = sub.add_parser("lines", help="list and search the bundled reference line lists")
+    ln.add_argument("--element", help="e.g. Ne, Hg")
+    ln.add_argument("--min", dest="min_wl", metavar="QTY", help="shortest wavelength")
+    ln.add_argument("--max", dest="max_wl", metavar="QTY", help="longest wavelength")
+    ln.add_argument("--near", metavar="QTY", help="closest lines to this wavelength")
+    ln.add_argument("--tolerance", metavar="QTY", default="1nm")
+    ln.add_argument("--medium", choices=("vacuum", "air"), default="vacuum")
+    ln.add_argument("--json", action="store_true")
+    return p
+
+
+def _qty(text, unit, name, *, physical_type=None):
+    from ftsource.quantity import to_float
+
+    return to_float(text, unit, name=name)
+
+
+def _ratio(text, name):
+    """A ratio in ppm from 'QTY' (ppm, %, or a bare fraction)."""
+    from ftsource.quantity import parse_quantity
+
+    q = parse_quantity(text, physical_type="dimensionless", name=name)
+    return float(q.to_value("")) * 1e6
+
+
+def _options(args):
+    from ftsource.air import AirConditions
+    from ftsource.pipeline import AnalysisOptions
+
+    given = {}
+    if args.air_temperature is not None:
+        given["temperature"] = args.air_temperature
+    if args.air_pressure is not None:
+        given["pressure"] = args.air_pressure
+    if args.air_humidity is not None:
+        given["humidity"] = args.air_humidity
+    air = None
+    if args.medium == "air":
+        from ftsource.quantity import parse_quantity
+
+        types = {"temperature": "temperature", "pressure": "pressure", "humidity": "dimensionless"}
+        q = {k: parse_quantity(v, physical_type=types[k], name=f"--air-{k}") for k, v in given.items()}
+        air = AirConditions.from_quantities(**q)
+    ref_u = args.reference_uncertainty
+    lam = _qty(args.reference_wavelength, "nm", "--reference-wavelength") if args.reference_wavelength else None
+    try:
+        ref_u_ppm = _ratio(ref_u, "--reference-uncertainty")
+    except Exception:  # a length: relative to the reference wavelength
+        length = _qty(ref_u, "nm", "--reference-uncertainty")
+        if lam is None:
+            from ftsource.errors import OptionError
+
+            raise OptionError(
+                "--reference-uncertainty given as a length needs --reference-wavelength"
+            ) from None
+        ref_u_ppm = length / lam * 1e6
+    cal = None
+    if args.calibration:
+        from ftsource.calibration import load_calibration
+
+        cal = load_calibration(args.calibration)
+    resp = None
+    if args.response:
+        from ftsource.response import ResponseCurve
+
+        resp = ResponseCurve.from_file(args.response)
+    return AnalysisOptions(
+        reference_wavelength_nm=lam,
+        reference_uncertainty_ppm=ref_u_ppm,
+        alignment_allowance_ppm=_ratio(args.alignment_allowance, "--alignment-allowance"),
+        medium=args.medium,
+        air=air,
+        air_given=tuple(sorted(given)),
+        sample_rate_hz=_qty(args.sample_rate, "Hz", "--sample-rate") if args.sample_rate else None,
+        mirror_speed_m_s=_qty(args.mirror_speed, "m/s", "--mirror-speed") if args.mirror_speed else None,
+        apodization=args.apodization,
+        phase_correction=args.phase_correction,
+        fft_planning=args.fft_planning,
+        calibration=cal,
+        response=resp,
+        aperture_diameter_m=_qty(args.aperture_diameter, "m", "--aperture-diameter") if args.aperture_diameter else None,
+        focal_length_m=_qty(args.focal_length, "m", "--focal-length") if args.focal_length else None,
+    )
+
+
+def _cmd_analyze(args, out, err) -> int:
+    from ftsource.pipeline import analyze
+    from ftsource.records import read_record
+    from ftsource.report import format_summary, result_json, write_outputs
+
+    options = _options(args)
+    record = read_record(args.record, columns=args.columns, sample_rate=None)
+    result = analyze(record, options)
+    if args.out:
+        write_outputs(result, args.out, overwrite=args.overwrite)
+    if args.json:
+        out.write(result_json(result))
+    else:
+        out.write(format_summary(result) + "\n")
+    return 0
+
+
+def _parse_source(spec: str):
+    from ftsource import simulate as sim
+    from ftsource.errors import OptionError
+
+    parts = spec.split(":")
+    kind, vals = parts[0].strip().lower(), parts[1:]
+    try:
+        nums = [_qty(v, "nm", f"--source {spec}") for v in vals]
+        if kind == "laser" and len(nums) in (1, 2):
+            return sim.laser(nums[0], fwhm_nm=nums[1] if len(nums) == 2 else 0.0)
+        if kind == "led" and len(nums) == 2:
+            return sim.led(nums[0], nums[1])
+        if kind == "multimode" and len(nums) == 3:
+            return sim.multimode(nums[0], nums[1], nums[2])
+    except ValueError as e:
+        raise OptionError(f"--source {spec!r}: {e}") from None
+    raise OptionError(
+        f"--source {spec!r} is not understood; use laser:WL[:FWHM], led:WL:FWHM or "
+        "multimode:WL:SPACING:ENVELOPE with lengths such as 650nm"
+    )
+
+
+def _cmd_simulate(args, out, err) -> int:
+    from pathlib import Path
+
+    from ftsource import simulate as sim
+    from ftsource.errors import OptionError
+    from ftsource.records import write_record_csv, write_record_npz, write_record_wav
+
+    target = Path(args.out)
+    if target.exists() and not args.overwrite:
+        from ftsource.errors import OutputError
+
+        raise OutputError(f"{target} exists already; use --overwrite to replace it")
+    sources = [_parse_source(s) for s in (args.source or ["laser:650nm"])]
+    lines = tuple(ln for s in sources for ln in s.lines)
+    total = sum(s.total_strength for s in sources)
+    model = sim.SourceModel(lines, label=" + ".join(s.label for s in sources))
+    del total
+    fs = _qty(args.sample_rate, "Hz", "--sample-rate")
+    scan = sim.Scan(
+        sample_rate_hz=fs,
+        duration_s=_qty(args.duration, "s", "--duration"),
+        opd_centre_cm=_qty(args.opd_centre, "cm", "--opd-centre"),
+        opd_amplitude_cm=_qty(args.opd_amplitude, "cm", "--opd-amplitude"),
+        sweep_rate_hz=_qty(args.sweep_rate, "Hz", "--sweep-rate"),
+    )
+    if scan.n_samples < 64 or scan.n_samples > 50_000_000:
+        raise OptionError(f"--duration × --sample-rate gives {scan.n_samples} samples; allowed 64–5e7")
+    ref = sim.ReferenceChannel(
+        kind=args.reference,
+        wavelength_nm=_qty(args.reference_wavelength, "nm", "--reference-wavelength"),
+    )
+    result = sim.simulate(model, scan, ref, sim.Detector(noise_rms=args.noise),
+                          medium=args.medium, rng=args.seed)
+    rec = result.record
+    suffix = target.suffix.lower()
+    if suffix == ".npz":
+        write_record_npz(target, rec)
+    elif suffix == ".wav":
+        cols = {k: v for k, v in rec.columns.items() if k != "time"}
+        peak = max(float(abs(v).max()) for v in cols.values())
+        cols = {k: v / (1.05 * peak) for k, v in cols.items()}
+        write_record_wav(target, cols, fs, bits=24)
+    elif suffix in (".csv", ".tsv", ".txt", ".dat"):
+        write_record_csv(target, rec)
+    else:
+        raise OptionError(f"{target}: unknown record type {suffix!r}; use .csv, .npz or .wav")
+    out.write(f"wrote {target} ({scan.n_samples} samples of {model.label}; invented data)\n")
+    return 0
+
+
+def _cmd_demo(args, out, err) -> int:
+    from ftsource.demo import run_demo
+
+    return run_demo(out, out_dir=args.out, overwrite=args.overwrite)
+
+
+def _cmd_lines(args, out, err) -> int:
+    import json
+
+    from ftsource.reference import search_lines
+
+    kw = {}
+    if args.min_wl:
+        kw["min_nm"] = _qty(args.min_wl, "nm", "--min")
+    if args.max_wl:
+        kw["max_nm"] = _qty(args.max_wl, "nm", "--max")
+    if args.near:
+        kw["near_nm"] = _qty(args.near, "nm", "--near")
+        kw["tolerance_nm"] = _qty(args.tolerance, "nm", "--tolerance")
+    table = search_lines(element=args.element, medium=args.medium, **kw)
+    rows = [
+        {k: (float(r[k]) if hasattr(r[k], "dtype") and r[k].dtype.kind == "f" else str(r[k]))
+         for k in ("wavelength_nm", "species", "list_name") if k in r.colnames}
+        for r in table
+    ]
+    if args.json:
+        out.write(json.dumps(rows, indent=2) + "\n")
+    else:
+        out.write(f"{len(rows)} line(s), {args.medium} wavelengths:\n")
+        for r in rows:
+            out.write(f"  {r.get('wavelength_nm', float('nan')):12.5f} nm  {r.get('species', '')}"
+                      f"  ({r.get('list_name', '')})\n")
+    return 0
+
+
+def main(argv=None) -> int:
+    """Run the command line; returns the exit status."""
+    out, err = sys.stdout, sys.stderr
+    parser = build_parser()
+    args = parser.parse_args(argv)
+    if args.version:
+        from ftsource import __version__
+
+        out.write(f"ftsource {__version__}\n")
+        return 0
+    if args.command is None:
+        parser.print_help(out)
+        return 0
+    handler = {
+        "analyze": _cmd_analyze,
+        "simulate": _cmd_simulate,
+        "demo": _cmd_demo,
+        "lines": _cmd_lines,
+    }[args.command]
+    import warnings
+
+    from ftsource.errors import FtsourceError, FtsourceWarning
+
+    try:
+        with warnings.catch_warnings():
+            # warnings are copied into the result; do not print them twice
+            warnings.simplefilter("ignore", FtsourceWarning)
+            return handler(args, out, err)
+    except (FtsourceError, OSError) as e:
+        msg = " ".join(str(e).split())
+        err.write(f"error: {msg}\n")
+        return 2
+    except KeyboardInterrupt:
+        err.write("error: interrupted\n")
+        return 130
+    except Exception as e:  # noqa: BLE001 - a bug must still end in one line, not a traceback
+        msg = " ".join(f"{type(e).__name__}: {e}".split())
+        err.write(f"error: internal error ({msg}); please report it with the record\n")
+        return 3
+
+
+if __name__ == "__main__":  # pragma: no cover
+    sys.exit(main())

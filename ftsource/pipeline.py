@@ -1,0 +1,297 @@
+"""The whole job as one call: a record in, a :class:`~ftsource.result.Result` out.
+
+record → optical path from the reference → sweeps on a uniform OPD grid → phase correction
+and apodization → FFT → co-added spectrum (corrected for the air between the beams) → lines,
+broadband figures, modes, coherence → uncertainty budget → result with warnings.
+
+Every stage is a pure function in its own module; this module only wires them together and
+collects what each stage says the data could not support.
+"""
+
+from __future__ import annotations
+
+import warnings as _warnings
+from dataclasses import dataclass, replace
+
+import numpy as np
+
+from ftsource.errors import AnalysisError, FtsourceWarning, OptionError
+
+__all__ = ["AnalysisOptions", "analyze", "SEARCH_BAND_NM"]
+
+#: Lines are searched for between these vacuum wavelengths (nm) unless the sampling limits
+#: the short end further. Silicon and InGaAs detectors see nothing beyond 3.3 µm.
+SEARCH_BAND_NM = (200.0, 3300.0)
+#: A line is "broadband" when its FWHM exceeds this many nm (LEDs, lamps, SLEDs).
+BROADBAND_FWHM_NM = 2.0
+#: Default relative standard uncertainty of the reference wavelength: an unstabilised He–Ne
+#: laser (CIPM 2007 recommendation, u_r = 1.5e-6).
+DEFAULT_REFERENCE_UNCERTAINTY_PPM = 1.5
+
+
+@dataclass(frozen=True)
+class AnalysisOptions:
+    """Everything the analysis needs besides the record.
+
+    Wavelengths are vacuum values in nm; ratios (uncertainty, allowance) in ppm.
+    ``air`` is an :class:`ftsource.air.AirConditions` (default: an unmeasured lab, with its
+    wide default uncertainties).
+    """
+
+    reference_wavelength_nm: float | None = None
+    reference_uncertainty_ppm: float = DEFAULT_REFERENCE_UNCERTAINTY_PPM
+    alignment_allowance_ppm: float = 0.0
+    medium: str = "air"
+    air: object | None = None
+    air_given: tuple[str, ...] = ()
+    sample_rate_hz: float | None = None
+    mirror_speed_m_s: float | None = None
+    apodization: str = "happ-genzel"
+    phase_correction: str = "auto"
+    fft_planning: str = "estimate"
+    zero_fill: int = 4
+    bandwidth_fraction: float | None = None
+    calibration: object | None = None
+    response: object | None = None
+    aperture_diameter_m: float | None = None
+    focal_length_m: float | None = None
+
+    def __post_init__(self):
+        if self.medium not in ("air", "vacuum"):
+            raise OptionError(f"--medium must be 'air' or 'vacuum', not {self.medium!r}")
+        if self.phase_correction not in ("auto", "mertz", "forman", "magnitude"):
+            raise OptionError(
+                f"--phase-correction {self.phase_correction!r} is not known; use auto, mertz, "
+                "forman or magnitude"
+            )
+        if not (np.isfinite(self.reference_uncertainty_ppm) and self.reference_uncertainty_ppm >= 0):
+            raise OptionError("--reference-uncertainty must be a finite value ≥ 0")
+        if not np.isfinite(self.alignment_allowance_ppm):
+            raise OptionError("--alignment-allowance must be finite")
+        if self.zero_fill < 1:
+            raise OptionError("zero_fill must be at least 1")
+        from ftsource.apodization import get_apodization
+
+        get_apodization(self.apodization)
+
+
+class Notes:
+    """Warnings collected along the way (in order, without repeats)."""
+
+    def __init__(self):
+        self.items: list[str] = []
+
+    def add(self, msg: str) -> None:
+        if msg and msg not in self.items:
+            self.items.append(msg)
+
+
+def _reference_wavelength(record, options: AnalysisOptions) -> float | None:
+    if options.reference_wavelength_nm is not None:
+        return float(options.reference_wavelength_nm)
+    meta = record.metadata.get("reference_wavelength")
+    if meta is None:
+        return None
+    from ftsource.quantity import to_float
+
+    return to_float(meta, "nm", name="reference_wavelength (metadata)")
+
+
+def _optical_path(record, options, fs, lam_ref, notes):
+    from ftsource import opd
+
+    kind = record.opd_source()
+    cols = record.columns
+    if kind == "quadrature":
+        return opd.opd_from_quadrature(cols["ref_i"], cols["ref_q"], fs, lam_ref)
+    if kind == "single":
+        return opd.opd_from_single(cols["ref"], fs, lam_ref)
+    if kind == "encoder":
+        return opd.opd_from_position(record.position_m, fs)
+    if options.mirror_speed_m_s is None:
+        raise AnalysisError(
+            "the record has no reference channel (ref, or ref_i and ref_q) and no position "
+            "column; map one with --columns, or give --mirror-speed to assume a constant speed"
+        )
+    return opd.opd_from_constant_speed(record.n_samples, fs, options.mirror_speed_m_s)
+
+
+def _index_factor(sigma, lam_ref, options, kind):
+    """σ_vac/σ_apparent = n_scale/n(σ) for the medium (1 in vacuum)."""
+    if options.medium == "vacuum":
+        return np.ones_like(sigma)
+    from ftsource.air import air_index
+
+    wl = np.clip(1e7 / np.maximum(sigma, 1.0), 300.0, 1700.0)
+    uniq = np.geomspace(wl.min(), wl.max(), 256) if wl.size > 256 else wl
+    n_at = air_index(uniq, options.air)
+    n = np.interp(wl, uniq, n_at) if wl.size > 256 else n_at
+    n_scale = float(air_index(lam_ref, options.air)) if kind in ("quadrature", "single") else 1.0
+    return n_scale / n
+
+
+def analyze(record, options: AnalysisOptions | None = None, *, planner=None):
+    """Characterize the source in ``record``.
+
+    Parameters
+    ----------
+    record : ftsource.records.Record
+        Samples with ``signal`` and a reference (``ref_i``/``ref_q``, ``ref`` or ``position``).
+    options : AnalysisOptions, optional
+    planner : ftsource.transform.FFTPlanner, optional
+        Reuse FFT plans across calls (e.g. over several records).
+
+    Returns
+    -------
+    ftsource.result.Result
+
+    Raises
+    ------
+    AnalysisError
+        When the record cannot support any spectrum (no fringes, no sweep, no reference).
+    OptionError
+        For missing or inconsistent options (e.g. no reference wavelength).
+    """
+    from ftsource import lines as lines_mod
+    from ftsource import resample, spectrum
+    from ftsource.result import Result
+    from ftsource.safety import green_pointer_warning
+    from ftsource.transform import FFTPlanner, next_fft_length
+
+    options = options or AnalysisOptions()
+    if options.air is None and options.medium == "air":
+        from ftsource.air import AirConditions
+
+        options = replace(options, air=AirConditions())
+    notes = Notes()
+    fs = options.sample_rate_hz or record.sample_rate_hz
+    if not fs:
+        raise OptionError(
+            "the sample rate is unknown: the record has no time column and no sample_rate "
+            "metadata; give --sample-rate"
+        )
+    kind = record.opd_source() or ("constant-speed" if options.mirror_speed_m_s else None)
+    lam_ref = _reference_wavelength(record, options)
+    if kind in ("quadrature", "single") and lam_ref is None:
+        raise OptionError(
+            "the reference wavelength is unknown: give --reference-wavelength (vacuum), e.g. "
+            "632.991nm for a He-Ne laser"
+        )
+    if lam_ref is not None and not 200.0 <= lam_ref <= 2000.0:
+        raise OptionError(f"--reference-wavelength {lam_ref:g} nm is outside 200–2000 nm")
+    if options.calibration is not None and lam_ref is not None:
+        lam_ref = float(options.calibration.effective_reference_wavelength_nm)
+        notes.add(
+            "the reference wavelength was replaced by the rig calibration's effective value "
+            f"{lam_ref:.6f} nm"
+        )
+    path = _optical_path(record, options, fs, lam_ref or 632.991, notes)
+    for w in path.warnings:
+        notes.add(w)
+    if kind == "encoder":
+        notes.add(
+            "the OPD scale comes from a position encoder: its scale uncertainty and any "
+            "cosine/Abbe error are not known to ftsource and are not in the budget"
+        )
+    if record.source_format == "wav":
+        beta = options.bandwidth_fraction or resample.BANDWIDTH_FRACTION_SOUND_CARD
+    else:
+        beta = options.bandwidth_fraction or resample.BANDWIDTH_FRACTION_ADC
+    limits = resample.sampling_limits(path, fs, lam_ref or 632.991, bandwidth_fraction=beta)
+    if limits.samples_per_reference_fringe < 4 and kind in ("quadrature", "single"):
+        notes.add(
+            f"only {limits.samples_per_reference_fringe:.1f} samples per reference fringe at the "
+            "fastest mirror speed: sample faster or scan slower (at least 4 per fringe)"
+        )
+    ifgs = resample.resample_sweeps(record.columns["signal"], path, limits.dx_cm)
+    planner = planner or FFTPlanner(effort=options.fft_planning)
+    n_fft = next_fft_length(options.zero_fill * max(ig.y.size for ig in ifgs))
+    with _warnings.catch_warnings(record=True) as caught:
+        _warnings.simplefilter("always", FtsourceWarning)
+        sweep_specs = [
+            spectrum.sweep_spectrum(
+                ig, n_fft, apodization=options.apodization,
+                phase_correction=options.phase_correction, planner=planner,
+            )
+            for ig in ifgs
+        ]
+    for c in caught:
+        notes.add(str(c.message))
+    sigma_app = np.arange(n_fft // 2 + 1) / (n_fft * limits.dx_cm)
+    spec = spectrum.coadd(sweep_specs, sigma_app, options.apodization)
+    factor = _index_factor(sigma_app, lam_ref or 632.991, options, kind)
+    spec = spec.with_axis(sigma_app * factor)
+    if not any(s.zpd_found for s in sweep_specs):
+        notes.add(
+            "no sweep reaches zero path difference (no centre burst): magnitude spectra were "
+            "used, so line shapes are only approximate and max_opd_mm is half of each sweep's "
+            "span"
+        )
+
+    # ---- lines
+    sig_hi = min(1e7 / SEARCH_BAND_NM[0], 0.98 * limits.grid_nyquist_per_cm)
+    sig_lo = 1e7 / SEARCH_BAND_NM[1]
+    with _warnings.catch_warnings():
+        _warnings.simplefilter("ignore", RuntimeWarning)
+        found = lines_mod.find_lines(spec, band_per_cm=(sig_lo, sig_hi))
+    sigma_alias = 1e7 / limits.min_wavelength_nm
+    flags = _flag_lines(found, lam_ref, sigma_alias, kind, record, notes)
+    source_lines = [f for f, fl in zip(found, flags) if fl is None]
+
+    result = Result.build(
+        record=record,
+        options=options,
+        path=path,
+        limits=limits,
+        spectrum=spec,
+        sweep_spectra=sweep_specs,
+        interferograms=ifgs,
+        lines=found,
+        flags=flags,
+        source_lines=source_lines,
+        reference_wavelength_nm=lam_ref,
+        notes=notes,
+    )
+    for ln in source_lines:
+        w = green_pointer_warning(ln.wavelength_nm)
+        if w:
+            result.add_warning(w)
+    return result
+
+
+def _flag_lines(found, lam_ref, sigma_alias, kind, record, notes):
+    """Why each line is not a source line (None when it is)."""
+    flags = []
+    strongest = max(found, key=lambda f: f.height) if found else None
+    clipped = _clipped_fraction(record.columns["signal"]) > 1e-3
+    for f in found:
+        flag = None
+        tol = 3 * max(f.instrument_fwhm_per_cm, f.fwhm_per_cm)
+        if lam_ref and kind in ("quadrature", "single"):
+            s_ref = 1e7 / lam_ref
+            if abs(f.centre_per_cm - s_ref) < tol:
+                flag = "reference-ghost"
+            elif strongest is not None and f is not strongest and any(
+                abs(f.centre_per_cm - (strongest.centre_per_cm + s * s_ref)) < tol for s in (-1, 1)
+            ):
+                flag = "reference-ghost"
+        if flag is None and strongest is not None and f is not strongest and clipped:
+            if any(abs(f.centre_per_cm - m * strongest.centre_per_cm) < tol for m in (2, 3)):
+                flag = "harmonic"
+        if flag is None and f.centre_per_cm > sigma_alias:
+            flag = "alias"
+        flags.append(flag)
+    n_ghost = sum(fl is not None for fl in flags)
+    if n_ghost:
+        notes.add(
+            f"{n_ghost} spectral feature(s) were flagged as not from the source (reference "
+            "ghost, detector harmonic or beyond the alias-free limit); see 'flag' in lines"
+        )
+    return flags
+
+
+def _clipped_fraction(signal: np.ndarray) -> float:
+    """Fraction of samples sitting at the record's extreme values (a flat top or bottom)."""
+    s = np.asarray(signal)
+    hi, lo = s.max(), s.min()
+    return float(max(np.mean(s == hi), np.mean(s == lo))) if s.size else 0.0

@@ -1,0 +1,498 @@
+"""The result of an analysis and the one place its JSON is shaped (:meth:`Result.to_dict`).
+
+:meth:`Result.build` turns the stages' outputs into the figures users came for — the source
+kind, the centre wavelength with its JCGM 100 budget, width or its bound, coherence length,
+modes, LED figures and colour — and collects every warning. The JSON keys are those of
+``docs/contract.md`` (schema ``ftsource/schema/result-1.json``).
+"""
+
+from __future__ import annotations
+
+import hashlib
+import math
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from ftsource import __version__
+
+__all__ = ["Result", "SCHEMA_ID", "SCHEMA_VERSION"]
+
+SCHEMA_VERSION = "1.0"
+SCHEMA_ID = "https://ftsource.invalid/schema/result-1.json"
+C_M_S = 299_792_458.0
+
+
+def _f(v, digits: int | None = None):
+    """A JSON number, or None for missing/non-finite values."""
+    if v is None:
+        return None
+    v = float(v)
+    if not math.isfinite(v):
+        return None
+    return round(v, digits) if digits is not None else v
+
+
+def _nm(sigma_per_cm: float) -> float:
+    return 1e7 / sigma_per_cm
+
+
+def _u_nm(sigma: float, u_sigma: float) -> float:
+    return 1e7 * u_sigma / sigma**2
+
+
+@dataclass
+class Result:
+    """Everything an analysis found. Build it with :meth:`build`; read it with :meth:`to_dict`."""
+
+    input: dict
+    processing: dict
+    instrument: dict
+    summary: dict
+    lines: list
+    uncertainty: dict | None
+    health: dict
+    warnings: list = field(default_factory=list)
+    spectrum: object = field(default=None, repr=False)
+    interferograms: tuple = field(default=(), repr=False)
+
+    def add_warning(self, msg: str) -> None:
+        if msg and msg not in self.warnings:
+            self.warnings.append(msg)
+
+    def to_dict(self) -> dict:
+        """The result as JSON-ready plain values (the contract's keys, in a fixed order)."""
+        from ftsource.safety import LASER_NOTICE
+
+        return {
+            "schema": SCHEMA_ID,
+            "schema_version": SCHEMA_VERSION,
+            "ftsource_version": __version__,
+            "input": self.input,
+            "processing": self.processing,
+            "instrument": self.instrument,
+            "summary": self.summary,
+            "lines": self.lines,
+            "uncertainty": self.uncertainty,
+            "health": self.health,
+            "warnings": list(self.warnings),
+            "safety": LASER_NOTICE,
+        }
+
+    # ------------------------------------------------------------------------------------
+    @classmethod
+    def build(
+        cls,
+        *,
+        record,
+        options,
+        path,
+        limits,
+        spectrum,
+        sweep_spectra,
+        interferograms,
+        lines,
+        flags,
+        source_lines,
+        reference_wavelength_nm,
+        notes,
+    ) -> Result:
+        warnings = list(notes.items)
+        spec = spectrum
+        kind_opd = path.kind
+        air = options.air if options.medium == "air" else None
+
+        def to_air(wl):
+            if air is None:
+                return None
+            from ftsource.air import vacuum_to_air_nm
+
+            if not 300.0 <= wl <= 1700.0:
+                return None
+            return float(vacuum_to_air_nm(wl, air))
+
+        # ---- input
+        digest = hashlib.sha256()
+        for name in sorted(record.columns):
+            digest.update(name.encode())
+            digest.update(np.ascontiguousarray(record.columns[name]).tobytes())
+        inp = {
+            "record": str(record.path).replace("\\", "/").split("/")[-1],
+            "sha256": digest.hexdigest(),
+            "n_samples": int(record.n_samples),
+            "sample_rate_hz": _f(options.sample_rate_hz or record.sample_rate_hz),
+            "opd_source": kind_opd,
+            "reference_wavelength_nm": _f(reference_wavelength_nm),
+            "reference_uncertainty_ppm": _f(_reference_u_ppm(options)),
+            "medium": options.medium,
+            "air": None
+            if air is None
+            else {
+                "temperature_c": _f(air.temperature_c),
+                "pressure_pa": _f(air.pressure_pa),
+                "humidity_percent": _f(air.humidity_percent),
+                "co2_ppm": _f(air.co2_ppm),
+            },
+            "metadata": {str(k): str(v) for k, v in sorted(record.metadata.items())},
+        }
+        if air is not None and not options.air_given:
+            warnings.append(
+                "air conditions were not given: standard lab air (20 °C, 101.325 kPa, 50 % RH) "
+                "was assumed with wide uncertainties; give --air-temperature, --air-pressure and "
+                "--air-humidity (a lab above about 150 m altitude must give its pressure)"
+            )
+
+        # ---- processing and health
+        used = {s.sweep_index for s in sweep_spectra}
+        methods = sorted({s.method for s in sweep_spectra})
+        processing = {
+            "apodization": options.apodization,
+            "phase_correction": methods[0] if len(methods) == 1 else "mixed",
+            "n_sweeps": len(path.sweeps),
+            "n_sweeps_used": len(used),
+            "rejected_sweeps": [
+                {"index": int(sw.index), "reason": "too short to resample"}
+                for sw in path.sweeps
+                if sw.index not in used
+            ],
+            "opd_step_nm": _f(limits.dx_cm * 1e7),
+            "zero_fill": int(options.zero_fill),
+            "channel_delay_s": None,
+        }
+        from ftsource.pipeline import _clipped_fraction
+
+        clipped = _clipped_fraction(record.columns["signal"])
+        if clipped > 1e-3:
+            warnings.append(
+                f"{clipped:.1%} of the source samples sit at the record's extreme value: the "
+                "detector or ADC may be clipping, which creates harmonics; reduce the gain"
+            )
+        health = {
+            "reference_ellipse_residual": _f(path.ellipse_residual),
+            "fringe_slips": int(path.fringe_slips),
+            "dropouts": int(path.dropouts),
+            "clipped_fraction": _f(clipped),
+            "sweeps": [
+                {
+                    "index": int(sw.index),
+                    "direction": int(sw.direction),
+                    "opd_span_mm": _f(sw.opd_span_cm * 10),
+                    "mean_speed_mm_s": _f(sw.mean_speed_cm_s * 10),
+                    "used": sw.index in used,
+                }
+                for sw in path.sweeps
+            ],
+        }
+
+        # ---- lines
+        strongest = max(source_lines, key=lambda f: f.height) if source_lines else None
+        line_dicts = []
+        for f, flag in zip(lines, flags):
+            wl = _nm(f.centre_per_cm)
+            line_dicts.append(
+                {
+                    "wavelength_nm": _f(wl),
+                    "wavelength_air_nm": _f(to_air(wl)),
+                    "wavenumber_per_cm": _f(f.centre_per_cm),
+                    "frequency_thz": _f(C_M_S * f.centre_per_cm * 100 / 1e12),
+                    "relative_intensity": _f(f.area / strongest.area) if strongest else None,
+                    "snr": _f(f.snr),
+                    "resolved": bool(f.resolved),
+                    "fwhm_nm": _f(_u_nm(f.centre_per_cm, f.fwhm_per_cm)) if f.resolved else None,
+                    "fwhm_upper_bound_nm": None
+                    if f.resolved
+                    else _f(_u_nm(f.centre_per_cm, f.fwhm_upper_bound_per_cm)),
+                    "profile": f.profile,
+                    "u_wavelength_nm": _f(_u_nm(f.centre_per_cm, f.u_centre_per_cm)),
+                    "flag": flag,
+                }
+            )
+        line_dicts.sort(key=lambda d: d["wavelength_nm"] or 0.0)
+
+        # ---- instrument
+        res = spec.resolution_per_cm
+        main_sigma = strongest.centre_per_cm if strongest else None
+        instrument = {
+            "max_opd_mm": _f(spec.max_opd_cm * 10),
+            "resolution_per_cm": _f(res),
+            "resolution_nm": _f(_u_nm(main_sigma, res)) if main_sigma else None,
+            "min_wavelength_nm": _f(limits.min_wavelength_nm),
+            "line_shape": f"{options.apodization} ({spec.line_shape.kind})",
+        }
+
+        summary, budget_dict = _summary(
+            spec, source_lines, strongest, sweep_spectra, interferograms, options, path,
+            reference_wavelength_nm, warnings, to_air,
+        )
+        if strongest is not None and 1e7 / strongest.centre_per_cm < limits.min_wavelength_nm:
+            warnings.append(
+                f"the main line lies below the shortest wavelength the time sampling supports "
+                f"({limits.min_wavelength_nm:.1f} nm): it may be an alias; sample faster or "
+                "scan slower"
+            )
+        else:
+            warnings.append(
+                f"content below {limits.min_wavelength_nm:.0f} nm would fold into the spectrum "
+                "(aliasing) and cannot be excluded from one scan at these speeds; a detector "
+                "that sees no light below that wavelength rules it out"
+            )
+        return cls(inp, processing, instrument, summary, line_dicts, budget_dict, health,
+                   warnings, spec, tuple(interferograms))
+
+
+def _reference_u_ppm(options) -> float:
+    if options.calibration is not None:
+        return float(options.calibration.u_effective_rel * 1e6)
+    return float(options.reference_uncertainty_ppm)
+
+
+def _air_ratio_rel_u(options, path, lam_ref, wl) -> float:
+    if options.medium == "vacuum":
+        return 0.0
+    from ftsource.air import index_ratio_uncertainty, index_uncertainty
+
+    wl_c = float(np.clip(wl, 300.0, 1700.0))
+    if path.kind in ("quadrature", "single"):
+        return float(index_ratio_uncertainty(lam_ref, wl_c, options.air))
+    return float(index_uncertainty(wl_c, options.air))
+
+
+def _empty_summary():
+    keys = [
+        "centre_wavelength_nm", "centre_wavelength_air_nm", "u_centre_wavelength_nm",
+        "expanded_uncertainty_nm", "coverage_factor", "wavenumber_per_cm", "frequency_thz",
+        "fwhm_nm", "fwhm_upper_bound_nm", "u_fwhm_nm", "coherence_length_mm",
+        "coherence_length_lower_bound_mm", "coherence_length_definition",
+        "coherence_length_visibility_mm", "half_visibility_opd_mm", "peak_wavelength_nm",
+        "u_peak_wavelength_nm", "centroid_wavelength_nm", "u_centroid_wavelength_nm",
+        "chromaticity_xy", "dominant_wavelength_nm", "modes",
+    ]
+    d = {"kind": "none", "resolved": None, "detector_weighted": True}
+    d.update({k: None for k in keys})
+    return d
+
+
+def _summary(spec, source_lines, strongest, sweep_spectra, ifgs, options, path, lam_ref,
+             warnings, to_air):
+    from ftsource import coherence as coh
+    from ftsource.uncertainty import sweep_consistency, wavelength_budget
+
+    s = _empty_summary()
+    s["detector_weighted"] = options.response is None
+    if strongest is None:
+        warnings.append(
+            "no line stands above the noise: check that the source reaches the detector, the "
+            "detector gain and the column mapping"
+        )
+        return s, None
+    main = strongest
+    sig0 = main.centre_per_cm
+    wl0 = _nm(sig0)
+    fwhm_nm = _u_nm(sig0, main.fwhm_per_cm)
+    kind = "narrow"
+    if main.resolved and fwhm_nm > 2.0:
+        kind = "broadband"
+    comb = None
+    if kind == "narrow" and len(source_lines) >= 3:
+        from ftsource.modes import find_mode_comb
+
+        comb = find_mode_comb(
+            np.array([f.centre_per_cm for f in source_lines]),
+            np.array([max(f.area, 0.0) for f in source_lines]),
+        )
+        if comb is not None:
+            kind = "multimode"
+    s["kind"] = kind
+    centre_nm, u_fit_nm, dof_fit = wl0, _u_nm(sig0, main.u_centre_per_cm), main.n_effective - 4
+
+    if kind == "multimode":
+        w = np.array(comb.intensities) / np.sum(comb.intensities)
+        by_sigma = {round(f.centre_per_cm, 6): f for f in source_lines}
+        us = np.array([
+            by_sigma.get(round(c, 6)).u_centre_per_cm if round(c, 6) in by_sigma else 0.0
+            for c in comb.centres_per_cm
+        ])
+        centre_nm = comb.centroid_nm
+        u_fit_nm = _u_nm(comb.centroid_per_cm, float(np.sqrt(np.sum((w * us) ** 2))))
+        s["modes"] = {
+            "n_modes": int(comb.n_modes),
+            "spacing_nm": _f(comb.spacing_nm),
+            "u_spacing_nm": _f(comb.u_spacing_nm),
+            "spacing_ghz": _f(comb.spacing_ghz),
+            "u_spacing_ghz": _f(comb.u_spacing_ghz),
+            "envelope_fwhm_nm": _f(comb.envelope_fwhm_nm),
+            "cavity_optical_length_mm": _f(comb.cavity_optical_length_cm * 10),
+            "revivals_confirmed": _revivals(ifgs, comb, sweep_spectra),
+        }
+
+    if kind == "broadband":
+        from ftsource.broadband import broadband_metrics
+
+        lo = sig0 - 4 * main.fwhm_per_cm
+        hi = sig0 + 4 * main.fwhm_per_cm
+        m = (spec.sigma_per_cm > lo) & (spec.sigma_per_cm < hi)
+        dens, noise = spec.density_per_nm[m], spec.noise_per_nm[m]
+        wl = spec.wavelength_nm[m]
+        if options.response is not None:
+            from ftsource.response import apply_response
+
+            d_c, n_c, _ = apply_response(spec.sigma_per_cm[m], spec.density[m], spec.noise[m],
+                                         options.response)
+            sig_m = spec.sigma_per_cm[m]
+            dens, noise = d_c * sig_m**2 / 1e7, n_c * sig_m**2 / 1e7
+            ok = np.isfinite(dens)
+            wl, dens, noise = wl[ok], dens[ok], noise[ok]
+        import warnings as _w
+
+        from ftsource.errors import FtsourceWarning
+
+        with _w.catch_warnings(record=True) as caught:
+            _w.simplefilter("always", FtsourceWarning)
+            bb = broadband_metrics(wl, dens, noise)
+        for c in caught:
+            warnings.append(str(c.message))
+        s.update(
+            peak_wavelength_nm=_f(bb.peak_nm),
+            u_peak_wavelength_nm=_f(bb.u_peak_nm),
+            centroid_wavelength_nm=_f(bb.centroid_nm),
+            u_centroid_wavelength_nm=_f(bb.u_centroid_nm),
+        )
+        centre_nm, u_fit_nm, dof_fit = bb.centroid_nm, bb.u_centroid_nm, 50.0
+        fwhm_nm = bb.fwhm_nm
+        s["u_fwhm_nm"] = _f(bb.u_fwhm_nm)
+        from ftsource.colour import chromaticity_xy, dominant_wavelength_nm
+
+        xy = chromaticity_xy(wl, np.clip(dens, 0, None))
+        if xy is not None:
+            s["chromaticity_xy"] = [_f(xy[0]), _f(xy[1])]
+            s["dominant_wavelength_nm"] = _f(dominant_wavelength_nm(xy))
+        if options.response is None:
+            warnings.append(
+                "broadband figures are detector-weighted: no instrument response correction "
+                "was applied (the detector and beamsplitter weight the spectrum; a silicon "
+                "photodiode alone moves an 850 nm LED's centroid by about a quarter nm)"
+            )
+        if options.aperture_diameter_m and options.focal_length_m:
+            from ftsource.instrument import field_of_view_correction, field_solid_angle
+
+            omega = field_solid_angle(options.aperture_diameter_m, options.focal_length_m)
+            factor = float(field_of_view_correction(1.0, omega))
+            centre_nm = centre_nm / factor
+            warnings.append(
+                f"the wavenumber scale was corrected for the field of view (Jacquinot, "
+                f"Ω = {omega:.3g} sr): centre shifted by {(1 / factor - 1) * 1e6:.2f} ppm"
+            )
+    elif options.aperture_diameter_m and options.focal_length_m:
+        warnings.append(
+            "the field-of-view (aperture) correction applies to extended sources that fill the "
+            "field stop, not to a laser beam, whose own divergence sets a far smaller shift: "
+            "it was not applied"
+        )
+
+    # ---- budget for the centre wavelength
+    wl_for_air = centre_nm
+    corrected, budget = wavelength_budget(
+        centre_nm,
+        u_fit_nm=float(u_fit_nm) if np.isfinite(u_fit_nm) else 0.0,
+        dof_fit=max(float(dof_fit), 1.0),
+        reference_rel_u=_reference_u_ppm(options) * 1e-6 if path.kind != "constant-speed" else 0.0,
+        air_ratio_rel_u=_air_ratio_rel_u(options, path, lam_ref, wl_for_air),
+        alignment_allowance_rel=options.alignment_allowance_ppm * 1e-6,
+    )
+    s["centre_wavelength_nm"] = _f(corrected)
+    s["centre_wavelength_air_nm"] = _f(to_air(corrected))
+    s["u_centre_wavelength_nm"] = _f(budget.combined)
+    s["expanded_uncertainty_nm"] = _f(budget.expanded)
+    s["coverage_factor"] = _f(budget.coverage_factor)
+    s["wavenumber_per_cm"] = _f(1e7 / corrected)
+    s["frequency_thz"] = _f(C_M_S / (corrected * 1e-9) / 1e12)
+    if path.kind == "constant-speed":
+        warnings.append(
+            "no reference: every wavelength scales with the assumed mirror speed, whose "
+            "uncertainty is not known to ftsource and is NOT in the budget; treat the centre "
+            "wavelength as uncalibrated"
+        )
+
+    # ---- consistency between sweeps (a check, not a budget component)
+    if kind == "narrow" and len(sweep_spectra) >= 2:
+        _sweep_check(spec, sweep_spectra, sig0, warnings)
+
+    # ---- width, coherence
+    s["resolved"] = bool(main.resolved) if kind != "multimode" else None
+    if kind in ("narrow", "broadband"):
+        if main.resolved:
+            s["fwhm_nm"] = _f(fwhm_nm)
+            if s["u_fwhm_nm"] is None:
+                s["u_fwhm_nm"] = _f(_u_nm(sig0, main.u_fwhm_per_cm))
+            band = (sig0 - 6 * main.fwhm_per_cm, sig0 + 6 * main.fwhm_per_cm)
+            try:
+                ce = coh.coherence_from_spectrum(spec.sigma_per_cm, spec.density,
+                                                 noise=spec.noise, band=band)
+                s["coherence_length_mm"] = _f(ce.length_cm * 10)
+                s["half_visibility_opd_mm"] = _f(ce.half_visibility_opd_cm * 10)
+                s["coherence_length_definition"] = ce.definition
+            except Exception as e:  # noqa: BLE001 - an estimate that fails is reported, not fatal
+                warnings.append(f"the coherence length could not be computed from the spectrum: {e}")
+        else:
+            ub = main.fwhm_upper_bound_per_cm
+            s["fwhm_upper_bound_nm"] = _f(_u_nm(sig0, ub))
+            s["coherence_length_lower_bound_mm"] = _f(coh.coherence_lower_bound_cm(ub) * 10)
+            s["coherence_length_definition"] = coh.GOODMAN_DEFINITION
+            warnings.append(
+                f"the line is not resolved: its width is below "
+                f"{_u_nm(sig0, ub):.3g} nm (about 95 % coverage) and only bounds are reported; "
+                f"a longer mirror travel (resolution now {_u_nm(sig0, spec.resolution_per_cm):.3g}"
+                " nm) is needed to measure it"
+            )
+        vis = _visibility(ifgs, sweep_spectra)
+        if vis is not None and not vis.is_lower_bound:
+            s["coherence_length_visibility_mm"] = _f(vis.length_cm * 10)
+    return s, budget.to_dict("_nm")
+
+
+def _sweep_check(spec, sweep_spectra, sig0, warnings):
+    from ftsource.lines import fit_line
+    from ftsource.spectrum import coadd
+    from ftsource.uncertainty import sweep_consistency
+
+    vals, us = [], []
+    for sw in sweep_spectra:
+        one = coadd([sw], spec.sigma_per_cm, spec.line_shape.apodization)
+        f = fit_line(one, sig0, profile="gaussian")
+        if f.success and np.isfinite(f.u_centre_per_cm) and f.u_centre_per_cm > 0:
+            vals.append(f.centre_per_cm)
+            us.append(f.u_centre_per_cm)
+    if len(vals) >= 2:
+        c = sweep_consistency(vals, us)
+        if not c.consistent:
+            warnings.append(
+                f"the sweeps disagree more than their fits predict (Birge ratio "
+                f"{c.birge_ratio:.2g}): something the fits do not see moves the line between "
+                "sweeps (mirror tilt, drifting reference, channel delay); the centre's "
+                "uncertainty may be too small"
+            )
+
+
+def _visibility(ifgs, sweep_spectra):
+    from ftsource.coherence import coherence_from_visibility
+
+    for ig, sw in zip(ifgs, sweep_spectra):
+        if sw.zpd_found:
+            try:
+                return coherence_from_visibility(ig.x_cm, ig.y, zpd_x_cm=sw.x_zpd_cm)
+            except Exception:  # noqa: BLE001 - optional estimate
+                return None
+    return None
+
+
+def _revivals(ifgs, comb, sweep_spectra):
+    from ftsource.modes import check_revivals
+
+    for ig, sw in zip(ifgs, sweep_spectra):
+        if sw.zpd_found:
+            try:
+                rc = check_revivals(ig.x_cm, ig.y, comb.spacing_per_cm, zpd_x_cm=sw.x_zpd_cm)
+                return rc.confirmed
+            except Exception:  # noqa: BLE001 - optional check
+                return None
+    return None
