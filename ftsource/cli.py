@@ -19,8 +19,22 @@ SAFETY_LINE = (
 )
 
 
+class UsageError(Exception):
+    """A command line that argparse refuses (unknown option, missing value, bad choice)."""
+
+
+class _Parser(argparse.ArgumentParser):
+    """argparse, but a refused command line raises :class:`UsageError` instead of printing the
+    usage block and calling ``sys.exit``: ``main`` turns it into one ``error:`` line."""
+
+    def error(self, message):  # noqa: D102 - argparse API
+        if "expected one argument" in message:
+            message += " (a value that starts with '-' is written as --option=VALUE)"
+        raise UsageError(f"{self.prog}: {message}; see '{self.prog} --help'")
+
+
 def build_parser() -> argparse.ArgumentParser:
-    p = argparse.ArgumentParser(
+    p = _Parser(
         prog="ftsource",
         description=(
             "Characterize a light source from scanned-mirror (Michelson) interferograms: "
@@ -98,10 +112,27 @@ def build_parser() -> argparse.ArgumentParser:
     return p
 
 
-def _qty(text, unit, name, *, physical_type=None):
+def _qty(text, unit, name, *, physical_type=None, positive=False):
+    """A plain float in ``unit`` from an option's text; ``positive`` refuses zero and below."""
+    from ftsource.errors import OptionError
     from ftsource.quantity import to_float
 
-    return to_float(text, unit, name=name)
+    value = to_float(text, unit, name=name)
+    if positive and not value > 0:
+        raise OptionError(
+            f"{name}: {_show(text)} is not allowed; it must be above zero (e.g. {_EXAMPLE[unit]})"
+        )
+    return value
+
+
+_EXAMPLE = {"nm": "'632.991nm'", "Hz": "'48kHz'", "m/s": "'0.5mm/s'", "m": "'25mm'",
+            "s": "'2s'", "cm": "'1mm'"}
+
+
+def _show(value, limit: int = 60) -> str:
+    """Quote a user's text for a one-line message, without control characters."""
+    s = "".join(ch if ch.isprintable() else "?" for ch in str(value))
+    return repr(s if len(s) <= limit else s[: limit - 3] + "...")
 
 
 def _ratio(text, name):
@@ -110,6 +141,27 @@ def _ratio(text, name):
 
     q = parse_quantity(text, physical_type="dimensionless", name=name)
     return float(q.to_value("")) * 1e6
+
+
+def _reference_uncertainty_ppm(text, lam_nm):
+    """``--reference-uncertainty`` as a ratio (ppm, %, a bare fraction) or as a length (then
+    relative to ``--reference-wavelength``)."""
+    from ftsource.errors import OptionError
+    from ftsource.quantity import parse_quantity
+
+    name = "--reference-uncertainty"
+    try:
+        return _ratio(text, name)
+    except OptionError:
+        q = parse_quantity(text, name=name)  # re-raises a text or unit that cannot be read
+    if q.unit.physical_type != "length":
+        raise OptionError(
+            f"{name}: {_show(text)} is neither a ratio nor a length; write e.g. '1.5ppm' or "
+            "'0.001nm'"
+        )
+    if lam_nm is None:
+        raise OptionError(f"{name} given as a length needs --reference-wavelength")
+    return _qty(text, "nm", name) / lam_nm * 1e6
 
 
 def _options(args):
@@ -128,28 +180,24 @@ def _options(args):
         from ftsource.quantity import parse_quantity
 
         types = {"temperature": "temperature", "pressure": "pressure", "humidity": "dimensionless"}
-        q = {k: parse_quantity(v, physical_type=types[k], name=f"--air-{k}") for k, v in given.items()}
+        q = {k: parse_quantity(v, physical_type=types[k], name=f"--air-{k}")
+             for k, v in given.items()}
         air = AirConditions.from_quantities(**q)
-    ref_u = args.reference_uncertainty
-    lam = _qty(args.reference_wavelength, "nm", "--reference-wavelength") if args.reference_wavelength else None
-    try:
-        ref_u_ppm = _ratio(ref_u, "--reference-uncertainty")
-    except Exception:  # a length: relative to the reference wavelength
-        length = _qty(ref_u, "nm", "--reference-uncertainty")
-        if lam is None:
-            from ftsource.errors import OptionError
+    lam = None
+    if args.reference_wavelength is not None:
+        lam = _qty(args.reference_wavelength, "nm", "--reference-wavelength", positive=True)
+    ref_u_ppm = _reference_uncertainty_ppm(args.reference_uncertainty, lam)
 
-            raise OptionError(
-                "--reference-uncertainty given as a length needs --reference-wavelength"
-            ) from None
-        ref_u_ppm = length / lam * 1e6
+    def opt(value, unit, name):
+        return None if value is None else _qty(value, unit, name, positive=True)
+
     cal = None
-    if args.calibration:
+    if args.calibration is not None:
         from ftsource.calibration import load_calibration
 
         cal = load_calibration(args.calibration)
     resp = None
-    if args.response:
+    if args.response is not None:
         from ftsource.response import ResponseCurve
 
         resp = ResponseCurve.from_file(args.response)
@@ -160,32 +208,58 @@ def _options(args):
         medium=args.medium,
         air=air,
         air_given=tuple(sorted(given)),
-        sample_rate_hz=_qty(args.sample_rate, "Hz", "--sample-rate") if args.sample_rate else None,
-        mirror_speed_m_s=_qty(args.mirror_speed, "m/s", "--mirror-speed") if args.mirror_speed else None,
+        sample_rate_hz=opt(args.sample_rate, "Hz", "--sample-rate"),
+        mirror_speed_m_s=opt(args.mirror_speed, "m/s", "--mirror-speed"),
         apodization=args.apodization,
         phase_correction=args.phase_correction,
         fft_planning=args.fft_planning,
         calibration=cal,
         response=resp,
-        aperture_diameter_m=_qty(args.aperture_diameter, "m", "--aperture-diameter") if args.aperture_diameter else None,
-        focal_length_m=_qty(args.focal_length, "m", "--focal-length") if args.focal_length else None,
+        aperture_diameter_m=opt(args.aperture_diameter, "m", "--aperture-diameter"),
+        focal_length_m=opt(args.focal_length, "m", "--focal-length"),
+    )
+
+
+def _no_reference_message(record) -> str:
+    """Why a record without any optical-path column cannot be analysed, and what to do."""
+    where = record.path
+    if record.source_format == "wav" and record.metadata.get("wav_channels") == "1":
+        return (
+            f"{where}: is a mono WAV file: its one channel is the source detector and there is "
+            "no reference channel; record the reference detector on the second channel "
+            "(stereo), or give --mirror-speed to assume a constant mirror speed"
+        )
+    return (
+        f"{where}: has no reference channel (ref, or ref_i and ref_q) and no position column "
+        f"(columns: {', '.join(record.columns)}); map one with --columns, or give "
+        "--mirror-speed to assume a constant mirror speed"
     )
 
 
 def _cmd_analyze(args, out, err) -> int:
+    from ftsource.errors import AnalysisError
     from ftsource.pipeline import analyze
     from ftsource.records import read_record
-    from ftsource.report import format_summary, result_json, write_outputs
+    from ftsource.report import check_outputs, format_summary, result_json, write_outputs
 
+    # Cheap checks first: options, then the output directory, then the record.
     options = _options(args)
-    record = read_record(args.record, columns=args.columns, sample_rate=None)
-    result = analyze(record, options)
-    if args.out:
+    if args.out is not None:
+        check_outputs(args.out, overwrite=args.overwrite)
+    record = read_record(args.record, columns=args.columns, sample_rate=options.sample_rate_hz)
+    if record.opd_source() is None and options.mirror_speed_m_s is None:
+        raise AnalysisError(_no_reference_message(record))
+    try:
+        result = analyze(record, options)
+    except AnalysisError as exc:
+        # the stages do not know the file; name it, as every other message does
+        raise AnalysisError(f"{record.path}: {exc}") from None
+    # Everything the user will see is made before anything is written: a failure while
+    # shaping the output leaves no file behind.
+    text = result_json(result) if args.json else format_summary(result) + "\n"
+    if args.out is not None:
         write_outputs(result, args.out, overwrite=args.overwrite)
-    if args.json:
-        out.write(result_json(result))
-    else:
-        out.write(format_summary(result) + "\n")
+    out.write(text)
     return 0
 
 
@@ -212,51 +286,65 @@ def _parse_source(spec: str):
 
 
 def _cmd_simulate(args, out, err) -> int:
+    import math
     from pathlib import Path
 
     from ftsource import simulate as sim
-    from ftsource.errors import OptionError
+    from ftsource.errors import OptionError, OutputError
     from ftsource.records import write_record_csv, write_record_npz, write_record_wav
 
     target = Path(args.out)
+    suffix = target.suffix.lower()
+    if suffix not in (".npz", ".wav", ".csv", ".tsv", ".txt", ".dat"):
+        raise OptionError(
+            f"{_show(args.out)}: unknown record type {_show(suffix or '(none)')}; use .csv, .npz "
+            "or .wav"
+        )
+    if target.is_dir():
+        raise OutputError(f"{target}: is a directory; give a file name")
     if target.exists() and not args.overwrite:
-        from ftsource.errors import OutputError
-
         raise OutputError(f"{target} exists already; use --overwrite to replace it")
+    if not (math.isfinite(args.noise) and args.noise >= 0):
+        raise OptionError(f"--noise {args.noise!r} is not allowed; give a finite value ≥ 0")
+    if args.seed < 0:
+        raise OptionError(f"--seed {args.seed} is not allowed; give a whole number ≥ 0")
     sources = [_parse_source(s) for s in (args.source or ["laser:650nm"])]
     lines = tuple(ln for s in sources for ln in s.lines)
-    total = sum(s.total_strength for s in sources)
     model = sim.SourceModel(lines, label=" + ".join(s.label for s in sources))
-    del total
-    fs = _qty(args.sample_rate, "Hz", "--sample-rate")
+    fs = _qty(args.sample_rate, "Hz", "--sample-rate", positive=True)
+    duration = _qty(args.duration, "s", "--duration", positive=True)
+    if not 64 <= duration * fs <= 50_000_000:
+        raise OptionError(
+            f"--duration × --sample-rate gives {duration * fs:.6g} samples; allowed 64–5e7"
+        )
+    if fs != round(fs) and suffix == ".wav":
+        raise OptionError(f"--sample-rate {fs!r} Hz: a WAV file holds a whole number of Hz")
     scan = sim.Scan(
         sample_rate_hz=fs,
-        duration_s=_qty(args.duration, "s", "--duration"),
+        duration_s=duration,
         opd_centre_cm=_qty(args.opd_centre, "cm", "--opd-centre"),
-        opd_amplitude_cm=_qty(args.opd_amplitude, "cm", "--opd-amplitude"),
-        sweep_rate_hz=_qty(args.sweep_rate, "Hz", "--sweep-rate"),
+        opd_amplitude_cm=_qty(args.opd_amplitude, "cm", "--opd-amplitude", positive=True),
+        sweep_rate_hz=_qty(args.sweep_rate, "Hz", "--sweep-rate", positive=True),
     )
-    if scan.n_samples < 64 or scan.n_samples > 50_000_000:
-        raise OptionError(f"--duration × --sample-rate gives {scan.n_samples} samples; allowed 64–5e7")
+    if not (abs(scan.opd_centre_cm) + scan.opd_amplitude_cm <= 100.0):
+        raise OptionError("--opd-centre and --opd-amplitude reach beyond 1 m of path difference")
     ref = sim.ReferenceChannel(
         kind=args.reference,
-        wavelength_nm=_qty(args.reference_wavelength, "nm", "--reference-wavelength"),
+        wavelength_nm=_qty(args.reference_wavelength, "nm", "--reference-wavelength",
+                           positive=True),
     )
     result = sim.simulate(model, scan, ref, sim.Detector(noise_rms=args.noise),
                           medium=args.medium, rng=args.seed)
     rec = result.record
-    suffix = target.suffix.lower()
     if suffix == ".npz":
-        write_record_npz(target, rec)
+        write_record_npz(target, rec, overwrite=args.overwrite)
     elif suffix == ".wav":
         cols = {k: v for k, v in rec.columns.items() if k != "time"}
         peak = max(float(abs(v).max()) for v in cols.values())
-        cols = {k: v / (1.05 * peak) for k, v in cols.items()}
-        write_record_wav(target, cols, fs, bits=24)
-    elif suffix in (".csv", ".tsv", ".txt", ".dat"):
-        write_record_csv(target, rec)
+        cols = {k: v / (1.05 * peak) for k, v in cols.items()} if peak > 0 else cols
+        write_record_wav(target, cols, fs, bits=24, overwrite=args.overwrite)
     else:
-        raise OptionError(f"{target}: unknown record type {suffix!r}; use .csv, .npz or .wav")
+        write_record_csv(target, rec, overwrite=args.overwrite)
     out.write(f"wrote {target} ({scan.n_samples} samples of {model.label}; invented data)\n")
     return 0
 
@@ -296,11 +384,32 @@ def _cmd_lines(args, out, err) -> int:
     return 0
 
 
+def _one_line(text: str, limit: int = 2000) -> str:
+    """A message as one printable line: whitespace runs become one space and control or
+    formatting characters (terminal escapes, bidirectional overrides) become '?', so that no
+    file name or cell echoed in a message can act on the terminal."""
+    s = " ".join(str(text).split())
+    s = "".join(ch if ch.isprintable() else "?" for ch in s)
+    return s if len(s) <= limit else s[: limit - 3] + "..."
+
+
 def main(argv=None) -> int:
-    """Run the command line; returns the exit status."""
+    """Run the command line; returns the exit status.
+
+    0: done (a result may carry warnings). 2: the user's input cannot be used, reported as one
+    ``error: ...`` line on standard error; nothing is written. 3: a bug in ftsource (one
+    ``error: internal error ...`` line). 130: interrupted. No exception leaves this function
+    (``--help`` returns 0 instead of raising ``SystemExit``).
+    """
     out, err = sys.stdout, sys.stderr
     parser = build_parser()
-    args = parser.parse_args(argv)
+    try:
+        args = parser.parse_args(argv)
+    except UsageError as e:
+        err.write(f"error: {_one_line(e)}\n")
+        return 2
+    except SystemExit as e:  # --help prints and exits through argparse
+        return e.code if isinstance(e.code, int) else (0 if e.code is None else 2)
     if args.version:
         from ftsource import __version__
 
@@ -325,15 +434,19 @@ def main(argv=None) -> int:
             warnings.simplefilter("ignore", FtsourceWarning)
             return handler(args, out, err)
     except (FtsourceError, OSError) as e:
-        msg = " ".join(str(e).split())
-        err.write(f"error: {msg}\n")
+        err.write(f"error: {_one_line(e)}\n")
+        return 2
+    except MemoryError:
+        err.write("error: not enough memory for this record; analyse a shorter recording\n")
         return 2
     except KeyboardInterrupt:
         err.write("error: interrupted\n")
         return 130
     except Exception as e:  # noqa: BLE001 - a bug must still end in one line, not a traceback
-        msg = " ".join(f"{type(e).__name__}: {e}".split())
-        err.write(f"error: internal error ({msg}); please report it with the record\n")
+        err.write(
+            f"error: internal error ({_one_line(f'{type(e).__name__}: {e}', 300)}); please "
+            "report it with the record and the command line\n"
+        )
         return 3
 
 

@@ -69,6 +69,7 @@ class LineFit:
     centre_per_cm: float
     u_centre_per_cm: float
     height: float
+    peak: float
     area: float
     u_area: float
     profile: str
@@ -200,7 +201,9 @@ def fit_line(
         i0 -= 1
     ils = spec.line_shape.fwhm_per_cm
     obs = _observed_fwhm(sig, y_all, i0)
-    win = _fit_window(spec, i0, max(4 * ils, 2.5 * obs))
+    # the main lobe of an unresolved line (first nulls near ±1.2 FWHM for the usual
+    # apodizations) plus a margin; wider for resolved lines
+    win = _fit_window(spec, i0, max(2.0 * ils, 2.5 * obs))
     x = sig[win]
     y = y_all[win]
     wts = 1.0 / spec.noise[win]
@@ -233,10 +236,13 @@ def fit_line(
 
     def covariance(res):
         J = res.jac
-        dof = max(x.size - res.x.size, 1)
-        s2 = float(np.sum(res.fun**2)) / dof
         jtj_inv = np.linalg.pinv(J.T @ J)
-        return jtj_inv @ (J.T @ rmat @ J) @ jtj_inv * s2
+        jrj = J.T @ rmat @ J
+        # residual degrees of freedom for correlated noise: E[rss] = tr((I − H)R)
+        # = n − tr((JᵀJ)⁻¹JᵀRJ), not n − p (which biases the residual scale low)
+        dof = max(x.size - float(np.trace(jtj_inv @ jrj)), 1.0)
+        s2 = float(np.sum(res.fun**2)) / dof
+        return jtj_inv @ jrj @ jtj_inv * s2
 
     first = "gaussian" if profile in ("auto", "gaussian") else profile
     res, aic = run(first)
@@ -263,10 +269,12 @@ def fit_line(
     k00 = spec.line_shape.kernel(np.zeros(1))[0]
     noise_at = float(spec.noise[i0])
     p = res.x
+    peak = float(p[0] * spec.line_shape.kernel(np.zeros(1), g, lw)[0] / k00)
     return LineFit(
         centre_per_cm=float(p[1]),
         u_centre_per_cm=float(perr[1]),
         height=float(p[0]),
+        peak=peak,
         area=float(p[0] / k00),
         u_area=float(perr[0] / k00),
         profile=claimed,
@@ -277,7 +285,7 @@ def fit_line(
         resolved=resolved,
         fwhm_upper_bound_per_cm=bound,
         instrument_fwhm_per_cm=float(ils),
-        snr=float(p[0] / noise_at) if noise_at > 0 else float("inf"),
+        snr=float(peak / noise_at) if noise_at > 0 else float("inf"),
         n_points=int(x.size),
         n_effective=float(n_eff),
         success=bool(res.success),
@@ -288,7 +296,7 @@ def fit_line(
 
 def _failed(spec, centre, ils, msg) -> LineFit:
     nan = float("nan")
-    return LineFit(centre, nan, nan, nan, nan, "undetermined", nan, nan, nan, nan, False,
+    return LineFit(centre, nan, nan, nan, nan, nan, "undetermined", nan, nan, nan, nan, False,
                    ils, ils, nan, 0, 0.0, False, msg, {})
 
 
@@ -345,13 +353,17 @@ def find_lines(
         if score[i0] < snr_threshold:
             break
         fit = fit_line(spec, sig[i0], profile=profile, others=model if fits else None)
-        peak = resid[i0]
+        near = np.abs(sig - fit.centre_per_cm) < max(fit.instrument_fwhm_per_cm, fit.fwhm_per_cm)
+        peak = float(resid[near].max()) if near.any() else float(resid[i0])
         plausible = (
             fit.success
             and np.isfinite(fit.centre_per_cm)
-            and 0 < fit.height < 2 * peak
+            and 0 < fit.peak < 2 * peak
             and abs(fit.centre_per_cm - sig[i0]) < 2 * max(fit.instrument_fwhm_per_cm, fit.fwhm_per_cm)
             and fit.snr >= snr_threshold
+            # the same line again (a residual of an imperfect subtraction) is not a new line
+            and all(abs(fit.centre_per_cm - f.centre_per_cm) > 0.5 * f.instrument_fwhm_per_cm
+                    for f in fits)
         )
         if not plausible:
             # an unfittable peak: raise the floor there so the search moves on
@@ -359,12 +371,22 @@ def find_lines(
             continue
         fits.append(fit)
         win = _fit_window(spec, int(np.argmin(np.abs(sig - fit.centre_per_cm))),
-                          6 * max(fit.instrument_fwhm_per_cm, fit.fwhm_per_cm))
+                          2 * max(fit.instrument_fwhm_per_cm, fit.fwhm_per_cm))
         r = (spec.density - line_model(spec, fits)(sig))[win]
-        floor2[win] = np.maximum(floor2[win], np.mean(r**2))
+        floor2[win] = np.maximum(floor2[win], np.median(r**2))
         # beyond the fitted model's reach, the line's far sidelobes (2× their envelope)
         far = inband & (np.abs(sig - fit.centre_per_cm) > _reach(fit))
         env = spec.line_shape.sidelobe_envelope(sig[far] - fit.centre_per_cm)
-        floor2[far] += (2 * fit.height * env / snr_threshold) ** 2
+        floor2[far] += (2 * fit.peak * env / snr_threshold) ** 2
+    # close lines pull on each other's fits: refit each with all the others subtracted
+    for _ in range(2 if len(fits) > 1 else 0):
+        for i in range(len(fits)):
+            others = [f for j, f in enumerate(fits) if j != i]
+            refit = fit_line(spec, fits[i].centre_per_cm, profile=profile,
+                             others=line_model(spec, others))
+            moved = abs(refit.centre_per_cm - fits[i].centre_per_cm)
+            if (refit.success and np.isfinite(refit.centre_per_cm) and refit.peak > 0
+                    and moved < 0.5 * refit.instrument_fwhm_per_cm):
+                fits[i] = refit
     fits.sort(key=lambda f: -f.centre_per_cm)  # by increasing wavelength
     return fits

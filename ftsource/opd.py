@@ -507,7 +507,10 @@ def opd_from_single(
             # fringe period (transfer exp(-2π²) ≈ 3e-9 at the fringe rate) removes it while
             # following mirror motion far slower than the fringes. It runs over the whole
             # stretch, turnarounds included, so the sweeps' ends are not distorted.
-            xs = gaussian_filter1d(xs, period, mode="nearest")
+            pad = min(int(4 * period) + 1, xs.size - 1)
+            xp = np.pad(xs, pad, mode="reflect", reflect_type="odd")
+            g = gaussian_filter1d(xp, period, mode="nearest")
+            xs = (2 * g - gaussian_filter1d(g, period, mode="nearest"))[pad : pad + xs.size]
         xs[slow] = np.nan
         x[a2:b2] = xs * lam_cm / (2 * np.pi)
         fast_runs = [(a2 + p0, a2 + p1) for p0, p1 in _runs(~slow) if p1 - p0 >= 64]

@@ -217,6 +217,16 @@ def analyze(record, options: AnalysisOptions | None = None, *, planner=None):
         ]
     for c in caught:
         notes.add(str(c.message))
+    if any(s.zpd_found for s in sweep_specs) and not all(s.zpd_found for s in sweep_specs):
+        # a magnitude spectrum of a sweep that misses ZPD does not mix with phase-corrected
+        # ones (different line shapes and noise): keep the sweeps through ZPD
+        dropped = [s.sweep_index for s in sweep_specs if not s.zpd_found]
+        sweep_specs = [s for s in sweep_specs if s.zpd_found]
+        ifgs = tuple(ig for ig in ifgs if ig.sweep.index not in dropped)
+        notes.add(
+            f"{len(dropped)} sweep(s) that do not reach zero path difference were left out "
+            "(the others do, and give phase-corrected spectra)"
+        )
     sigma_app = np.arange(n_fft // 2 + 1) / (n_fft * limits.dx_cm)
     spec = spectrum.coadd(sweep_specs, sigma_app, options.apodization)
     factor = _index_factor(sigma_app, lam_ref or 632.991, options, kind)
@@ -262,12 +272,14 @@ def analyze(record, options: AnalysisOptions | None = None, *, planner=None):
 def _flag_lines(found, lam_ref, sigma_alias, kind, record, notes):
     """Why each line is not a source line (None when it is)."""
     flags = []
-    strongest = max(found, key=lambda f: f.height) if found else None
+    strongest = max(found, key=lambda f: f.area) if found else None
     clipped = _clipped_fraction(record.columns["signal"]) > 1e-3
     for f in found:
         flag = None
-        tol = 3 * max(f.instrument_fwhm_per_cm, f.fwhm_per_cm)
-        if lam_ref and kind in ("quadrature", "single"):
+        # ghosts of a laser are as narrow as the instrument line shape
+        narrow = not f.resolved or f.fwhm_per_cm < 3 * f.instrument_fwhm_per_cm
+        tol = 3 * f.instrument_fwhm_per_cm
+        if lam_ref and kind in ("quadrature", "single") and narrow:
             s_ref = 1e7 / lam_ref
             if abs(f.centre_per_cm - s_ref) < tol:
                 flag = "reference-ghost"
@@ -275,7 +287,7 @@ def _flag_lines(found, lam_ref, sigma_alias, kind, record, notes):
                 abs(f.centre_per_cm - (strongest.centre_per_cm + s * s_ref)) < tol for s in (-1, 1)
             ):
                 flag = "reference-ghost"
-        if flag is None and strongest is not None and f is not strongest and clipped:
+        if flag is None and strongest is not None and f is not strongest and clipped and narrow:
             if any(abs(f.centre_per_cm - m * strongest.centre_per_cm) < tol for m in (2, 3)):
                 flag = "harmonic"
         if flag is None and f.centre_per_cm > sigma_alias:

@@ -346,7 +346,8 @@ def _check_time(t: np.ndarray, *, where: str, line_of=None) -> None:
         i = int(bad[0]) + 1
         at = f"line {line_of(i)}" if line_of else f"sample {i}"
         raise RecordError(
-            f"{where}: column 'time' does not increase at {at} ({t[i - 1]!r} then {t[i]!r}); "
+            f"{where}: column 'time' does not increase at {at} ({float(t[i - 1])!r} then "
+            f"{float(t[i])!r}); "
             "times must increase strictly: sort the rows or remove repeated samples"
         )
 

@@ -2,9 +2,12 @@
 
 Files go into an output directory: ``result.json`` (the contract's JSON) and
 ``spectrum.ecsv`` (vacuum wavenumber and wavelength, density per unit wavenumber and per unit
-wavelength, and their noise). Each file is written to a temporary name in the same directory
-and renamed into place, so a failure never leaves a half-written file; existing files are
-replaced only with ``overwrite=True``.
+wavelength, and their noise). Both files are first written completely to temporary names in the
+same directory and only then renamed into place; if anything fails, the temporary files are
+removed and any file already renamed is taken back (the previous one restored), so a failure
+never leaves a half-written file or half a result. Existing files are replaced only with
+``overwrite=True``. The file names are fixed: nothing from the record (metadata, column names)
+ever becomes a path.
 """
 
 from __future__ import annotations
@@ -12,20 +15,58 @@ from __future__ import annotations
 import json
 import os
 import tempfile
+import unicodedata
 from pathlib import Path
 
 import numpy as np
 
 from ftsource.errors import OutputError
 
-__all__ = ["result_json", "format_summary", "write_outputs", "OUTPUT_FILES"]
+__all__ = ["result_json", "format_summary", "write_outputs", "check_outputs", "OUTPUT_FILES"]
 
 OUTPUT_FILES = ("result.json", "spectrum.ecsv")
+#: Prefix of the temporary files written next to the outputs (removed on success and failure).
+TEMP_PREFIX = ".ftsource-tmp-"
+
+# Characters that JSON (RFC 8259) lets through unescaped but that a terminal or an editor may
+# act on: DEL and the C1 controls (Cc beyond what json escapes), formatting characters such as
+# bidirectional overrides (Cf), and the line and paragraph separators (Zl, Zp).
+_UNSAFE_CATEGORIES = ("Cc", "Cf", "Zl", "Zp")
+
+
+def _json_escape(ch: str) -> str:
+    code = ord(ch)
+    if code < 0x10000:
+        return f"\\u{code:04x}"
+    code -= 0x10000  # a UTF-16 surrogate pair, as RFC 8259 section 7 writes such characters
+    return f"\\u{0xD800 + (code >> 10):04x}\\u{0xDC00 + (code & 0x3FF):04x}"
+
+
+def _escape_unsafe(text: str) -> str:
+    if text.isascii() and "\x7f" not in text:
+        return text
+    return "".join(
+        _json_escape(ch)
+        if ord(ch) >= 0x7F and unicodedata.category(ch) in _UNSAFE_CATEGORIES
+        else ch
+        for ch in text
+    )
 
 
 def result_json(result) -> str:
-    """The result as JSON text (deterministic: fixed key order, no timestamps)."""
-    return json.dumps(result.to_dict(), indent=2, ensure_ascii=False, allow_nan=False) + "\n"
+    """The result as JSON text (deterministic: fixed key order, no timestamps).
+
+    Text from the record (metadata values, file name) is kept, but characters that could act
+    on a terminal (C1 controls, bidirectional overrides, line separators) are written as
+    ``\\uXXXX`` escapes, which any JSON reader turns back into the same text.
+    """
+    text = json.dumps(result.to_dict(), indent=2, ensure_ascii=False, allow_nan=False) + "\n"
+    return _escape_unsafe(text)
+
+
+def _printable(text) -> str:
+    """One line of text for the terminal: control and formatting characters become '?'."""
+    return "".join(ch if ch.isprintable() else "?" for ch in " ".join(str(text).split()))
 
 
 def _fmt(v, unit="", digits=6):
@@ -35,69 +76,62 @@ def _fmt(v, unit="", digits=6):
 
 
 def format_summary(result) -> str:
-    """A short human-readable summary of a result."""
+    """A short human-readable summary of a result (one printable line per item: control
+    characters from the record are shown as '?')."""
     d = result.to_dict()
     s, ins, inp = d["summary"], d["instrument"], d["input"]
     out = [f"record: {inp['record']}  ({inp['n_samples']} samples, OPD from {inp['opd_source']})"]
     out.append(f"source kind: {s['kind']}")
-    if s["centre_wavelength_nm"] is not None:
+    if s.get("centre_wavelength_nm") is not None:
         out.append(
             f"centre wavelength (vacuum): {_fmt(s['centre_wavelength_nm'], ' nm', 5)}"
-            f"  ± {_fmt(s['expanded_uncertainty_nm'], ' nm', 5)} (k = {s['coverage_factor']:.2f})"
+            f"  ± {_fmt(s.get('expanded_uncertainty_nm'), ' nm', 5)} "
+            f"(k = {_fmt(s.get('coverage_factor'), '', 2)})"
         )
-        if s["centre_wavelength_air_nm"] is not None:
-            out.append(f"centre wavelength (air):    {_fmt(s['centre_wavelength_air_nm'], ' nm', 5)}")
-        out.append(f"frequency: {_fmt(s['frequency_thz'], ' THz', 4)}")
+        if s.get("centre_wavelength_air_nm") is not None:
+            out.append(
+                f"centre wavelength (air):    {_fmt(s['centre_wavelength_air_nm'], ' nm', 5)}"
+            )
+        out.append(f"frequency: {_fmt(s.get('frequency_thz'), ' THz', 4)}")
     if s["kind"] == "broadband":
         out.append(
-            f"peak {_fmt(s['peak_wavelength_nm'], ' nm', 2)}, centroid "
-            f"{_fmt(s['centroid_wavelength_nm'], ' nm', 2)}, FWHM {_fmt(s['fwhm_nm'], ' nm', 2)}"
+            f"peak {_fmt(s.get('peak_wavelength_nm'), ' nm', 2)}, centroid "
+            f"{_fmt(s.get('centroid_wavelength_nm'), ' nm', 2)}, FWHM "
+            f"{_fmt(s.get('fwhm_nm'), ' nm', 2)}"
         )
-        if s["dominant_wavelength_nm"] is not None:
+        if s.get("dominant_wavelength_nm") is not None and s.get("chromaticity_xy"):
             x, y = s["chromaticity_xy"]
             out.append(
-                f"colour: x = {x:.4f}, y = {y:.4f}, dominant wavelength "
-                f"{s['dominant_wavelength_nm']:.1f} nm"
+                f"colour: x = {_fmt(x, '', 4)}, y = {_fmt(y, '', 4)}, dominant wavelength "
+                f"{_fmt(s['dominant_wavelength_nm'], ' nm', 1)}"
             )
-    elif s["resolved"]:
-        out.append(f"linewidth (FWHM): {_fmt(s['fwhm_nm'], ' nm', 4)}")
-    elif s["fwhm_upper_bound_nm"] is not None:
+    elif s.get("resolved"):
+        out.append(f"linewidth (FWHM): {_fmt(s.get('fwhm_nm'), ' nm', 4)}")
+    elif s.get("fwhm_upper_bound_nm") is not None:
         out.append(
             f"linewidth: not resolved, below {_fmt(s['fwhm_upper_bound_nm'], ' nm', 4)}; "
-            f"coherence length above {_fmt(s['coherence_length_lower_bound_mm'], ' mm', 2)}"
+            f"coherence length above {_fmt(s.get('coherence_length_lower_bound_mm'), ' mm', 2)}"
         )
-    if s["coherence_length_mm"] is not None:
+    if s.get("coherence_length_mm") is not None:
         out.append(f"coherence length: {_fmt(s['coherence_length_mm'], ' mm', 3)}")
-    if s["modes"]:
+    if s.get("modes"):
         m = s["modes"]
         out.append(
-            f"modes: {m['n_modes']} spaced {_fmt(m['spacing_nm'], ' nm', 4)} "
-            f"({_fmt(m['spacing_ghz'], ' GHz', 2)}), cavity optical length "
-            f"{_fmt(m['cavity_optical_length_mm'], ' mm', 3)}"
+            f"modes: {m.get('n_modes')} spaced {_fmt(m.get('spacing_nm'), ' nm', 4)} "
+            f"({_fmt(m.get('spacing_ghz'), ' GHz', 2)}), cavity optical length "
+            f"{_fmt(m.get('cavity_optical_length_mm'), ' mm', 3)}"
         )
     n_src = sum(1 for ln in d["lines"] if ln["flag"] is None)
     out.append(f"lines: {n_src} from the source, {len(d['lines']) - n_src} flagged")
     out.append(
-        f"resolution: {_fmt(ins['resolution_per_cm'], ' cm⁻¹', 3)} (max OPD "
-        f"{_fmt(ins['max_opd_mm'], ' mm', 3)}); shortest alias-free wavelength "
-        f"{_fmt(ins['min_wavelength_nm'], ' nm', 1)}"
+        f"resolution: {_fmt(ins.get('resolution_per_cm'), ' cm⁻¹', 3)} (max OPD "
+        f"{_fmt(ins.get('max_opd_mm'), ' mm', 3)}); shortest alias-free wavelength "
+        f"{_fmt(ins.get('min_wavelength_nm'), ' nm', 1)}"
     )
     for w in d["warnings"]:
         out.append(f"warning: {w}")
     out.append(f"safety: {d['safety']}")
-    return "\n".join(out)
-
-
-def _atomic_write_bytes(path: Path, data: bytes) -> None:
-    fd, tmp = tempfile.mkstemp(prefix=".tmp-", dir=path.parent)
-    try:
-        with os.fdopen(fd, "wb") as fh:
-            fh.write(data)
-        os.replace(tmp, path)
-    except BaseException:
-        if os.path.exists(tmp):
-            os.unlink(tmp)
-        raise
+    return "\n".join(_printable(line) for line in out)
 
 
 def _spectrum_ecsv(result) -> bytes:
@@ -132,30 +166,155 @@ def _spectrum_ecsv(result) -> bytes:
     return buf.getvalue().encode()
 
 
+def _targets(out_dir) -> tuple[Path, list[Path]]:
+    if not str(out_dir).strip():
+        raise OutputError("--out: the directory name is empty")
+    out = Path(out_dir)
+    return out, [out / name for name in OUTPUT_FILES]
+
+
+def check_outputs(out_dir, *, overwrite: bool = False) -> None:
+    """Refuse early what :func:`write_outputs` would refuse, before any work is done.
+
+    Raises
+    ------
+    OutputError
+        ``out_dir`` exists and is not a directory; an output name there is taken by a
+        directory; or an output file (or a link under its name) exists and ``overwrite`` is
+        False.
+    """
+    out, targets = _targets(out_dir)
+    if os.path.lexists(out) and not out.is_dir():
+        raise OutputError(f"--out {out}: exists and is not a directory")
+    for p in targets:
+        if p.is_dir() and not p.is_symlink():
+            raise OutputError(
+                f"--out {out}: {p} is a directory; remove it or choose another --out"
+            )
+    if not overwrite:
+        existing = [str(p) for p in targets if os.path.lexists(p)]
+        if existing:
+            raise OutputError(
+                f"--out {out}: {', '.join(existing)} exists already; use --overwrite to replace"
+            )
+
+
+def _write_temp(folder: Path, data: bytes) -> str:
+    """Write ``data`` completely to a new temporary file in ``folder``; return its path."""
+    fd, tmp = tempfile.mkstemp(prefix=TEMP_PREFIX, dir=folder)
+    try:
+        with os.fdopen(fd, "wb") as fh:
+            fh.write(data)
+            fh.flush()
+            os.fsync(fh.fileno())
+        os.chmod(tmp, 0o644)
+    except BaseException:
+        _remove(tmp)
+        raise
+    return tmp
+
+
+def _remove(path) -> None:
+    try:
+        os.unlink(path)
+    except OSError:
+        pass
+
+
+def _backup(target: Path) -> str | None:
+    """A hard link to (or a copy of) an existing output, put back if the write fails."""
+    if not os.path.lexists(target):
+        return None
+    fd, tmp = tempfile.mkstemp(prefix=TEMP_PREFIX, dir=target.parent)
+    os.close(fd)
+    try:
+        os.unlink(tmp)
+        os.link(target, tmp, follow_symlinks=False)
+    except OSError:  # no hard links on this file system (e.g. FAT): copy instead
+        import shutil
+
+        shutil.copy2(target, tmp, follow_symlinks=False)
+    return tmp
+
+
+def _place_new(tmp: str, target: Path, out: Path) -> None:
+    """Move ``tmp`` to ``target`` only if nothing has that name (another program may have
+    written it while the result was computed): a hard link cannot replace a file."""
+    try:
+        os.link(tmp, target)
+    except FileExistsError:
+        raise OutputError(
+            f"--out {out}: {target} exists already; use --overwrite to replace"
+        ) from None
+    except OSError:  # no hard links on this file system: check, then rename
+        if os.path.lexists(target):
+            raise OutputError(
+                f"--out {out}: {target} exists already; use --overwrite to replace"
+            ) from None
+        os.replace(tmp, target)
+        return
+    os.unlink(tmp)
+
+
 def write_outputs(result, out_dir, *, overwrite: bool = False) -> list[Path]:
     """Write ``result.json`` and ``spectrum.ecsv`` into ``out_dir`` (created if missing).
+
+    All or nothing: both files are written completely to temporary files in ``out_dir``
+    first and only then renamed into place. If anything fails, the temporary files are
+    removed, a file already renamed is taken back (the one it replaced is restored), and
+    directories made here are removed again.
 
     Raises
     ------
     OutputError
         ``out_dir`` is not a directory, a file exists and ``overwrite`` is False, or a write
-        fails. Nothing is written unless every file can be.
+        fails. Nothing is left written unless every file could be.
     """
-    out = Path(out_dir)
-    if out.exists() and not out.is_dir():
-        raise OutputError(f"--out {out}: exists and is not a directory")
-    targets = [out / name for name in OUTPUT_FILES]
-    if not overwrite:
-        existing = [str(p) for p in targets if p.exists()]
-        if existing:
-            raise OutputError(
-                f"--out {out}: {', '.join(existing)} exists already; use --overwrite to replace"
-            )
+    out, targets = _targets(out_dir)
+    check_outputs(out, overwrite=overwrite)
     payloads = [result_json(result).encode(), _spectrum_ecsv(result)]
+    created: list[Path] = []
+    temps: list[str] = []
+    backups: dict[Path, str | None] = {}
+    placed: list[Path] = []
     try:
-        out.mkdir(parents=True, exist_ok=True)
-        for p, data in zip(targets, payloads):
-            _atomic_write_bytes(p, data)
-    except OSError as e:
-        raise OutputError(f"--out {out}: cannot write ({e.strerror or e})") from None
+        missing = [d for d in (out, *out.parents) if not os.path.lexists(d)]
+        for d in reversed(missing):
+            d.mkdir()
+            created.append(d)
+        for data in payloads:
+            temps.append(_write_temp(out, data))
+        for p, tmp in zip(targets, temps):
+            if overwrite:
+                backups[p] = _backup(p)
+                os.replace(tmp, p)
+            else:
+                _place_new(tmp, p, out)
+            placed.append(p)
+    except BaseException as e:
+        for p in placed:  # take back what was placed; put back what it replaced
+            old = backups.pop(p, None)
+            if old:
+                try:
+                    os.replace(old, p)
+                except OSError:
+                    pass
+            else:
+                _remove(p)
+        for tmp in temps:
+            _remove(tmp)
+        for old in backups.values():
+            if old:
+                _remove(old)
+        for d in reversed(created):
+            try:
+                d.rmdir()
+            except OSError:
+                pass
+        if isinstance(e, OSError) and not isinstance(e, OutputError):
+            raise OutputError(f"--out {out}: cannot write ({e.strerror or e})") from None
+        raise
+    for old in backups.values():
+        if old:
+            _remove(old)
     return targets

@@ -185,7 +185,7 @@ class Result:
         }
 
         # ---- lines
-        strongest = max(source_lines, key=lambda f: f.height) if source_lines else None
+        strongest = max(source_lines, key=lambda f: f.area) if source_lines else None
         line_dicts = []
         for f, flag in zip(lines, flags):
             wl = _nm(f.centre_per_cm)

@@ -244,9 +244,13 @@ def sweep_spectrum(
     if zpd is not None and zpd.found:
         method = "mertz" if phase_correction in ("auto", "mertz") else phase_correction
         fn = phase.forman if method == "forman" else phase.mertz
-        if method == "magnitude":
-            fn = phase.magnitude
-        ps = fn(x, ifg.y, zpd, apodization=apodization, n_fft=n_fft, planner=planner)
+        try:
+            ps = fn(x, ifg.y, zpd, apodization=apodization, n_fft=n_fft, planner=planner)
+        except AnalysisError:
+            # a burst too close to the sweep's end for a double-sided phase segment: treat the
+            # sweep as one without ZPD
+            zpd = None
+    if zpd is not None and zpd.found:
         return SweepSpectrum(
             ps.real, ps.imag_residual, ps.L_cm, ps.method, True, zpd.x_zpd_cm, ifg.sweep.index
         )
@@ -294,22 +298,26 @@ def coadd(
 
 
 def _noise_floor(s: SweepSpectrum, block: int = 1024) -> np.ndarray:
-    """Noise standard deviation at each point of one sweep's spectrum, from blocks of points.
+    """Noise standard deviation of one sweep's spectrum, from blocks of points.
 
-    A phase-corrected spectrum's imaginary residual is pure noise (its real part carries the
-    source), so its robust spread (1.4826 × median absolute value) is used. A magnitude
-    spectrum is Rayleigh distributed where there is no line: the noise per component is its
-    median / √(2 ln 2). Per-block medians ignore the few points a narrow line occupies.
+    In each block of a phase-corrected spectrum the robust spread is 1.4826 × the median
+    absolute deviation (Gaussian noise); a magnitude spectrum is Rayleigh distributed where
+    there is no line, so the noise per component is its median / √(2 ln 2). Block medians ignore
+    the few points a narrow line occupies, and the median over blocks ignores the blocks a broad
+    source fills. (The imaginary residual of a one-sided record comes from its short
+    double-sided part and has another noise level, so it is not used.)
     """
-    if s.method == "magnitude" or not np.any(s.imag_residual):
-        v = np.abs(s.values)
-        scale = 1.0 / np.sqrt(2 * np.log(2)) if s.method == "magnitude" else 1.4826
-    else:
-        v = np.abs(s.imag_residual)
-        scale = 1.4826
+    v = np.abs(s.values)
+    scale = 1.0 / np.sqrt(2 * np.log(2)) if s.method == "magnitude" else 1.4826
     nb = max(v.size // block, 1)
     edges = np.linspace(0, v.size, nb + 1).astype(int)
-    med = np.array([np.median(v[a:b]) for a, b in zip(edges[:-1], edges[1:])]) * scale
-    centres = 0.5 * (edges[:-1] + edges[1:])
-    out = np.interp(np.arange(v.size), centres, med)
-    return np.maximum(out, np.finfo(float).tiny)
+    if s.method != "magnitude":
+        # deviations about each block's median (a broad source lifts a whole block)
+        med = np.array([np.median(np.abs(s.values[a:b] - np.median(s.values[a:b])))
+                        for a, b in zip(edges[:-1], edges[1:])]) * scale
+    else:
+        med = np.array([np.median(v[a:b]) for a, b in zip(edges[:-1], edges[1:])]) * scale
+    # white interferogram noise is flat in wavenumber: the median over blocks is robust to the
+    # blocks a source occupies
+    level = float(np.median(med))
+    return np.full(v.size, max(level, np.finfo(float).tiny))
