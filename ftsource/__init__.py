@@ -1,3 +1,64 @@
-"""ftsource: characterize a light source from scanned-mirror (Michelson) interferograms."""
+"""ftsource: characterize a light source from scanned-mirror (Michelson) interferograms.
+
+Public API (imported lazily, so ``import ftsource`` and ``ftsource --help`` stay fast):
+
+=======================  ============================================================
+``analyze``              the whole job: a record in, a :class:`Result` out
+``AnalysisOptions``      reference wavelength, air, apodization, phase correction, ...
+``read_record``          read a CSV/TSV/whitespace table, ``.npz`` or ``.wav`` record
+``Record``               the samples of one recording
+``Result``               what an analysis found; ``Result.to_dict()`` is the JSON
+``write_outputs``        write ``result.json`` and ``spectrum.ecsv`` atomically
+``FFTPlanner``           explicitly cached FFTW plans
+``simulate``             the forward model (module): records from a known source
+``FtsourceError``        base of every error ftsource raises on purpose
+``FtsourceWarning``      the warning class (texts are also in ``Result.warnings``)
+=======================  ============================================================
+
+Stage modules (``opd``, ``resample``, ``apodization``, ``zpd``, ``phase``, ``spectrum``,
+``lines``, ``air``, ``coherence``, ``modes``, ``broadband``, ``uncertainty``, ``colour``,
+``response``, ``calibration``, ``reference``, ``instrument``) are importable on their own.
+"""
 
 __version__ = "0.1.0"
+
+__all__ = [
+    "analyze",
+    "AnalysisOptions",
+    "read_record",
+    "Record",
+    "Result",
+    "write_outputs",
+    "FFTPlanner",
+    "simulate",
+    "FtsourceError",
+    "FtsourceWarning",
+    "__version__",
+]
+
+_LAZY = {
+    "analyze": ("ftsource.pipeline", "analyze"),
+    "AnalysisOptions": ("ftsource.pipeline", "AnalysisOptions"),
+    "read_record": ("ftsource.records", "read_record"),
+    "Record": ("ftsource.records", "Record"),
+    "Result": ("ftsource.result", "Result"),
+    "write_outputs": ("ftsource.report", "write_outputs"),
+    "FFTPlanner": ("ftsource.transform", "FFTPlanner"),
+    "simulate": ("ftsource.simulate", None),
+    "FtsourceError": ("ftsource.errors", "FtsourceError"),
+    "FtsourceWarning": ("ftsource.errors", "FtsourceWarning"),
+}
+
+
+def __getattr__(name):
+    if name in _LAZY:
+        import importlib
+
+        module, attr = _LAZY[name]
+        mod = importlib.import_module(module)
+        return mod if attr is None else getattr(mod, attr)
+    raise AttributeError(f"module 'ftsource' has no attribute {name!r}")
+
+
+def __dir__():
+    return sorted(__all__)

@@ -266,6 +266,15 @@ def analyze(record, options: AnalysisOptions | None = None, *, planner=None):
         w = green_pointer_warning(ln.wavelength_nm)
         if w:
             result.add_warning(w)
+            ir = [f for f in source_lines if 800.0 <= f.wavelength_nm <= 815.0
+                  or 1060.0 <= f.wavelength_nm <= 1068.0]
+            for f in ir:
+                result.add_warning(
+                    f"INFRARED FOUND: a line at {f.wavelength_nm:.2f} nm (invisible) comes with the "
+                    "green light — the pointer leaks pump or fundamental light; its infrared power "
+                    "is not measured here and may exceed the green's"
+                )
+            break
     return result
 
 

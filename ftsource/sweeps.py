@@ -246,7 +246,7 @@ def _check_path(path, sample_rate_hz):
 
 def _fail(method, reason, nf=0, nb=0, speed="mean", period=float("nan")):
     nan = float("nan")
-    return DelayEstimate(nan, nan, nf, nb, method, False, reason, speed, period)
+    return DelayEstimate(nan, nan, nf, nb, method, False, reason, speed, float(period))
 
 
 # --------------------------------------------------------------------------------------------
@@ -512,7 +512,8 @@ def _delay_from_phase(items, path, fs, speed, max_delay):
     scale = max(birge2, 1.0)
     rivals = [t for c2, t, _ in cands[1:] if (c2 - chi2_best) / scale < DELTA_CHI2_EXCLUDE]
     if rivals:
-        near = sorted(rivals, key=lambda t: abs(t - tau))[:2]
+        alike = sorted([tau, *rivals], key=abs)
+        tau, near = alike[0], alike[1:3]
         return _fail(
             "phase",
             f"the line phases fix the delay only modulo T = {period:.4g} s and the sweeps' speeds "
@@ -814,6 +815,19 @@ def _peaks(sig, val, snr_min, rel_min, resolution):
     return np.array(rows).reshape(-1, 3)
 
 
+def _match_chi2(hyp, j, c0, u0, v, fs, rtol, peaks, idx):
+    """Mean squared normalised distance of the matched centres from an alias hypothesis."""
+    m, st = hyp
+    d = []
+    for kk, b in enumerate(idx):
+        if b < 0 or kk == j:
+            continue
+        pred = abs(st - m * fs / v[kk])
+        u = np.hypot(np.hypot(u0, peaks[kk][b, 1]), m * fs * rtol * np.hypot(1 / v[j], 1 / v[kk]))
+        d.append(((peaks[kk][b, 0] - pred) / u) ** 2)
+    return float(np.mean(d)) if d else np.inf
+
+
 def aliasing_check(
     per_sweep_spectra,
     speeds_cm_s,
@@ -821,7 +835,7 @@ def aliasing_check(
     *,
     sigma_per_cm=None,
     snr_min: float = 10.0,
-    rel_min: float = 0.05,
+    rel_min: float = 0.3,
     k: float = 3.0,
     speed_rtol: float = 0.01,
     max_fold: int = 2,
@@ -838,10 +852,15 @@ def aliasing_check(
     sweep within ``k`` combined standard uncertainties (the two centres' uncertainties plus,
     for an alias, ``m f_s/v · speed_rtol`` for each of the two speeds).
 
-    Verdicts: ``"real"`` when the line is found where "real" predicts in every sweep and every
-    alias hypothesis fails in at least one sweep that can tell them apart; ``"alias"`` when one
-    alias hypothesis holds in every sweep and "real" fails; ``"cannot be excluded"`` when no
-    sweep can tell them apart (the speeds are too alike) or the line is not found consistently.
+    Verdicts. A sweep *can tell* when the first-fold alias would have moved by more than ``k``
+    combined uncertainties between it and the seed sweep (``f_s·|1/v − 1/v_seed|``; higher
+    folds move more). ``"real"``: the line is found at its place in every sweep, including at
+    least one that can tell (an alias cannot stay put). ``"alias"``: the line is missing from its
+    place in a sweep that can tell, and an alias hypothesis is found in every sweep where its
+    prediction lies in band (the best-fitting one is reported when several do).
+    ``"cannot be excluded"``: no sweep can tell (the speeds are too alike), or the line moves
+    but not as an alias of one wavenumber would (e.g. an image that the resampling's
+    interpolation makes of a line near the folding frequency), or it is not found consistently.
 
     Criterion (given in :attr:`AliasCheck.criterion`): two sweeps of speeds ``v_a``, ``v_b``
     tell a line from its m-th alias when ``m f_s |1/v_a − 1/v_b| > k·u_tot``.
@@ -901,99 +920,84 @@ def aliasing_check(
         key=lambda jq: -peaks[jq[0]][jq[1], 2],
     )
     lines = []
+    n_sw = len(peaks)
     for j, q in order:
         if used[j][q]:
             continue
         c0, u0, _ = peaks[j][q]
-        hyps = [("real", 0, 0.0, 1.0)]  # (name, m, true σ, sign of dσ_app/dσ_true)
+        hyps = [(0, c0)]  # (fold m, true σ); m = 0 is "real"
         for m in range(1, max_fold + 1):
-            hyps.append(("alias", m, m * fs / v[j] - c0, -1.0))  # σ_app = m f_s/v − σ
-            hyps.append(("alias", m, m * fs / v[j] + c0, +1.0))  # σ_app = σ − m f_s/v
-        results = []
-        for name, m, st, sgn in hyps:
-            match = [np.nan] * len(peaks)
-            match[j] = c0
-            idx = [-1] * len(peaks)
-            idx[j] = q
-            ok_all = True
-            for kk in range(len(peaks)):
+            hyps += [(m, st) for st in (m * fs / v[j] - c0, m * fs / v[j] + c0) if st > 0]
+        status, matched = [], []
+        for m, st in hyps:
+            stat = ["seed" if kk == j else "" for kk in range(n_sw)]
+            idx = [q if kk == j else -1 for kk in range(n_sw)]
+            for kk in range(n_sw):
                 if kk == j:
                     continue
-                if name == "real":
-                    pred = c0
-                    u_pred = u0
-                else:
-                    pred = (st - m * fs / v[kk]) if sgn > 0 else (m * fs / v[kk] - st)
-                    u_pred = np.sqrt(u0**2 + (m * fs * speed_rtol) ** 2 * (1 / v[j] ** 2
-                                                                        + 1 / v[kk] ** 2))
+                pred = abs(st - m * fs / v[kk])  # σ_app = |σ − m f_s/v|; m = 0: σ itself
+                u_pred = np.hypot(u0, m * fs * speed_rtol * np.hypot(1 / v[j], 1 / v[kk]))
                 sig = spectra[kk][0]
                 if not (sig[0] < pred < sig[-1]):
-                    continue  # out of band: this sweep cannot show it
-                p = peaks[kk]
-                if p.size == 0:
-                    ok_all = False
+                    stat[kk] = "out of band"
                     continue
-                dist = np.abs(p[:, 0] - pred) / np.sqrt(p[:, 1] ** 2 + u_pred**2)
-                b = int(np.argmin(dist))
-                if dist[b] <= k:
-                    match[kk] = p[b, 0]
-                    idx[kk] = b
+                pk = peaks[kk]
+                dist = np.abs(pk[:, 0] - pred) / np.hypot(pk[:, 1], u_pred) if pk.size else []
+                if len(dist) and np.min(dist) <= k:
+                    stat[kk] = "match"
+                    idx[kk] = int(np.argmin(dist))
                 else:
-                    ok_all = False
-            results.append((name, m, st, ok_all, match, idx))
-        # can any sweep tell the real line from each alias hypothesis?
-        tellable = []
-        for name, m, st, sgn in hyps[1:]:
-            t = False
-            for kk in range(len(peaks)):
-                diff = m * fs * abs(1 / v[kk] - 1 / v[j])
-                u_tot = np.sqrt(2 * u0**2 + (m * fs * speed_rtol) ** 2 * (1 / v[j] ** 2
-                                                                        + 1 / v[kk] ** 2))
-                if diff > k * u_tot:
-                    t = True
-            tellable.append(t)
-        real = results[0]
-        aliases = [r for r in results[1:] if r[3]]
-        if not any(tellable):
-            verdict, why, res = (
-                "cannot be excluded",
-                f"the sweeps' speeds (spread {100 * spread:.3g} %) are too alike: an alias "
-                f"would move by less than {k:g} uncertainties",
-                real,
-            )
-        elif real[3] and not any(r[3] for r, t in zip(results[1:], tellable) if t):
-            verdict, why, res = (
-                "real",
-                "stays at the same wavenumber in sweeps of different speeds",
-                real,
-            )
-        elif not real[3] and len(aliases) == 1:
-            res = aliases[0]
-            verdict = "alias"
+                    stat[kk] = "miss"
+            status.append(stat)
+            matched.append(idx)
+        # sweeps that can tell the line from its first-fold alias (higher folds move more)
+        tell = []
+        for kk in range(n_sw):
+            diff = fs * abs(1 / v[kk] - 1 / v[j])
+            u_tot = np.hypot(np.sqrt(2) * u0, fs * speed_rtol * np.hypot(1 / v[j], 1 / v[kk]))
+            tell.append(kk != j and diff > k * u_tot)
+        real = status[0]
+        pick, tsig, fold = 0, float("nan"), 0
+        if not any(tell):
+            verdict = "cannot be excluded"
             why = (
-                f"moves with 1/speed as fold m = {res[1]} of {res[2]:.6g} cm⁻¹ "
-                f"(= {1e7 / res[2]:.5g} nm) predicts"
+                f"the sweeps' speeds (spread {100 * spread:.3g} %) are too alike: an alias "
+                f"would move by less than {k:g} uncertainties"
             )
+        elif "miss" not in real and any(t and r == "match" for t, r in zip(tell, real)):
+            verdict = "real"
+            why = "stays at the same wavenumber in sweeps of speeds different enough to move an alias"
+        elif any(t and r == "miss" for t, r in zip(tell, real)):
+            ok = [
+                h for h in range(1, len(hyps))
+                if "miss" not in status[h]
+                and any(t and st == "match" for t, st in zip(tell, status[h]))
+            ]
+            if ok:
+                pick = min(ok, key=lambda h: _match_chi2(hyps[h], j, c0, u0, v, fs, speed_rtol,
+                                                          peaks, matched[h]))
+                fold, tsig = hyps[pick]
+                verdict = "alias"
+                why = (
+                    f"absent from its place in sweeps of other speeds and found where an alias "
+                    f"(fold m = {fold}) of {tsig:.6g} cm⁻¹ (= {1e7 / tsig:.5g} nm) would be"
+                )
+            else:
+                verdict = "cannot be excluded"
+                why = "moves between sweeps, but not as an alias of one wavenumber would"
         else:
-            verdict, why, res = (
-                "cannot be excluded",
-                "the line is not found consistently where either hypothesis puts it",
-                real,
-            )
-        for kk, b in enumerate(res[5]):
-            if b >= 0:
-                used[kk][b] = True
+            verdict = "cannot be excluded"
+            why = "the line is not found consistently in the sweeps that could tell"
+        for kk, bb in enumerate(matched[pick]):
+            if bb >= 0:
+                used[kk][bb] = True
+        centres = tuple(
+            float(peaks[kk][bb, 0]) if bb >= 0 else float("nan")
+            for kk, bb in enumerate(matched[pick])
+        )
         lines.append(
-            LineVerdict(
-                float(c0),
-                float(u0),
-                int(j),
-                verdict,
-                why,
-                float(res[2]) if verdict == "alias" else float("nan"),
-                int(res[1]) if verdict == "alias" else 0,
-                tuple(float(x) for x in res[4]),
-            )
+            LineVerdict(float(c0), float(u0), int(j), verdict, why, float(tsig), int(fold),
+                        centres)
         )
     crit = (
         f"two sweeps of speeds v_a, v_b tell a line from its m-th alias when "
