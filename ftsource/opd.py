@@ -40,6 +40,9 @@ __all__ = [
 DROPOUT_LEVEL = 0.3
 #: Sweeps shorter than this many reference fringes are not used.
 MIN_SWEEP_FRINGES = 32
+#: A single-channel stretch whose analytic-signal envelope varies more than this (standard
+#: deviation / mean, turnarounds excluded) holds noise rather than fringes.
+MAX_ENVELOPE_VARIATION = 0.3
 
 
 @dataclass(frozen=True)
@@ -340,7 +343,7 @@ def opd_from_quadrature(
     ai, aq = (ci[1] - ci[0]) / 2, (cq[1] - cq[0]) / 2
     if not (ai > 0 and aq > 0):
         raise AnalysisError("the reference channels carry no fringes (constant signal)")
-    from scipy.ndimage import uniform_filter1d
+    from scipy.ndimage import median_filter, uniform_filter1d
 
     r = np.hypot((i - ci.mean()) / ai, (q - cq.mean()) / aq)
     r_s = uniform_filter1d(r, 16)
@@ -360,7 +363,9 @@ def opd_from_quadrature(
     slips = 0
     for a, b in runs:
         d = np.angle(np.exp(1j * np.diff(phi_w[a:b])))
-        bad = np.flatnonzero(np.abs(d) > 0.6 * np.pi)
+        # a slip is a step too large to unwrap, or one far from its neighbours' steps
+        dev = d - median_filter(d, 5, mode="nearest")
+        bad = np.flatnonzero((np.abs(d) > 0.6 * np.pi) | (np.abs(dev) > 0.2 * np.pi))
         slips += bad.size
         edges = [a] + [a + k + 1 for k in bad] + [b]
         seg_runs += [(s, e) for s, e in zip(edges[:-1], edges[1:]) if e - s >= 64]
@@ -463,7 +468,9 @@ def opd_from_single(
     seg_runs = []
     seg_ids = []
     slips = 0
-    for run_id, (a, b) in enumerate(runs):
+    n_seg = 0
+    noisy = 0
+    for a, b in runs:
         seg = cn[a:b]
         m = next_fast_len(seg.size)
         spec = fft(seg, m)
@@ -472,22 +479,29 @@ def opd_from_single(
         h[1 : (m + 1) // 2] = 2
         if m % 2 == 0:
             h[m // 2] = 1
-        psi = np.unwrap(np.angle(ifft(spec * h)[: seg.size]))
+        z = ifft(spec * h)[: seg.size]
+        psi = np.unwrap(np.angle(z))
         # drop a few fringes at each end (envelope window, Hilbert edge effects, partial fringes)
         cut = 2 * w
         if seg.size <= 4 * cut:
             continue
         psi = psi[cut:-cut]
+        env = np.abs(z[cut:-cut])
         a2, b2 = a + cut, b - cut
         rate = np.gradient(psi)
         rate_s = uniform_filter1d(rate, max(int(period), 3))
         # slips: rate spikes far from the smooth rate
         spikes = np.flatnonzero(np.abs(rate - rate_s) > np.pi / 2)
-        slips += int(spikes.size > 0)
         med = np.median(rate_s)
         slow = rate_s < 0.25 * med
         # one turnaround gives one slow stretch: close gaps shorter than a few fringes
         slow = _close_gaps(slow, max(int(4 * period), 3))
+        # fringes have a steady analytic-signal envelope; noise alone has a Rayleigh-distributed
+        # one (coefficient of variation √(4/π − 1) ≈ 0.52): such a stretch holds no fringes
+        env = env[~slow]
+        if not env.size or np.std(env) > MAX_ENVELOPE_VARIATION * np.mean(env):
+            noisy += 1
+            continue
         # direction: flips at every slow stretch (turnaround); slow samples are not used
         sign = np.ones(psi.size)
         s = 1.0
@@ -511,11 +525,29 @@ def opd_from_single(
             xp = np.pad(xs, pad, mode="reflect", reflect_type="odd")
             g = gaussian_filter1d(xp, period, mode="nearest")
             xs = (2 * g - gaussian_filter1d(g, period, mode="nearest"))[pad : pad + xs.size]
-        xs[slow] = np.nan
+        # a phase jump outside the turnarounds is a possible slip: the record is split there
+        # (a few fringes either side are not used) and the pieces are separate segments
+        jump = np.zeros(psi.size, bool)
+        for k in spikes[~slow[spikes]]:
+            jump[max(k - cut, 0) : k + cut + 1] = True
+        breaks = [p0 for p0, _ in _runs(jump)]
+        slips += len(breaks)
+        xs[slow | jump] = np.nan
         x[a2:b2] = xs * lam_cm / (2 * np.pi)
-        fast_runs = [(a2 + p0, a2 + p1) for p0, p1 in _runs(~slow) if p1 - p0 >= 64]
-        seg_runs += fast_runs
-        seg_ids += [run_id] * len(fast_runs)
+        for p0, p1 in _runs(~(slow | jump)):
+            if p1 - p0 >= 64:
+                seg_runs.append((a2 + p0, a2 + p1))
+                seg_ids.append(n_seg + sum(k < p0 for k in breaks))
+        n_seg += len(breaks) + 1
+    if noisy:
+        msg = (
+            f"{noisy} stretch(es) of the reference channel show noise, not fringes (the analytic "
+            f"signal's envelope varies by more than {MAX_ENVELOPE_VARIATION:.0%}): is the mirror "
+            "moving and the reference laser on?"
+        )
+        if not seg_runs:
+            raise AnalysisError(f"no fringes found on the reference channel: {msg}")
+        warnings.append(msg + " They were not used.")
     if slips:
         warnings.append(
             "the reference phase jumped in places (possible fringe-count slips): the affected "

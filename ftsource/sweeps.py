@@ -338,7 +338,8 @@ def estimate_channel_delay(
 
 def _usable_segments(seg, d):
     """Segments that hold sweeps of both directions."""
-    return sorted(s for s in set(seg) if {1, -1} <= {dd for ss, dd in zip(seg, d) if ss == s})
+    pairs = list(zip(seg, d, strict=True))
+    return sorted(s for s in set(seg) if {1, -1} <= {dd for ss, dd in pairs if ss == s})
 
 
 def _delay_from_zpd(items, path, fs, speed):
@@ -448,7 +449,7 @@ def _delay_from_phase(items, path, fs, speed, max_delay):
         h = float(hs[use].min())
         if h < 32 * group[0][0].dx_cm:
             continue
-        for (g, d, v), ok in zip(group, use):
+        for (g, d, v), ok in zip(group, use, strict=True):
             if not ok:
                 continue
             psi, u, xs = _line_phase(g, sigma0, xc, h)
@@ -526,7 +527,7 @@ def _delay_from_phase(items, path, fs, speed, max_delay):
             period,
         )
     ut = ut * np.sqrt(scale)
-    note = "" if dof >= 1 else "no residual degree of freedom: uncertainty from the phase noise only"
+    note = "" if dof >= 1 else "no residual degree of freedom: uncertainty from phase noise only"
     return DelayEstimate(float(tau), float(ut), nf, nb, "phase", True, note, speed, float(period))
 
 
@@ -964,14 +965,16 @@ def aliasing_check(
                 f"the sweeps' speeds (spread {100 * spread:.3g} %) are too alike: an alias "
                 f"would move by less than {k:g} uncertainties"
             )
-        elif "miss" not in real and any(t and r == "match" for t, r in zip(tell, real)):
+        elif "miss" not in real and any(
+            t and r == "match" for t, r in zip(tell, real, strict=True)
+        ):
             verdict = "real"
-            why = "stays at the same wavenumber in sweeps of speeds different enough to move an alias"
-        elif any(t and r == "miss" for t, r in zip(tell, real)):
+            why = "stays put in sweeps of speeds different enough to move an alias"
+        elif any(t and r == "miss" for t, r in zip(tell, real, strict=True)):
             ok = [
                 h for h in range(1, len(hyps))
                 if "miss" not in status[h]
-                and any(t and st == "match" for t, st in zip(tell, status[h]))
+                and any(t and st == "match" for t, st in zip(tell, status[h], strict=True))
             ]
             if ok:
                 pick = min(ok, key=lambda h: _match_chi2(hyps[h], j, c0, u0, v, fs, speed_rtol,
