@@ -269,20 +269,34 @@ def _parse_source(spec: str):
 
     parts = spec.split(":")
     kind, vals = parts[0].strip().lower(), parts[1:]
-    try:
-        nums = [_qty(v, "nm", f"--source {spec}") for v in vals]
-        if kind == "laser" and len(nums) in (1, 2):
-            return sim.laser(nums[0], fwhm_nm=nums[1] if len(nums) == 2 else 0.0)
-        if kind == "led" and len(nums) == 2:
-            return sim.led(nums[0], nums[1])
-        if kind == "multimode" and len(nums) == 3:
-            return sim.multimode(nums[0], nums[1], nums[2])
-    except ValueError as e:
-        raise OptionError(f"--source {spec!r}: {e}") from None
-    raise OptionError(
-        f"--source {spec!r} is not understood; use laser:WL[:FWHM], led:WL:FWHM or "
+    name = f"--source {_show(spec)}"
+    usage = (
+        f"{name} is not understood; use laser:WL[:FWHM], led:WL:FWHM or "
         "multimode:WL:SPACING:ENVELOPE with lengths such as 650nm"
     )
+    shapes = {"laser": (1, 2), "led": (2,), "multimode": (3,)}
+    if kind not in shapes or len(vals) not in shapes[kind]:
+        raise OptionError(usage)
+    nums = [_qty(v, "nm", name) for v in vals]
+    wl = nums[0]
+    if not 10.0 <= wl <= 1e5:
+        raise OptionError(f"{name}: the wavelength must lie between 10 nm and 100 µm")
+    if kind == "laser":
+        fwhm = nums[1] if len(nums) == 2 else 0.0
+        if not 0.0 <= fwhm <= wl / 10:
+            raise OptionError(f"{name}: the FWHM must lie between 0 and a tenth of the wavelength")
+        return sim.laser(wl, fwhm_nm=fwhm)
+    if kind == "led":
+        if not 0.0 < nums[1] <= wl / 2:
+            raise OptionError(f"{name}: the FWHM must be above 0 and at most half the wavelength")
+        return sim.led(wl, nums[1])
+    spacing, envelope = nums[1], nums[2]
+    if not (0.0 < envelope <= wl / 10 and 0.0 < spacing and envelope / spacing <= 1000):
+        raise OptionError(
+            f"{name}: the mode spacing and the envelope must be above 0, the envelope at most a "
+            "tenth of the wavelength and at most 1000 mode spacings"
+        )
+    return sim.multimode(wl, spacing, envelope)
 
 
 def _cmd_simulate(args, out, err) -> int:

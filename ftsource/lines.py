@@ -226,23 +226,30 @@ def fit_line(
         if prof in ("lorentzian", "voigt"):
             p0.append(np.sqrt(excess2) * (1.0 if prof == "lorentzian" else 0.5))
             scale.append(ils)
-        res = least_squares(
-            lambda p: (model(p, x) - y) * wts, p0, x_scale=np.array(scale), method="trf",
-            max_nfev=100 * len(p0),
-        )
+        # trial steps to large negative (signed) widths overflow the growing envelope; the
+        # solver rejects their non-finite cost, so numpy's overflow warnings are noise here
+        with np.errstate(over="ignore", invalid="ignore"):
+            res = least_squares(
+                lambda p: (model(p, x) - y) * wts, p0, x_scale=np.array(scale), method="trf",
+                max_nfev=100 * len(p0),
+            )
         rss = float(np.sum(res.fun**2))
         aic = n_eff * np.log(max(rss, 1e-300) / x.size) + 2 * res.x.size
         return res, aic
 
     def covariance(res):
-        J = res.jac
+        # Jacobian columns scaled to unit norm first: the width column is orders of magnitude
+        # below the height column, and pinv's relative cutoff would otherwise drop it
+        d = np.linalg.norm(res.jac, axis=0)
+        d[d == 0] = 1.0
+        J = res.jac / d
         jtj_inv = np.linalg.pinv(J.T @ J)
         jrj = J.T @ rmat @ J
         # residual degrees of freedom for correlated noise: E[rss] = tr((I − H)R)
         # = n − tr((JᵀJ)⁻¹JᵀRJ), not n − p (which biases the residual scale low)
         dof = max(x.size - float(np.trace(jtj_inv @ jrj)), 1.0)
         s2 = float(np.sum(res.fun**2)) / dof
-        return jtj_inv @ jrj @ jtj_inv * s2
+        return jtj_inv @ jrj @ jtj_inv * s2 / np.outer(d, d)
 
     first = "gaussian" if profile in ("auto", "gaussian") else profile
     res, aic = run(first)
@@ -255,7 +262,11 @@ def fit_line(
     if profile == "auto" and resolved and elements >= MIN_ELEMENTS_FOR_PROFILE:
         for prof in ("lorentzian", "voigt"):
             results[prof] = run(prof)
-        best = min(results, key=lambda k: results[k][1])
+        # a Voigt with a Gaussian or Lorentzian part at or below zero width is no Voigt (the
+        # other pure profile, or an envelope growing with OPD): it cannot be the one claimed
+        v = results["voigt"][0].x
+        choices = [k for k in results if k != "voigt" or (v[3] > 0 and v[4] > 0)]
+        best = min(choices, key=lambda k: results[k][1])
         res = results[best][0]
         cov = covariance(res)
         w, uw, g, lw = _widths(best, res.x, cov)

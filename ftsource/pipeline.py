@@ -203,7 +203,15 @@ def analyze(record, options: AnalysisOptions | None = None, *, planner=None):
             f"only {limits.samples_per_reference_fringe:.1f} samples per reference fringe at the "
             "fastest mirror speed: sample faster or scan slower (at least 4 per fringe)"
         )
-    ifgs = resample.resample_sweeps(record.columns["signal"], path, limits.dx_cm)
+    signal = record.columns["signal"]
+    ifgs = resample.resample_sweeps(signal, path, limits.dx_cm)
+    delay = _channel_delay(ifgs, path, fs, kind, notes)
+    if delay is not None:
+        from ftsource.sweeps import shift_time_for_delay
+
+        ifgs = resample.resample_sweeps(
+            shift_time_for_delay(signal, delay.delay_s, fs), path, limits.dx_cm
+        )
     planner = planner or FFTPlanner(effort=options.fft_planning)
     n_fft = next_fft_length(options.zero_fill * max(ig.y.size for ig in ifgs))
     with _warnings.catch_warnings(record=True) as caught:
@@ -261,6 +269,7 @@ def analyze(record, options: AnalysisOptions | None = None, *, planner=None):
         source_lines=source_lines,
         reference_wavelength_nm=lam_ref,
         notes=notes,
+        channel_delay=delay,
     )
     for ln in source_lines:
         w = green_pointer_warning(ln.wavelength_nm)
@@ -276,6 +285,35 @@ def analyze(record, options: AnalysisOptions | None = None, *, planner=None):
                 )
             break
     return result
+
+
+def _channel_delay(ifgs, path, fs, kind, notes):
+    """Estimate the signal channel's delay from forward/backward disagreement; return it
+    when it is significant (then the caller corrects it), else None."""
+    from ftsource.sweeps import estimate_channel_delay
+
+    directions = {ig.sweep.direction for ig in ifgs}
+    if kind not in ("quadrature", "encoder") or directions != {-1, 1}:
+        return None  # a single channel cannot tell absolute direction across dropouts
+    est = None
+    for method in ("zpd", "phase"):
+        try:
+            est = estimate_channel_delay(list(ifgs), method=method, path=path, sample_rate_hz=fs)
+        except (AnalysisError, ValueError):
+            est = None
+        if est is not None and est.ok:
+            break
+    if est is None or not est.ok or not np.isfinite(est.delay_s):
+        return None
+    if abs(est.delay_s) <= 3 * est.u_delay_s or abs(est.delay_s) * fs > 0.5 * len(ifgs[0].y):
+        return None
+    notes.add(
+        f"forward and backward sweeps disagree as a channel delay of {est.delay_s * 1e6:.2f} ± "
+        f"{est.u_delay_s * 1e6:.2f} µs (source channel late, {est.method} method); it was "
+        "corrected by shifting the source signal in time. Check the acquisition (multiplexed "
+        "ADC, unequal amplifier bandwidths, sound-card AC coupling)."
+    )
+    return est
 
 
 def _flag_lines(found, lam_ref, sigma_alias, kind, record, notes):

@@ -835,10 +835,14 @@ class _TextData:
         sep = {",": "commas", "\t": "tabs", ";": "semicolons", None: "whitespace"}
         values: list[float] = []
         for k, raw in enumerate(lines):
+            lineno = first + k
+            if "\x00" in raw:
+                raise RecordError(
+                    f"{self.where}: line {lineno} holds NUL bytes; this is not a text table"
+                )
             line = raw.split("#", 1)[0].strip()
             if not line:
                 continue
-            lineno = first + k
             cells = _split(line, self.delimiter)
             if len(cells) != ncol:
                 raise RecordError(

@@ -237,9 +237,15 @@ def _backup(target: Path) -> str | None:
     return tmp
 
 
-def _place_new(tmp: str, target: Path, out: Path) -> None:
-    """Move ``tmp`` to ``target`` only if nothing has that name (another program may have
-    written it while the result was computed): a hard link cannot replace a file."""
+def _place(tmp: str, target: Path, out: Path, *, overwrite: bool) -> None:
+    """Move the finished temporary file ``tmp`` to ``target``.
+
+    Without ``overwrite`` a hard link is made instead of a rename, because a link cannot
+    replace a file that another program wrote there while the result was computed.
+    """
+    if overwrite:
+        os.replace(tmp, target)
+        return
     try:
         os.link(tmp, target)
     except FileExistsError:
@@ -287,9 +293,7 @@ def write_outputs(result, out_dir, *, overwrite: bool = False) -> list[Path]:
         for p, tmp in zip(targets, temps):
             if overwrite:
                 backups[p] = _backup(p)
-                os.replace(tmp, p)
-            else:
-                _place_new(tmp, p, out)
+            _place(tmp, p, out, overwrite=overwrite)
             placed.append(p)
     except BaseException as e:
         for p in placed:  # take back what was placed; put back what it replaced

@@ -105,13 +105,17 @@ def sampling_limits(
 
 def running_mean(y: np.ndarray, sigma_samples: float) -> np.ndarray:
     """Three passes of a box filter of width 2σ: a near-Gaussian running mean of standard
-    deviation σ samples in O(N), whatever σ (central limit theorem; common practice)."""
+    deviation σ samples in O(N), whatever σ (central limit theorem; common practice).
+
+    The width is odd, ``w = 2⌊σ⌋ + 1`` (standard deviation √((w² − 1)/4), within half a sample of
+    σ), so that every pass is centred: an even box is centred half a sample off, and three
+    passes would shift the running mean by 1.5 samples."""
     from scipy.ndimage import uniform_filter1d
 
-    w = max(int(round(2 * sigma_samples)), 1)
+    w = 2 * int(max(sigma_samples, 0.0)) + 1
     out = np.asarray(y, float)
     for _ in range(3):
-        out = uniform_filter1d(out, w, mode="nearest")
+        out = uniform_filter1d(out, w, mode="reflect")
     return out
 
 

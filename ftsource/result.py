@@ -96,6 +96,7 @@ class Result:
         source_lines,
         reference_wavelength_nm,
         notes,
+        channel_delay=None,
     ) -> Result:
         warnings = list(notes.items)
         spec = spectrum
@@ -157,7 +158,7 @@ class Result:
             ],
             "opd_step_nm": _f(limits.dx_cm * 1e7),
             "zero_fill": int(options.zero_fill),
-            "channel_delay_s": None,
+            "channel_delay_s": _f(channel_delay.delay_s) if channel_delay is not None else None,
         }
         from ftsource.pipeline import _clipped_fraction
 

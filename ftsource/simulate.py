@@ -236,7 +236,7 @@ class Scan:
     def peak_opd_speed_cm_s(self) -> float:
         """Upper estimate of the fastest OPD speed (cm/s), without the wobble."""
         k = self.shape
-        dT = k / (np.arcsin(k) * np.sqrt(1 - k * k)) if k < 1 else np.pi / 2
+        dT = k / np.arcsin(k)  # max of dT/dθ = k cos θ / (arcsin(k) √(1 − k² sin² θ)), at θ = 0
         return self.opd_amplitude_cm * dT * 2 * np.pi * self.sweep_rate_hz + (
             2 * np.pi * self.vibration_hz * self.vibration_cm
         )

@@ -107,19 +107,33 @@ class LineShape:
     def sidelobe_envelope(self, delta_per_cm: np.ndarray) -> np.ndarray:
         """Upper envelope of |ILS(δ)|/ILS(0) (a monochromatic line's sidelobes).
 
-        Computed on a logarithmic grid of offsets out to the largest ``|δ|`` asked for, as the
-        running maximum of |K| from far to near, and interpolated; 1 inside the main lobe.
+        Computed on a fine grid of offsets out to 100 instrument widths, as the running maximum
+        of |K| from far to near, and interpolated; 1 inside the main lobe; beyond, a 1/δ decay
+        from the largest lobe of the last two widths.
         """
         d = np.abs(np.asarray(delta_per_cm, dtype=float))
-        fw = self.fwhm_per_cm
-        # numerically out to 100 instrument widths, beyond that a 1/δ decay (an upper bound:
-        # the sidelobes of any apodization that is not smooth at the ends fall as 1/δ or faster)
-        top = 100 * fw
-        grid = np.concatenate([np.linspace(0, 2 * fw, 64)[:-1], np.geomspace(2 * fw, top, 400)])
-        k = np.abs(self.kernel(grid)) / self.kernel(np.zeros(1))[0]
-        env = np.maximum.accumulate(k[::-1])[::-1]
-        env[grid <= fw] = 1.0
-        far = env[-1] * top / np.maximum(d, top)
+        # the table depends on the shape only: computed once per LineShape (find_lines asks
+        # for it after every line it finds)
+        table = self._rules.get("sidelobe_envelope")
+        if table is None:
+            fw = self.fwhm_per_cm
+            # numerically out to 100 instrument widths, beyond that a 1/δ decay (an upper
+            # bound: the sidelobes of any apodization that is not smooth at the ends fall as
+            # 1/δ or faster)
+            top = 100 * fw
+            # a step of fw/64 (sidelobes repeat every 0.4–0.8 fw) so that no lobe top falls
+            # between grid points (a log grid of 400 points missed them by up to a quarter of
+            # their height)
+            grid = np.linspace(0.0, top, 6401)
+            k = np.abs(self.kernel(grid)) / self.kernel(np.zeros(1))[0]
+            env = np.maximum.accumulate(k[::-1])[::-1]
+            env[grid <= fw] = 1.0
+            # start the decay from the top of a lobe, not from the kernel at the last grid
+            # point (which can sit on a null: u = 2L·top = 200 exactly for Hann)
+            far0 = env[np.searchsorted(grid, top - 2 * fw)]
+            table = self._rules["sidelobe_envelope"] = (top, grid, env, far0)
+        top, grid, env, far0 = table
+        far = far0 * top / np.maximum(d, top)
         return np.where(d <= top, np.interp(d, grid, env), far)
 
     @property

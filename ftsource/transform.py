@@ -25,7 +25,7 @@ _EFFORTS = {"estimate": "FFTW_ESTIMATE", "measure": "FFTW_MEASURE", "patient": "
 
 def next_fft_length(n: int) -> int:
     """Smallest power of two ≥ n (FFTW is fastest and plans cheapest for these)."""
-    return 1 << max(int(n - 1).bit_length(), 0)
+    return 1 << max(int(n) - 1, 0).bit_length()
 
 
 class FFTPlanner:

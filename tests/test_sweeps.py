@@ -12,7 +12,7 @@ All randomness has fixed seeds.
 
 from __future__ import annotations
 
-from functools import lru_cache
+from functools import cache
 
 import numpy as np
 import pytest
@@ -33,7 +33,7 @@ FS = 48_000.0
 # records
 
 
-@lru_cache(maxsize=None)
+@cache
 def led_record(delay_s: float, seed: int = 1):
     """Broad LED through ZPD (centre burst in every full sweep), quadrature reference."""
     sim = S.simulate(
@@ -43,14 +43,15 @@ def led_record(delay_s: float, seed: int = 1):
         S.Detector(delay_s=delay_s),
         rng=seed,
     )
-    p = opd.opd_from_quadrature(sim.record.columns["ref_i"], sim.record.columns["ref_q"], FS,
-                                REF_NM)
+    p = opd.opd_from_quadrature(
+        sim.record.columns["ref_i"], sim.record.columns["ref_q"], FS, REF_NM
+    )
     lim = resample.sampling_limits(p, FS, REF_NM)
     ifgs = resample.resample_sweeps(sim.record.columns["signal"], p, lim.dx_cm)
     return sim, p, lim, ifgs
 
 
-@lru_cache(maxsize=None)
+@cache
 def laser_record(delay_s: float, jitter: float = 0.05, seed: int = 1):
     """Narrow line far from ZPD (no centre burst), quadrature reference."""
     sim = S.simulate(
@@ -60,8 +61,9 @@ def laser_record(delay_s: float, jitter: float = 0.05, seed: int = 1):
         S.Detector(delay_s=delay_s),
         rng=seed,
     )
-    p = opd.opd_from_quadrature(sim.record.columns["ref_i"], sim.record.columns["ref_q"], FS,
-                                REF_NM)
+    p = opd.opd_from_quadrature(
+        sim.record.columns["ref_i"], sim.record.columns["ref_q"], FS, REF_NM
+    )
     lim = resample.sampling_limits(p, FS, REF_NM)
     ifgs = resample.resample_sweeps(sim.record.columns["signal"], p, lim.dx_cm)
     return sim, p, lim, ifgs
@@ -173,8 +175,7 @@ def test_mean_speed_overestimates_delay():
     # the delay comes out larger by the ratio (a few to 15 % for the default rounded triangle).
     sim, p, lim, ifgs = led_record(50e-6)
     local = W.estimate_channel_delay(ifgs, path=p, sample_rate_hz=FS)
-    mean = W.estimate_channel_delay([(g, g.sweep.direction, g.sweep.mean_speed_cm_s)
-                                     for g in ifgs])
+    mean = W.estimate_channel_delay([(g, g.sweep.direction, g.sweep.mean_speed_cm_s) for g in ifgs])
     assert mean.speed == "mean" and mean.delay_s > local.delay_s
 
 
@@ -190,8 +191,9 @@ def test_correction_makes_forward_and_backward_zpd_agree():
     assert cmp0.difference == pytest.approx(2 * 0.09 * tau, rel=0.15)
     assert abs(cmp0.difference) > 10 * cmp0.u_difference
     # (a) one OPD shift per sweep, exact at ZPD
-    fixed = W.correct_channel_delay(ifgs, est.delay_s, path=p, sample_rate_hz=FS,
-                                    at_opd_cm=float(np.median(x)))
+    fixed = W.correct_channel_delay(
+        ifgs, est.delay_s, path=p, sample_rate_hz=FS, at_opd_cm=float(np.median(x))
+    )
     after = zpds(fixed)
     cmp1 = W.compare_sweeps([a[1] for a in after], None, [a[0] for a in after], label="ZPD")
     assert cmp1.keep.all()
@@ -212,7 +214,8 @@ def test_correct_channel_delay_keeps_inputs():
     for g, h in zip(ifgs, out, strict=True):
         # closed form: shift −d·|v|·τ with the sweep's mean speed
         assert h.x0_cm - g.x0_cm == pytest.approx(
-            -g.sweep.direction * g.sweep.mean_speed_cm_s * 50e-6, rel=1e-12)
+            -g.sweep.direction * g.sweep.mean_speed_cm_s * 50e-6, rel=1e-12
+        )
         assert h.y is g.y
 
 
@@ -224,8 +227,9 @@ def test_correct_channel_delay_keeps_inputs():
 def test_phase_delay_recovered_from_narrow_line(tau):
     sim, p, lim, ifgs = laser_record(tau)
     assert not any(find_zpd(g.x_cm, g.y).found for g in ifgs)  # no centre burst to use
-    est = W.estimate_channel_delay(ifgs, method="phase", path=p, sample_rate_hz=FS,
-                                   max_delay_s=100e-6)
+    est = W.estimate_channel_delay(
+        ifgs, method="phase", path=p, sample_rate_hz=FS, max_delay_s=100e-6
+    )
     assert est.ok and est.method == "phase"
     # closed form for the ambiguity period: T = 1/(σ₀(|v_f| + |v_b|)) with v ≈ 0.09 cm/s
     assert est.ambiguity_period_s == pytest.approx(1 / (1e7 / 532 * 2 * 0.0855), rel=0.1)
@@ -237,19 +241,22 @@ def test_phase_delay_recovered_from_narrow_line(tau):
 def test_phase_correction_makes_line_phases_agree():
     tau = 50e-6
     sim, p, lim, ifgs = laser_record(tau)
-    est = W.estimate_channel_delay(ifgs, method="phase", path=p, sample_rate_hz=FS,
-                                   max_delay_s=100e-6)
+    est = W.estimate_channel_delay(
+        ifgs, method="phase", path=p, sample_rate_hz=FS, max_delay_s=100e-6
+    )
     sig = W.shift_time_for_delay(sim.record.columns["signal"], est.delay_s, FS)
     again = resample.resample_sweeps(sig, p, lim.dx_cm)
-    res = W.estimate_channel_delay(again, method="phase", path=p, sample_rate_hz=FS,
-                                   max_delay_s=100e-6)
+    res = W.estimate_channel_delay(
+        again, method="phase", path=p, sample_rate_hz=FS, max_delay_s=100e-6
+    )
     # forward and backward phases agree: the remaining delay is zero within 3σ (plus the
     # 0.1 % of τ that the first estimate may be off)
     assert res.ok and abs(res.delay_s) < 3 * res.u_delay_s + 1e-3 * tau
     # one OPD shift per sweep (mean speed over the sweep) leaves only the speed variation
     fixed = W.correct_channel_delay(ifgs, est.delay_s, path=p, sample_rate_hz=FS)
-    res2 = W.estimate_channel_delay(fixed, method="phase", path=p, sample_rate_hz=FS,
-                                    max_delay_s=100e-6)
+    res2 = W.estimate_channel_delay(
+        fixed, method="phase", path=p, sample_rate_hz=FS, max_delay_s=100e-6
+    )
     assert res2.ok and abs(res2.delay_s) < 0.02 * tau
 
 
@@ -259,8 +266,9 @@ def test_phase_ambiguity_reported_without_speed_diversity():
     est = W.estimate_channel_delay(ifgs, method="phase", path=p, sample_rate_hz=FS)
     assert not est.ok and "modulo" in est.reason and "max_delay_s" in est.reason
     assert est.ambiguity_period_s > 0
-    bounded = W.estimate_channel_delay(ifgs, method="phase", path=p, sample_rate_hz=FS,
-                                       max_delay_s=0.45 * est.ambiguity_period_s)
+    bounded = W.estimate_channel_delay(
+        ifgs, method="phase", path=p, sample_rate_hz=FS, max_delay_s=0.45 * est.ambiguity_period_s
+    )
     assert bounded.ok and bounded.delay_s == pytest.approx(50e-6, rel=0.01)
 
 
@@ -326,7 +334,7 @@ DX_ALIAS = REF_NM * 1e-7 / 4
 N_FFT = 8192
 
 
-@lru_cache(maxsize=None)
+@cache
 def alias_spectra(rates=(1.0, 1.4)):
     """Two invented lines, 800 nm (real, below the folding frequency at both speeds) and
     400 nm (above it: its fringes at 2.06 and 2.88 kHz exceed f_s/2 = 1.6 kHz), recorded at
@@ -338,8 +346,15 @@ def alias_spectra(rates=(1.0, 1.4)):
     for rate in rates:
         sim = S.simulate(
             src,
-            S.Scan(sample_rate_hz=ALIAS_FS, duration_s=3.0, opd_centre_cm=0.3,
-                   opd_amplitude_cm=0.02, sweep_rate_hz=rate, shape=0.999, speed_jitter=0.0),
+            S.Scan(
+                sample_rate_hz=ALIAS_FS,
+                duration_s=3.0,
+                opd_centre_cm=0.3,
+                opd_amplitude_cm=0.02,
+                sweep_rate_hz=rate,
+                shape=0.999,
+                speed_jitter=0.0,
+            ),
             S.ReferenceChannel(kind="encoder"),
             S.Detector(),
             rng=2,
@@ -354,8 +369,9 @@ def alias_spectra(rates=(1.0, 1.4)):
 
 
 def _nearest(check, sigma):
-    return min(check.lines, key=lambda ln: min(abs(c - sigma) for c in ln.centres_per_cm
-                                               if np.isfinite(c)))
+    return min(
+        check.lines, key=lambda ln: min(abs(c - sigma) for c in ln.centres_per_cm if np.isfinite(c))
+    )
 
 
 def test_aliasing_check_tells_real_from_alias():
@@ -372,8 +388,9 @@ def test_aliasing_check_tells_real_from_alias():
     assert alias.fold == 1
     # the true wavenumber back from the fold: good to the effective-speed error (< 0.5 %)
     assert alias.true_sigma_per_cm == pytest.approx(1e7 / 400, rel=5e-3)
-    assert not any(ln.verdict == "alias" and abs(ln.sigma_per_cm - 1e7 / 800) < 10
-                   for ln in chk.lines)
+    assert not any(
+        ln.verdict == "alias" and abs(ln.sigma_per_cm - 1e7 / 800) < 10 for ln in chk.lines
+    )
     assert "m·f_s·|1/v_a − 1/v_b|" in chk.criterion
 
 
