@@ -120,7 +120,8 @@ def _qty(text, unit, name, *, physical_type=None, positive=False):
     value = to_float(text, unit, name=name)
     if positive and not value > 0:
         raise OptionError(
-            f"{name}: {_show(text)} is not allowed; it must be above zero (e.g. {_EXAMPLE[unit]})"
+            f"{name}: {_show(text)} is not allowed; it must be above zero "
+            f"(e.g. {_EXAMPLE.get(unit, unit)})"
         )
     return value
 
@@ -237,7 +238,7 @@ def _no_reference_message(record) -> str:
 
 
 def _cmd_analyze(args, out, err) -> int:
-    from ftsource.errors import AnalysisError
+    from ftsource.errors import AnalysisError, OptionError
     from ftsource.pipeline import analyze
     from ftsource.records import read_record
     from ftsource.report import check_outputs, format_summary, result_json, write_outputs
@@ -251,9 +252,12 @@ def _cmd_analyze(args, out, err) -> int:
         raise AnalysisError(_no_reference_message(record))
     try:
         result = analyze(record, options)
-    except AnalysisError as exc:
-        # the stages do not know the file; name it, as every other message does
-        raise AnalysisError(f"{record.path}: {exc}") from None
+    except (AnalysisError, OptionError) as exc:
+        # the stages do not know the file; name it, as every other message does (a message
+        # about an option already starts with the option's name)
+        if str(exc).startswith("-"):
+            raise
+        raise type(exc)(f"{record.path}: {exc}") from None
     # Everything the user will see is made before anything is written: a failure while
     # shaping the output leaves no file behind.
     text = result_json(result) if args.json else format_summary(result) + "\n"
@@ -364,8 +368,16 @@ def _cmd_simulate(args, out, err) -> int:
 
 
 def _cmd_demo(args, out, err) -> int:
-    from ftsource.demo import run_demo
+    from pathlib import Path
 
+    from ftsource.demo import demo_records, run_demo
+    from ftsource.report import check_outputs
+
+    if args.out is not None:
+        # refuse before the first record is analysed, not after some results are written
+        _scenario, records = demo_records()
+        for r in records:
+            check_outputs(Path(args.out) / Path(r["file"]).stem, overwrite=args.overwrite)
     return run_demo(out, out_dir=args.out, overwrite=args.overwrite)
 
 

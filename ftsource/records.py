@@ -21,6 +21,7 @@ import itertools
 import math
 import os
 import re
+import stat
 import struct
 import tempfile
 import warnings
@@ -555,6 +556,8 @@ def read_record(
     where = os.fspath(path) if isinstance(path, (str, os.PathLike)) else None
     if not isinstance(where, str):
         raise RecordError(f"record path {_show(path)} is not a file name")
+    if not where.strip():
+        raise RecordError("the record file name is empty")
     mapping = parse_column_map(columns) if columns is not None else None
     rate_arg = _rate_argument(sample_rate) if sample_rate is not None else None
     if not os.path.exists(where):
@@ -568,13 +571,17 @@ def read_record(
             f"{', '.join(TEXT_EXTENSIONS)}, .npz or .wav"
         )
     try:
-        size = os.path.getsize(where)
+        info = os.stat(where)
+        if not stat.S_ISREG(info.st_mode):
+            # a pipe would block and a device never ends: only plain files are records
+            raise RecordError(f"{where}: is not a regular file (a device, pipe or socket)")
+        size = info.st_size
+        if size == 0:
+            raise RecordError(f"{where}: is empty")
         with open(where, "rb") as fh:
             head = fh.read(16)
     except OSError as exc:
         raise RecordError(f"{where}: cannot be read ({exc.strerror or exc})") from None
-    if size == 0:
-        raise RecordError(f"{where}: is empty")
     try:
         if ext == ".npz":
             return _read_npz(where, head, mapping, rate_arg)
@@ -900,6 +907,7 @@ def _read_npz(where: str, head: bytes, mapping, rate_arg) -> Record:
         if not isinstance(loaded, np.lib.npyio.NpzFile):
             raise RecordError(f"{where}: is not an .npz archive of named columns")
         with loaded:
+            _check_unpacked_size(where, loaded)
             try:
                 names, arrays, meta = _npz_members(where, loaded)
             except FtsourceError:
@@ -922,6 +930,36 @@ def _read_npz(where: str, head: bytes, mapping, rate_arg) -> Record:
     cols = _apply_map(names, arrays, mapping, where=where, allow_index=False)
     header_rate = _metadata_rate(meta, where)
     return _finish(where, cols, meta, rate_arg, header_rate, "npz")
+
+
+def _memory_limit() -> int | None:
+    """Bytes an archive may unpack to: half the physical memory (None where unknown)."""
+    try:
+        return os.sysconf("SC_PAGE_SIZE") * os.sysconf("SC_PHYS_PAGES") // 2
+    except (AttributeError, ValueError, OSError):  # not a POSIX system
+        return None
+
+
+def _check_unpacked_size(where: str, loaded) -> None:
+    """Refuse an archive whose members unpack to more than :func:`_memory_limit`.
+
+    A compressed archive can be tiny and unpack to many gigabytes (a "zip bomb"); the sizes
+    declared in the zip directory bound what reading it can produce, so they are checked
+    before anything is unpacked (twice the total: the arrays and their float64 copies).
+    """
+    limit = _memory_limit()
+    if limit is None:
+        return
+    try:
+        infos = loaded.zip.infolist()
+    except Exception:  # noqa: BLE001 - a broken directory is reported when members are read
+        return
+    total = sum(max(int(i.file_size), 0) for i in infos)
+    if 2 * total > limit:
+        raise RecordError(
+            f"{where}: its arrays unpack to {total / 2**20:.0f} MiB, more than this computer's "
+            "memory allows for reading; split the record into shorter files"
+        )
 
 
 def _npz_members(

@@ -290,7 +290,7 @@ def write_outputs(result, out_dir, *, overwrite: bool = False) -> list[Path]:
             created.append(d)
         for data in payloads:
             temps.append(_write_temp(out, data))
-        for p, tmp in zip(targets, temps):
+        for p, tmp in zip(targets, temps, strict=True):
             if overwrite:
                 backups[p] = _backup(p)
             _place(tmp, p, out, overwrite=overwrite)

@@ -121,11 +121,18 @@ class LineShape:
             # bound: the sidelobes of any apodization that is not smooth at the ends fall as
             # 1/δ or faster)
             top = 100 * fw
-            # a step of fw/64 (sidelobes repeat every 0.4–0.8 fw) so that no lobe top falls
-            # between grid points (a log grid of 400 points missed them by up to a quarter of
-            # their height)
-            grid = np.linspace(0.0, top, 6401)
+            # a uniform step of fw/12 (sidelobes repeat every 0.4–0.8 fw; a log grid of 400
+            # points missed lobe tops by up to a quarter of their height), each local maximum
+            # raised to the top of the parabola through it and its neighbours and spread to
+            # them (the top lies within half a step)
+            grid = np.linspace(0.0, top, 1201)
             k = np.abs(self.kernel(grid)) / self.kernel(np.zeros(1))[0]
+            a, b, c = k[:-2], k[1:-1], k[2:]
+            curv = 2 * b - a - c
+            lobe = (b >= a) & (b >= c) & (curv > 0)
+            tops = np.where(lobe, b + (c - a) ** 2 / (8 * np.where(lobe, curv, 1.0)), b)
+            k = np.concatenate([k[:1], tops, k[-1:]])
+            k[1:-1] = np.maximum(k[1:-1], np.maximum(k[:-2], k[2:]))
             env = np.maximum.accumulate(k[::-1])[::-1]
             env[grid <= fw] = 1.0
             # start the decay from the top of a lobe, not from the kernel at the last grid
@@ -201,9 +208,11 @@ class Spectrum:
 
     @property
     def resolution_per_cm(self) -> float:
-        """``fwhm_factor / (2·max_opd)`` of the apodization actually used, cm⁻¹."""
-        apo = get_apodization(self.line_shape.apodization)
-        return apo.fwhm_factor / (2 * self.line_shape.max_opd_cm)
+        """FWHM of the co-added instrument line shape, cm⁻¹: ``fwhm_factor / (2·max_opd)`` of
+        the apodization used when all sweeps reach the same OPD. Sweeps of different span
+        (partial sweeps at a record's ends) mix line shapes of different width, whose FWHM is
+        not that of the mean OPD; line widths and their bounds use this same FWHM."""
+        return self.line_shape.fwhm_per_cm
 
     @property
     def max_opd_cm(self) -> float:

@@ -30,6 +30,7 @@ import ftsource
 from ftsource import report
 from ftsource import simulate as sim
 from ftsource.cli import main
+from ftsource.errors import OutputError
 from ftsource.records import write_record_csv, write_record_npz, write_record_wav
 
 REF = ["--reference-wavelength", "632.991nm"]
@@ -489,3 +490,48 @@ def test_simulate_then_analyze(capsys, tmp_path, suffix):
     status, out, err = run(capsys, ["analyze", path, *REF, "--json"])
     assert status == 0, err
     assert json.loads(out)["summary"]["kind"] in ("narrow", "none", "multimode", "broadband")
+
+
+# --------------------------------------------------------------------------------------------
+# demo and writing details
+
+
+def test_demo_refuses_before_analysing_when_a_result_exists(capsys, tmp_path):
+    from ftsource.demo import demo_records
+
+    _scenario, records = demo_records()
+    last = Path(records[-1]["file"]).stem
+    (tmp_path / last).mkdir()
+    (tmp_path / last / "result.json").write_text("earlier\n")
+    before = tree(tmp_path)
+    status, out, err = run(capsys, ["demo", "--out", tmp_path])
+    assert_clean_error(status, err, "exists already; use --overwrite to replace")
+    assert out == ""
+    assert tree(tmp_path) == before
+    assert sorted(os.listdir(tmp_path)) == [last]
+
+
+def test_write_without_hard_links(record_file, tmp_path, monkeypatch):
+    """On a file system without hard links (FAT on a USB stick) results are still written,
+    and --overwrite still restores earlier files when the second write fails."""
+    from ftsource.pipeline import AnalysisOptions, analyze
+    from ftsource.records import read_record
+
+    result = analyze(read_record(record_file), AnalysisOptions(reference_wavelength_nm=632.991))
+
+    def no_links(*a, **k):
+        raise PermissionError(errno.EPERM, "Operation not permitted")
+
+    monkeypatch.setattr(report.os, "link", no_links)
+    out_dir = tmp_path / "out"
+    report.write_outputs(result, out_dir)
+    first = tree(out_dir)
+    assert sorted(first) == ["result.json", "spectrum.ecsv"]
+    with pytest.raises(OutputError, match="exists already"):
+        report.write_outputs(result, out_dir)
+    monkeypatch.setattr(report, "_place", _Fail(report._place, 2))
+    with pytest.raises(OutputError, match="No space left"):
+        report.write_outputs(result, out_dir, overwrite=True)
+    assert tree(out_dir) == first
+    # results are readable by everyone like any other file the user writes (common practice)
+    assert (out_dir / "result.json").stat().st_mode & 0o777 == 0o644

@@ -23,7 +23,6 @@ from __future__ import annotations
 import json
 import os
 import struct
-import zipfile
 from pathlib import Path
 
 import numpy as np
@@ -118,9 +117,18 @@ def c_missing(d, base, single):
     return [d / "nosuch.csv", *REF], "nosuch.csv: no such file"
 
 
+def c_empty_name(d, base, single):
+    return ["", *REF], "the record file name is empty"
+
+
 def c_directory(d, base, single):
     (d / "folder.csv").mkdir()
     return [d / "folder.csv", *REF], "folder.csv: is a directory, not a record file"
+
+
+def c_not_regular_file(d, base, single):
+    os.mkfifo(d / "pipe.csv")  # reading a pipe nobody writes to would wait for ever
+    return [d / "pipe.csv", *REF], "pipe.csv: is not a regular file (a device, pipe or socket)"
 
 
 def c_empty(d, base, single):
@@ -205,7 +213,8 @@ def c_unknown_unit(d, base, single):
 
 def c_bare_number(d, base, single):
     write_record_npz(d / "ok.npz", base)
-    return [d / "ok.npz", "--reference-wavelength", "633"], "--reference-wavelength: '633' has no unit"
+    return ([d / "ok.npz", "--reference-wavelength", "633"],
+            "--reference-wavelength: '633' has no unit")
 
 
 def c_wrong_kind(d, base, single):
@@ -262,7 +271,7 @@ def c_metadata_rate_bare(d, base, single):
 
 def c_no_sample_rate(d, base, single):
     np.savez(d / "norate.npz", **_cols(base, drop=("time",)))
-    return [d / "norate.npz", *REF], "the sample rate is unknown"
+    return [d / "norate.npz", *REF], "norate.npz: the sample rate is unknown"
 
 
 def c_wav_rate_zero(d, base, single):
@@ -439,7 +448,7 @@ def c_scan_too_short(d, base, single):
 def c_no_reference_wavelength(d, base, single):
     meta = {k: v for k, v in base.metadata.items() if k != "reference_wavelength"}
     write_record_npz(d / "nowl.npz", _cols(base), metadata=meta)
-    return [d / "nowl.npz"], "the reference wavelength is unknown: give --reference-wavelength"
+    return [d / "nowl.npz"], "nowl.npz: the reference wavelength is unknown: give --reference"
 
 
 def c_metadata_wavelength_bad(d, base, single):
@@ -451,6 +460,54 @@ def c_metadata_wavelength_bad(d, base, single):
 def c_no_reference_at_all(d, base, single):
     np.savez(d / "sig.npz", **_cols(base, drop=("ref_i", "ref_q")))
     return [d / "sig.npz", *REF], "sig.npz: has no reference channel (ref, or ref_i and ref_q)"
+
+
+def c_npz_pickled(d, base, single):
+    obj = np.empty(100, dtype=object)
+    obj[:] = list(range(100))
+    np.savez(d / "obj.npz", signal=obj, ref=np.zeros(100))
+    return [d / "obj.npz", *REF], "obj.npz: refused: holds pickled objects (array 'signal')"
+
+
+def c_npz_complex(d, base, single):
+    cols = _cols(base)
+    np.savez(d / "cx.npz", **{**cols, "signal": cols["signal"] * (1 + 1j)})
+    return [d / "cx.npz", *REF], "array 'signal' holds complex128 values"
+
+
+def c_npz_2d(d, base, single):
+    cols = _cols(base)
+    np.savez(d / "2d.npz", **{**cols, "signal": np.stack([cols["signal"]] * 2)})
+    return [d / "2d.npz", *REF], "each column must be a 1-D array"
+
+
+def c_response_python_tag(d, base, single):
+    write_record_npz(d / "ok.npz", base)
+    (d / "evil.ecsv").write_text(PYTHON_TAG_ECSV.format(trap=d / "trap.txt"), encoding="utf-8")
+    return ([d / "ok.npz", *REF, "--response", d / "evil.ecsv"],
+            "evil.ecsv: not a readable ECSV response curve")
+
+
+def c_calibration_not_json(d, base, single):
+    write_record_npz(d / "ok.npz", base)
+    (d / "cal.json").write_text("{'python': True}")
+    return ([d / "ok.npz", *REF, "--calibration", d / "cal.json"],
+            "cal.json: not a JSON rig calibration")
+
+
+# An ECSV header (astropy APE 6: YAML after '# ---') with a tag that a YAML loader allowing
+# Python objects would run; a safe loader refuses it.
+PYTHON_TAG_ECSV = """# %ECSV 1.0
+# ---
+# datatype:
+# - {{name: wavelength, unit: nm, datatype: float64}}
+# - {{name: response, datatype: float64}}
+# meta: {{kind: !!python/object/apply:os.mkdir ['{trap}']}}
+# schema: astropy-2.0
+wavelength response
+500.0 1.0
+600.0 1.0
+"""
 
 
 CATALOGUE = [v for k, v in sorted(globals().items()) if k.startswith("c_")]
@@ -524,6 +581,34 @@ def test_pickled_npz_is_refused_without_unpickling(tmp_path, capsys, base):
     status, _out, err = run(capsys, ["analyze", tmp_path / "evil.npz", *REF])
     assert_clean_error(status, err, "evil.npz: refused: holds pickled objects (array 'signal')")
     assert not trap.exists()
+
+
+def test_python_tags_in_a_response_file_are_not_run(tmp_path, capsys, base):
+    import yaml  # PyYAML, the YAML library astropy's ECSV reader uses
+
+    # the trap is real: a loader that allows Python objects springs it (in another folder)
+    decoy = tmp_path / "decoy"
+    header = PYTHON_TAG_ECSV.format(trap=decoy).split("# ---\n")[1].split("\nwavelength")[0]
+    yaml.unsafe_load("\n".join(line[2:] for line in header.splitlines()))
+    assert decoy.is_dir()
+    argv, fragment = c_response_python_tag(tmp_path, base, None)
+    status, _out, err = run(capsys, ["analyze", *argv])
+    assert_clean_error(status, err, fragment)
+    assert not (tmp_path / "trap.txt").exists()
+
+
+def test_npz_that_unpacks_beyond_memory_is_refused(tmp_path, capsys, base, monkeypatch):
+    """A zip archive declares each member's unpacked size (PKWARE APPNOTE 4.4.9); an archive
+    that would unpack beyond the memory limit is refused before anything is unpacked."""
+    from ftsource import records
+
+    write_record_npz(tmp_path / "big.npz", base, compress=True)
+    monkeypatch.setattr(records, "_memory_limit", lambda: 1 << 16)
+    status, _out, err = run(capsys, ["analyze", tmp_path / "big.npz", *REF])
+    assert_clean_error(status, err, "big.npz: its arrays unpack to")
+    monkeypatch.undo()
+    status, _out, err = run(capsys, ["analyze", tmp_path / "big.npz", *REF])
+    assert status == 0, err
 
 
 def test_pickled_metadata_is_refused(tmp_path, capsys, base):

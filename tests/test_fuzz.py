@@ -124,8 +124,12 @@ def valid(sandbox):
     ]:
         writer(sandbox / name)
         files[name] = (sandbox / name).read_bytes()
+    # a short, fast record for the command-line runs (0.25 s, two sweeps)
+    short = sim.simulate(sim.laser(650.0),
+                         sim.Scan(sample_rate_hz=FS, duration_s=0.25, sweep_rate_hz=2.0,
+                                  opd_amplitude_cm=0.02), rng=5).record
     full = sandbox / "laser.npz"
-    write_record_npz(full, rec)
+    write_record_npz(full, short)
     return files, full
 
 
@@ -318,7 +322,7 @@ def analyze_argv(draw):
     return argv
 
 
-@fuzz(250)
+@fuzz(150)
 @given(opts=analyze_argv())
 def test_cli_random_option_values(valid, sandbox, opts):
     _, record = valid
@@ -410,3 +414,18 @@ def test_cli_lines_random_values(element, lo, hi, near, tol, medium, as_json):
     event(f"status {status}")
     if status == 0 and as_json:
         assert isinstance(json.loads(out), list)
+
+
+@fuzz(200)
+@given(option=st.sampled_from(["--calibration", "--response"]),
+       head=st.sampled_from([b"", b"{", b'{"kind": "ftsource-rig-calibration", ',
+                             b"# %ECSV 1.0\n# ---\n", b"# %ECSV 1.0\n# ---\n# meta: !!python/"]),
+       body=st.binary(max_size=400) | st.text(max_size=200).map(str.encode))
+def test_cli_random_calibration_and_response_files(valid, sandbox, option, head, body):
+    """Side files given by option are data only: random content is a clean error."""
+    _, record = valid
+    path = sandbox / ("side.json" if option == "--calibration" else "side.ecsv")
+    path.write_bytes(head + body)
+    status, _out, _err = cli(["analyze", record, "--reference-wavelength", "632.991nm", option,
+                              path])
+    assert status == 2

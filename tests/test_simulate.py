@@ -65,13 +65,13 @@ def test_one_reference_fringe_per_half_wavelength_of_mirror_travel():
     np.testing.assert_allclose(pos_m, one.opd_cm / 2 * 1e-2, rtol=0, atol=1e-18)
     a, b = _monotonic_stretch(one.opd_cm)
     travel_nm = abs(pos_m[b] - pos_m[a]) * 1e9
-    assert travel_nm > 50_000  # a long stretch: ~300 fringes, so ±1 crossing is a 0.2 % test
+    assert travel_nm > 150_000  # a full sweep (200 µm of travel, ~630 fringes)
     ref = one.record.columns["ref"][a : b + 1] - 1.0  # level 1, gain 1, no noise
     crossings = np.count_nonzero(np.diff(np.signbit(ref)))
     expected = 2 * travel_nm / (REF_NM / 2)  # two crossings per fringe, a fringe per λ/2
     # the stretch starts and ends at an arbitrary phase: at most one crossing either way
     assert abs(crossings - expected) <= 1.0
-    # a factor-of-two error (fringe per λ of travel) would miss by hundreds
+    # a fringe per λ (not λ/2) of travel would miss by ~630 crossings
     assert abs(crossings - expected / 2) > 100
 
 
