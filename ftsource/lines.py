@@ -83,6 +83,7 @@ class LineFit:
     snr: float
     n_points: int
     n_effective: float
+    dof: float
     success: bool
     message: str
     aic: dict
@@ -248,9 +249,20 @@ def fit_line(
         # residual degrees of freedom for correlated noise: E[rss] = tr((I − H)R)
         # = n − tr((JᵀJ)⁻¹JᵀRJ), not n − p (which biases the residual scale low)
         dof = max(x.size - float(np.trace(jtj_inv @ jrj)), 1.0)
-        s2 = float(np.sum(res.fun**2)) / dof
+        # The residuals are weighted by the spectrum's noise estimate (from thousands of
+        # points), so their variance should be 1. Scale by the residuals only when they are
+        # significantly larger (model mismatch, noise the estimate misses): then the
+        # uncertainty is residual-based with ``dof`` degrees of freedom; otherwise it rests on
+        # the noise estimate, whose degrees of freedom are many (taken as infinite).
+        ratio = float(np.sum(res.fun**2)) / dof
+        if ratio > 1.0 + 2.0 * np.sqrt(2.0 / dof):
+            s2, dof_out = ratio, dof
+        else:
+            s2, dof_out = 1.0, np.inf
+        dofs[0] = dof_out
         return jtj_inv @ jrj @ jtj_inv * s2 / np.outer(d, d)
 
+    dofs = [np.inf]
     first = "gaussian" if profile in ("auto", "gaussian") else profile
     res, aic = run(first)
     results = {first: (res, aic)}
@@ -299,6 +311,7 @@ def fit_line(
         snr=float(peak / noise_at) if noise_at > 0 else float("inf"),
         n_points=int(x.size),
         n_effective=float(n_eff),
+        dof=float(dofs[0]),
         success=bool(res.success),
         message=str(res.message),
         aic={k: float(v[1]) for k, v in results.items()},
@@ -308,7 +321,7 @@ def fit_line(
 def _failed(spec, centre, ils, msg) -> LineFit:
     nan = float("nan")
     return LineFit(centre, nan, nan, nan, nan, nan, "undetermined", nan, nan, nan, nan, False,
-                   ils, ils, nan, 0, 0.0, False, msg, {})
+                   ils, ils, nan, 0, 0.0, nan, False, msg, {})
 
 
 def _reach(fit: LineFit) -> float:

@@ -249,9 +249,7 @@ def analyze(record, options: AnalysisOptions | None = None, *, planner=None):
     # ---- lines
     sig_hi = min(1e7 / SEARCH_BAND_NM[0], 0.98 * limits.grid_nyquist_per_cm)
     sig_lo = 1e7 / SEARCH_BAND_NM[1]
-    with _warnings.catch_warnings():
-        _warnings.simplefilter("ignore", RuntimeWarning)
-        found = lines_mod.find_lines(spec, band_per_cm=(sig_lo, sig_hi))
+    found = lines_mod.find_lines(spec, band_per_cm=(sig_lo, sig_hi))
     sigma_alias = 1e7 / limits.min_wavelength_nm
     flags = _flag_lines(found, lam_ref, sigma_alias, kind, record, notes)
     source_lines = [f for f, fl in zip(found, flags) if fl is None]

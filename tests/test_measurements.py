@@ -147,7 +147,10 @@ def test_stated_centre_uncertainty_of_a_phase_corrected_spectrum():
     ratio = np.sqrt(np.mean(np.square(us))) / np.std(errs)
     # 150 trials: the scatter is known to ±6 % (1σ); measured 1.00 (the residual scale with
     # n − p degrees of freedom instead of tr((I − H)R) gave 0.74 on correlated points)
-    assert 0.85 < ratio < 1.2, ratio
+    # The fit's scale is floored at the spectrum's own noise estimate (many degrees of
+    # freedom), which reads up to ~25 % high on this short single sweep: conservative, so the
+    # upper bound is 1.5 (the limit for an inflated uncertainty is 3).
+    assert 0.85 < ratio < 1.5, ratio
 
 
 # ------------------------------------------------------------------------------------------
