@@ -24,6 +24,9 @@ __all__ = ["AnalysisOptions", "analyze", "SEARCH_BAND_NM"]
 SEARCH_BAND_NM = (200.0, 3300.0)
 #: A line is "broadband" when its FWHM exceeds this many nm (LEDs, lamps, SLEDs).
 BROADBAND_FWHM_NM = 2.0
+#: Largest signal-to-reference delay corrected (s); acquisition delays are µs to a few
+#: hundred µs (multiplexed ADCs, amplifier bandwidths, sound-card coupling: common practice).
+MAX_CHANNEL_DELAY_S = 2e-3
 #: Default relative standard uncertainty of the reference wavelength: an unstabilised He–Ne
 #: laser (CIPM 2007 recommendation, u_r = 1.5e-6).
 DEFAULT_REFERENCE_UNCERTAINTY_PPM = 1.5
@@ -212,6 +215,17 @@ def analyze(record, options: AnalysisOptions | None = None, *, planner=None):
         ifgs = resample.resample_sweeps(
             shift_time_for_delay(signal, delay.delay_s, fs), path, limits.dx_cm
         )
+    rejected: list[tuple[int, str]] = []
+    # partial sweeps (the record's first and last) would loosen the resolution of the co-add
+    spans = np.array([ig.span_cm for ig in ifgs])
+    if len(ifgs) >= 3:
+        med = float(np.median(spans))
+        keep = spans >= 0.5 * med
+        for ig, k in zip(ifgs, keep):
+            if not k:
+                rejected.append((ig.sweep.index, f"partial sweep: {ig.span_cm * 10:.3f} mm of OPD, "
+                                 f"less than half the median {med * 10:.3f} mm"))
+        ifgs = tuple(ig for ig, k in zip(ifgs, keep) if k)
     planner = planner or FFTPlanner(effort=options.fft_planning)
     n_fft = next_fft_length(options.zero_fill * max(ig.y.size for ig in ifgs))
     with _warnings.catch_warnings(record=True) as caught:
@@ -229,6 +243,7 @@ def analyze(record, options: AnalysisOptions | None = None, *, planner=None):
         # a magnitude spectrum of a sweep that misses ZPD does not mix with phase-corrected
         # ones (different line shapes and noise): keep the sweeps through ZPD
         dropped = [s.sweep_index for s in sweep_specs if not s.zpd_found]
+        rejected += [(i, "does not reach zero path difference (other sweeps do)") for i in dropped]
         sweep_specs = [s for s in sweep_specs if s.zpd_found]
         ifgs = tuple(ig for ig in ifgs if ig.sweep.index not in dropped)
         notes.add(
@@ -250,6 +265,16 @@ def analyze(record, options: AnalysisOptions | None = None, *, planner=None):
     sig_hi = min(1e7 / SEARCH_BAND_NM[0], 0.98 * limits.grid_nyquist_per_cm)
     sig_lo = 1e7 / SEARCH_BAND_NM[1]
     found = lines_mod.find_lines(spec, band_per_cm=(sig_lo, sig_hi))
+    outliers = _sweep_outliers(spec, sweep_specs, found, notes)
+    if outliers:
+        rejected += outliers
+        bad = {i for i, _ in outliers}
+        sweep_specs = [s for s in sweep_specs if s.sweep_index not in bad]
+        ifgs = tuple(ig for ig in ifgs if ig.sweep.index not in bad)
+        spec = spectrum.coadd(sweep_specs, sigma_app, options.apodization).with_axis(
+            sigma_app * factor
+        )
+        found = lines_mod.find_lines(spec, band_per_cm=(sig_lo, sig_hi))
     sigma_alias = 1e7 / limits.min_wavelength_nm
     flags = _flag_lines(found, lam_ref, sigma_alias, kind, record, notes)
     source_lines = [f for f, fl in zip(found, flags) if fl is None]
@@ -268,6 +293,7 @@ def analyze(record, options: AnalysisOptions | None = None, *, planner=None):
         reference_wavelength_nm=lam_ref,
         notes=notes,
         channel_delay=delay,
+        rejected=rejected,
     )
     for ln in source_lines:
         w = green_pointer_warning(ln.wavelength_nm)
@@ -283,6 +309,39 @@ def analyze(record, options: AnalysisOptions | None = None, *, planner=None):
                 )
             break
     return result
+
+
+def _sweep_outliers(spec, sweep_specs, found, notes):
+    """Sweeps whose own fit of the strongest narrow line is an outlier among the sweeps
+    (leave-one-out, :func:`ftsource.sweeps.compare_sweeps`), with the reason for each."""
+    from ftsource.lines import fit_line
+    from ftsource.spectrum import coadd
+    from ftsource.sweeps import compare_sweeps
+
+    if len(sweep_specs) < 4 or not found:
+        return []
+    main = max(found, key=lambda f: f.area)
+    if main.resolved:
+        return []
+    vals, us, dirs, idx = [], [], [], []
+    for sw in sweep_specs:
+        one = coadd([sw], spec.sigma_per_cm, spec.line_shape.apodization)
+        f = fit_line(one, main.centre_per_cm, profile="gaussian")
+        if f.success and np.isfinite(f.u_centre_per_cm) and f.u_centre_per_cm > 0:
+            vals.append(f.centre_per_cm)
+            us.append(f.u_centre_per_cm)
+            dirs.append(1)
+            idx.append(sw.sweep_index)
+    if len(vals) < 4:
+        return []
+    cmp = compare_sweeps(vals, us, dirs, label="centre")
+    out = [(i, r) for i, k, r in zip(idx, cmp.keep, cmp.reasons) if not k]
+    if out:
+        notes.add(
+            f"{len(out)} sweep(s) were left out as outliers of the line centre (see "
+            "processing.rejected_sweeps): look for vibration, a slipping reference or a loose mount"
+        )
+    return out
 
 
 def _channel_delay(ifgs, path, fs, kind, notes):
@@ -303,7 +362,16 @@ def _channel_delay(ifgs, path, fs, kind, notes):
             break
     if est is None or not est.ok or not np.isfinite(est.delay_s):
         return None
-    if abs(est.delay_s) <= 3 * est.u_delay_s or abs(est.delay_s) * fs > 0.5 * len(ifgs[0].y):
+    if not (np.isfinite(est.u_delay_s) and est.u_delay_s > 0):
+        return None  # too few sweeps to tell a delay from noise
+    if abs(est.delay_s) <= 3 * est.u_delay_s:
+        return None
+    if abs(est.delay_s) > MAX_CHANNEL_DELAY_S:
+        notes.add(
+            f"forward and backward sweeps disagree by the equivalent of a {est.delay_s * 1e3:.3g} "
+            "ms channel delay, beyond any plausible acquisition delay: not corrected; check "
+            "that the source and reference channels are recorded together"
+        )
         return None
     notes.add(
         f"forward and backward sweeps disagree as a channel delay of {est.delay_s * 1e6:.2f} ± "

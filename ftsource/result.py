@@ -97,6 +97,7 @@ class Result:
         reference_wavelength_nm,
         notes,
         channel_delay=None,
+        rejected=(),
     ) -> Result:
         warnings = list(notes.items)
         spec = spectrum
@@ -151,11 +152,7 @@ class Result:
             "phase_correction": methods[0] if len(methods) == 1 else "mixed",
             "n_sweeps": len(path.sweeps),
             "n_sweeps_used": len(used),
-            "rejected_sweeps": [
-                {"index": int(sw.index), "reason": "too short to resample"}
-                for sw in path.sweeps
-                if sw.index not in used
-            ],
+            "rejected_sweeps": _rejections(path, used, rejected),
             "opd_step_nm": _f(limits.dx_cm * 1e7),
             "zero_fill": int(options.zero_fill),
             "channel_delay_s": _f(channel_delay.delay_s) if channel_delay is not None else None,
@@ -239,6 +236,15 @@ class Result:
             )
         return cls(inp, processing, instrument, summary, line_dicts, budget_dict, health,
                    warnings, spec, tuple(interferograms))
+
+
+def _rejections(path, used, rejected):
+    why = {int(i): str(r) for i, r in rejected}
+    return [
+        {"index": int(sw.index), "reason": why.get(int(sw.index), "too short to resample")}
+        for sw in path.sweeps
+        if sw.index not in used
+    ]
 
 
 def _reference_u_ppm(options) -> float:
