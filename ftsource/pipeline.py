@@ -54,6 +54,8 @@ class AnalysisOptions:
     fft_planning: str = "estimate"
     zero_fill: int = 4
     bandwidth_fraction: float | None = None
+    encoder_scale_uncertainty_ppm: float | None = None
+    mirror_speed_uncertainty_ppm: float = 5e4
     calibration: object | None = None
     response: object | None = None
     aperture_diameter_m: float | None = None

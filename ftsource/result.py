@@ -203,6 +203,10 @@ class Result:
                     "profile": f.profile,
                     "u_wavelength_nm": _f(_u_nm(f.centre_per_cm, f.u_centre_per_cm)),
                     "flag": flag,
+                    "identification": _identify(wl, _u_nm(f.centre_per_cm, f.u_centre_per_cm),
+                                                reference_wavelength_nm, options)
+                    if flag is None
+                    else None,
                 }
             )
         line_dicts.sort(key=lambda d: d["wavelength_nm"] or 0.0)
@@ -236,6 +240,31 @@ class Result:
             )
         return cls(inp, processing, instrument, summary, line_dicts, budget_dict, health,
                    warnings, spec, tuple(interferograms))
+
+
+def _identify(wl_nm, u_fit_nm, lam_ref, options):
+    """The nearest reference-list entry consistent with a measured line, or None.
+
+    The tolerance uses the line's fit uncertainty combined with the reference laser's
+    relative uncertainty (k = 2), so a He-Ne-referenced measurement is not asked to be better
+    than its own reference.
+    """
+    from ftsource.reference import identify
+
+    if not (np.isfinite(wl_nm) and 200.0 <= wl_nm <= 3000.0):
+        return None
+    u = float(np.hypot(u_fit_nm if np.isfinite(u_fit_nm) else 0.0,
+                       wl_nm * _reference_u_ppm(options) * 1e-6))
+    for c in identify(wl_nm, u):
+        if c.within_tolerance:
+            return {
+                "species": c.species,
+                "list": c.list_name,
+                "kind": c.kind,
+                "wavelength_vac_nm": _f(c.wavelength_vac_nm),
+                "difference_ppm": _f(c.difference_ppm),
+            }
+    return None
 
 
 def _rejections(path, used, rejected):
@@ -398,13 +427,38 @@ def _summary(spec, source_lines, strongest, sweep_spectra, ifgs, options, path, 
 
     # ---- budget for the centre wavelength
     wl_for_air = centre_nm
+    from ftsource.uncertainty import Component
+
+    extra = []
+    ref_rel = _reference_u_ppm(options) * 1e-6
+    if path.kind == "encoder":
+        ref_rel = 0.0
+        if options.encoder_scale_uncertainty_ppm is not None:
+            extra.append(Component(
+                "encoder scale", centre_nm * options.encoder_scale_uncertainty_ppm * 1e-6,
+                note=f"relative standard uncertainty {options.encoder_scale_uncertainty_ppm:g} ppm "
+                     "of the encoder's scale (user input)",
+            ))
+        else:
+            warnings.append(
+                "the encoder's scale uncertainty was not given (--encoder-scale-uncertainty): it "
+                "is not in the budget, which is then too small"
+            )
+    elif path.kind == "constant-speed":
+        ref_rel = 0.0
+        extra.append(Component(
+            "assumed mirror speed", centre_nm * options.mirror_speed_uncertainty_ppm * 1e-6,
+            note=f"relative standard uncertainty {options.mirror_speed_uncertainty_ppm * 1e-4:g} % "
+                 "of the assumed constant mirror speed (user input or default 5 %)",
+        ))
     corrected, budget = wavelength_budget(
         centre_nm,
         u_fit_nm=float(u_fit_nm) if np.isfinite(u_fit_nm) else 0.0,
         dof_fit=max(float(dof_fit), 1.0) if np.isfinite(dof_fit) else math.inf,
-        reference_rel_u=_reference_u_ppm(options) * 1e-6 if path.kind != "constant-speed" else 0.0,
+        reference_rel_u=ref_rel,
         air_ratio_rel_u=_air_ratio_rel_u(options, path, lam_ref, wl_for_air),
         alignment_allowance_rel=options.alignment_allowance_ppm * 1e-6,
+        extra=tuple(extra),
     )
     s["centre_wavelength_nm"] = _f(corrected)
     s["centre_wavelength_air_nm"] = _f(to_air(corrected))
@@ -415,9 +469,9 @@ def _summary(spec, source_lines, strongest, sweep_spectra, ifgs, options, path, 
     s["frequency_thz"] = _f(C_M_S / (corrected * 1e-9) / 1e12)
     if path.kind == "constant-speed":
         warnings.append(
-            "no reference: every wavelength scales with the assumed mirror speed, whose "
-            "uncertainty is not known to ftsource and is NOT in the budget; treat the centre "
-            "wavelength as uncalibrated"
+            "NO REFERENCE: every wavelength scales with the assumed mirror speed; the budget "
+            "carries its stated uncertainty (default 5 %), which dominates. Calibrate the speed "
+            "with a known line (ftsource calibrate) or add a reference laser"
         )
 
     # ---- consistency between sweeps (a check, not a budget component)

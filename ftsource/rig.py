@@ -1,0 +1,62 @@
+"""Calibrating a rig: from a record of a known source to a saved rig calibration.
+
+The measured wavelength of every line scales with the OPD scale the analysis assumed (the
+reference laser's wavelength, an encoder's scale or an assumed mirror speed). A record of a
+line of known wavelength fixes that scale: :func:`calibrate_rig` analyses it with the scale's
+own uncertainty set to zero (it cancels, see :func:`ftsource.calibration.calibrate_reference`)
+and returns the rig calibration, whose effective reference wavelength later analyses use
+(``AnalysisOptions(calibration=...)``), with its uncertainty carried into their budgets.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import replace
+
+__all__ = ["calibrate_rig"]
+
+
+def calibrate_rig(record, options, known_wavelength_nm: float, u_known_nm: float = 0.0, *,
+                  label: str | None = None):
+    """Analyse ``record`` of a known line and return ``(RigCalibration, Result)``.
+
+    Parameters
+    ----------
+    record : ftsource.records.Record
+    options : ftsource.pipeline.AnalysisOptions
+        As for the rig's normal analyses (reference wavelength, air...).
+    known_wavelength_nm : float
+        Vacuum wavelength of the known line (e.g. a stabilised laser or a lamp line).
+    u_known_nm : float
+        Its standard uncertainty.
+
+    References
+    ----------
+    .. [1] JCGM 100:2008 (GUM), §5.1 (propagation for a ratio of measured quantities).
+    """
+    from ftsource.calibration import calibrate_reference
+    from ftsource.errors import AnalysisError
+    from ftsource.pipeline import analyze
+
+    nominal_u = options.reference_uncertainty_ppm
+    res = analyze(record, replace(options, reference_uncertainty_ppm=0.0, calibration=None))
+    s = res.summary
+    if s["centre_wavelength_nm"] is None:
+        raise AnalysisError("the calibration record shows no line to calibrate against")
+    if s["kind"] != "narrow":
+        raise AnalysisError(
+            f"the calibration record's source is {s['kind']}; calibrate with a single narrow line"
+        )
+    lam_ref = res.input["reference_wavelength_nm"] or 632.991
+    cal = calibrate_reference(
+        s["centre_wavelength_nm"],
+        s["u_centre_wavelength_nm"],
+        known_wavelength_nm,
+        u_known_nm,
+        lam_ref,
+        nominal_u * 1e-6,
+        label=label,
+    )
+    if not math.isfinite(cal.effective_reference_wavelength_nm):  # pragma: no cover
+        raise AnalysisError("the calibration did not give a finite reference wavelength")
+    return cal, res
