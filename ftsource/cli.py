@@ -48,31 +48,7 @@ def build_parser() -> argparse.ArgumentParser:
 
     a = sub.add_parser("analyze", help="analyse a recorded scan", epilog=SAFETY_LINE)
     a.add_argument("record", help="record file: .csv/.tsv/.txt/.dat, .npz or .wav")
-    a.add_argument("--reference-wavelength", metavar="QTY",
-                   help="vacuum wavelength of the reference laser, e.g. 632.991nm")
-    a.add_argument("--reference-uncertainty", metavar="QTY", default="1.5ppm",
-                   help="its standard uncertainty, as a length or ppm (default 1.5ppm, an "
-                        "unstabilised He-Ne laser)")
-    a.add_argument("--alignment-allowance", metavar="QTY", default="0ppm",
-                   help="cosine-error allowance a (ratio): the result may be too long by up to a "
-                        "(negative: too short); corrected by a/2, u = |a|/sqrt(12)")
-    a.add_argument("--medium", choices=("air", "vacuum"), default="air")
-    a.add_argument("--air-temperature", metavar="QTY")
-    a.add_argument("--air-pressure", metavar="QTY")
-    a.add_argument("--air-humidity", metavar="QTY")
-    a.add_argument("--sample-rate", metavar="QTY")
-    a.add_argument("--columns", metavar="MAP", help="column mapping, e.g. signal=PD1,ref=PD2")
-    a.add_argument("--mirror-speed", metavar="QTY",
-                   help="no reference: assume this constant mirror speed (loudly uncalibrated)")
-    a.add_argument("--apodization", default="happ-genzel", metavar="NAME")
-    a.add_argument("--phase-correction", default="auto",
-                   choices=("auto", "mertz", "forman", "magnitude"))
-    a.add_argument("--fft-planning", default="estimate", choices=("estimate", "measure"))
-    a.add_argument("--calibration", metavar="FILE", help="rig calibration saved by 'calibrate'")
-    a.add_argument("--response", metavar="FILE", help="instrument response curve (ECSV)")
-    a.add_argument("--aperture-diameter", metavar="QTY",
-                   help="field stop diameter (extended sources only)")
-    a.add_argument("--focal-length", metavar="QTY", help="collimator focal length")
+    _add_analysis_options(a)
     a.add_argument("--json", action="store_true", help="print the result JSON")
     a.add_argument("--out", metavar="DIR", help="write result.json and spectrum.ecsv into DIR")
     a.add_argument("--overwrite", action="store_true", help="replace files in --out")
@@ -109,7 +85,56 @@ def build_parser() -> argparse.ArgumentParser:
     ln.add_argument("--tolerance", metavar="QTY", default="1nm")
     ln.add_argument("--medium", choices=("vacuum", "air"), default="vacuum")
     ln.add_argument("--json", action="store_true")
+
+    c = sub.add_parser("calibrate", help="calibrate the rig with a record of a known line",
+                       epilog=SAFETY_LINE)
+    c.add_argument("record", help="record of a source of known wavelength")
+    c.add_argument("--known-wavelength", metavar="QTY", required=True,
+                   help="its vacuum wavelength, e.g. 532.24503610nm")
+    c.add_argument("--known-uncertainty", metavar="QTY", default="0nm",
+                   help="its standard uncertainty (length)")
+    c.add_argument("--save", metavar="FILE", required=True, help="calibration file to write")
+    c.add_argument("--overwrite", action="store_true", help="replace an existing FILE")
+    _add_analysis_options(c)
+
+    r = sub.add_parser("response", help="instrument response from a record of a known lamp")
+    r.add_argument("record", help="record of a lamp of known spectral distribution")
+    r.add_argument("--lamp-temperature", metavar="QTY", required=True,
+                   help="distribution temperature (blackbody approximation), e.g. 2856K")
+    r.add_argument("--lamp-temperature-uncertainty", metavar="QTY", default="30K")
+    r.add_argument("--save", metavar="FILE", required=True, help="response file (ECSV) to write")
+    r.add_argument("--overwrite", action="store_true", help="replace an existing FILE")
+    _add_analysis_options(r)
     return p
+
+
+def _add_analysis_options(a) -> None:
+    """Options shared by analyze, calibrate and response."""
+    a.add_argument("--reference-wavelength", metavar="QTY",
+                   help="vacuum wavelength of the reference laser, e.g. 632.991nm")
+    a.add_argument("--reference-uncertainty", metavar="QTY", default="1.5ppm",
+                   help="its standard uncertainty, as a length or ppm (default 1.5ppm, an "
+                        "unstabilised He-Ne laser)")
+    a.add_argument("--alignment-allowance", metavar="QTY", default="0ppm",
+                   help="cosine-error allowance a (ratio): the result may be too long by up to a "
+                        "(negative: too short); corrected by a/2, u = |a|/sqrt(12)")
+    a.add_argument("--medium", choices=("air", "vacuum"), default="air")
+    a.add_argument("--air-temperature", metavar="QTY")
+    a.add_argument("--air-pressure", metavar="QTY")
+    a.add_argument("--air-humidity", metavar="QTY")
+    a.add_argument("--sample-rate", metavar="QTY")
+    a.add_argument("--columns", metavar="MAP", help="column mapping, e.g. signal=PD1,ref=PD2")
+    a.add_argument("--mirror-speed", metavar="QTY",
+                   help="no reference: assume this constant mirror speed (loudly uncalibrated)")
+    a.add_argument("--apodization", default="happ-genzel", metavar="NAME")
+    a.add_argument("--phase-correction", default="auto",
+                   choices=("auto", "mertz", "forman", "magnitude"))
+    a.add_argument("--fft-planning", default="estimate", choices=("estimate", "measure"))
+    a.add_argument("--calibration", metavar="FILE", help="rig calibration saved by 'calibrate'")
+    a.add_argument("--response", metavar="FILE", help="instrument response curve (ECSV)")
+    a.add_argument("--aperture-diameter", metavar="QTY",
+                   help="field stop diameter (extended sources only)")
+    a.add_argument("--focal-length", metavar="QTY", help="collimator focal length")
 
 
 def _qty(text, unit, name, *, physical_type=None, positive=False):
@@ -419,6 +444,70 @@ def _one_line(text: str, limit: int = 2000) -> str:
     return s if len(s) <= limit else s[: limit - 3] + "..."
 
 
+def _analysis_defaults(args):
+    """Fill the analyze-only attributes that calibrate/response do not define."""
+    for name, value in (("json", False), ("out", None), ("calibration", None), ("response", None)):
+        if not hasattr(args, name):
+            setattr(args, name, value)
+    return args
+
+
+def _cmd_calibrate(args, out, err) -> int:
+    from pathlib import Path
+
+    from ftsource.calibration import save_calibration
+    from ftsource.errors import OutputError
+    from ftsource.records import read_record
+    from ftsource.rig import calibrate_rig
+
+    target = Path(args.save)
+    if target.exists() and not args.overwrite:
+        raise OutputError(f"--save {target}: exists already; use --overwrite to replace it")
+    known = _qty(args.known_wavelength, "nm", "--known-wavelength", positive=True)
+    u_known = _qty(args.known_uncertainty, "nm", "--known-uncertainty")
+    options = _options(_analysis_defaults(args))
+    record = read_record(args.record, columns=args.columns, sample_rate=options.sample_rate_hz)
+    cal, _ = calibrate_rig(record, options, known, u_known, label=Path(args.record).name)
+    save_calibration(target, cal, overwrite=args.overwrite)
+    out.write(
+        f"measured {cal.measured_wavelength_nm:.6f} nm for the known {known:.6f} nm: the rig "
+        f"reads {-cal.deviation_ppm:+.3f} ppm (± {cal.u_deviation_ppm:.3f} ppm)\n"
+        f"effective reference wavelength {cal.effective_reference_wavelength_nm:.6f} nm "
+        f"(u = {cal.u_effective_rel * 1e6:.3f} ppm); saved to {target}\n"
+        "use it with: ftsource analyze RECORD --calibration " + str(target) + "\n"
+    )
+    return 0
+
+
+def _cmd_response(args, out, err) -> int:
+    from pathlib import Path
+
+    from ftsource.errors import OutputError
+    from ftsource.pipeline import analyze
+    from ftsource.records import read_record
+    from ftsource.response import calibrate_response
+
+    target = Path(args.save)
+    if target.exists() and not args.overwrite:
+        raise OutputError(f"--save {target}: exists already; use --overwrite to replace it")
+    t = _qty(args.lamp_temperature, "K", "--lamp-temperature", positive=True)
+    ut = _qty(args.lamp_temperature_uncertainty, "K", "--lamp-temperature-uncertainty")
+    options = _options(_analysis_defaults(args))
+    record = read_record(args.record, columns=args.columns, sample_rate=options.sample_rate_hz)
+    result = analyze(record, options)
+    spec = result.spectrum
+    curve = calibrate_response(spec.sigma_per_cm, spec.density, spec.noise, lamp="blackbody",
+                               temperature_k=t, u_temperature_k=ut)
+    curve.to_file(target, overwrite=args.overwrite)
+    lo, hi = curve.valid_band_per_cm
+    out.write(
+        f"relative response from {1e7 / hi:.0f} to {1e7 / lo:.0f} nm saved to {target} "
+        f"(blackbody at {t:g} K ± {ut:g} K: tungsten's emissivity is not flat, so this is an "
+        "approximation)\nuse it with: ftsource analyze RECORD --response " + str(target) + "\n"
+    )
+    return 0
+
+
 def main(argv=None) -> int:
     """Run the command line; returns the exit status.
 
@@ -449,6 +538,8 @@ def main(argv=None) -> int:
         "simulate": _cmd_simulate,
         "demo": _cmd_demo,
         "lines": _cmd_lines,
+        "calibrate": _cmd_calibrate,
+        "response": _cmd_response,
     }[args.command]
     import warnings
 

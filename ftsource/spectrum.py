@@ -88,11 +88,23 @@ class LineShape:
         apo = get_apodization(self.apodization)
         d = np.abs(np.asarray(delta, dtype=float))
         out = np.zeros(d.shape)
+        # sweeps of the same span share a kernel: add their weights first
+        groups: dict[float, float] = {}
         for L, w in zip(self.L_cm, self.weights):
-            u = 2 * L * (float(d.max()) if d.size else 0.0)
+            key = float(np.round(L, 9))
+            groups[key] = groups.get(key, 0.0) + w
+        for L, w in groups.items():
+            # a decaying envelope ends the integrand long before L for a broad line
+            x_end = L
+            if q_gauss > 0:
+                x_end = min(x_end, 3.0 / np.sqrt(q_gauss))  # exp(-(3π)²/4ln2) < 1e-13
+            if lorentz_fwhm > 0:
+                x_end = min(x_end, 10.0 / lorentz_fwhm)  # exp(-10π) < 1e-13
+            u = 2 * x_end * (float(d.max()) if d.size else 0.0)
             xi, wq = _gauss_legendre_01(64 + int(2 * u), self._rules)
-            a = apo(xi)
-            x = xi * L
+            x = xi * x_end
+            a = apo(x / L)
+            wq = wq * (x_end / L)
             env = np.ones_like(x)
             if q_gauss:
                 env = env * np.exp(-(np.pi**2) * q_gauss * x**2 / (4 * _LN2))
