@@ -2,7 +2,7 @@
 
 Sources (named again beside each check):
 - NIST: J. A. Stone and J. H. Zimmerman, "Index of Refraction of Air", NIST Refractive Index
-  of Air Calculator documentation, worked values as transcribed in /work/shared check-values
+  of Air Calculator documentation, worked values as copied into /work/shared check-values
   section 5 (status V2: NIST values copied into the PyPI package ref-index's own tests).
 - ref-index: the general-purpose PyPI package ``ref_index`` (NIST Appendix A implementation);
   its documented examples (pypi.org/project/ref-index) and direct calls.
