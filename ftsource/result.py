@@ -165,6 +165,12 @@ class Result:
                 f"{clipped:.1%} of the source samples sit at the record's extreme value: the "
                 "detector or ADC may be clipping, which creates harmonics; reduce the gain"
             )
+        if path.dropouts:
+            warnings.append(
+                f"the reference dropped out {path.dropouts} time(s): the record was split there "
+                "and only the stretches with fringes were used; check the reference beam's "
+                "alignment and detector"
+            )
         health = {
             "reference_ellipse_residual": _f(path.ellipse_residual),
             "fringe_slips": int(path.fringe_slips),
@@ -512,6 +518,15 @@ def _summary(spec, source_lines, strongest, sweep_spectra, ifgs, options, path, 
         vis = _visibility(ifgs, sweep_spectra)
         if vis is not None and not vis.is_lower_bound:
             s["coherence_length_visibility_mm"] = _f(vis.length_cm * 10)
+            lc = s["coherence_length_mm"]
+            u_vis = (vis.u_length_cm or 0.0) * 10
+            if lc is not None and abs(lc - vis.length_cm * 10) > max(2 * u_vis, 0.1 * lc):
+                warnings.append(
+                    f"the coherence length from the spectrum ({lc:.4g} mm) and from the fringe "
+                    f"visibility ({vis.length_cm * 10:.4g} mm) disagree by more than their "
+                    "uncertainties (or 10 %): side structure in the spectrum, detector "
+                    "nonlinearity or a visibility limited by alignment may be the cause"
+                )
     return s, budget.to_dict("_nm")
 
 
