@@ -71,82 +71,20 @@ _MORTON_E = 38.9
 # --------------------------------------------------------------------------------------------
 # standard air
 # --------------------------------------------------------------------------------------------
-def _morton_n_minus_1(wl_vac_nm: np.ndarray) -> np.ndarray:
-    s2 = (1.0e3 / wl_vac_nm) ** 2  # sigma in um^-1, squared
-    return _MORTON_A + _MORTON_B / (_MORTON_C - s2) + _MORTON_D / (_MORTON_E - s2)
-
-
 def standard_vacuum_to_air_nm(wl_vac_nm: float | np.ndarray) -> float | np.ndarray:
-    """Convert vacuum wavelengths to wavelengths in IAU standard air.
+    """Vacuum to standard-air wavelength (IAU/Morton 2000); one implementation, in
+    :func:`ftsource.air.vacuum_to_standard_air_nm`."""
+    from ftsource.air import vacuum_to_standard_air_nm
 
-    Parameters
-    ----------
-    wl_vac_nm : float or array_like
-        Vacuum wavelength(s) in nm, 200 nm to 2000 nm (the range in which atomic-line tables
-        quote air values).
-
-    Returns
-    -------
-    float or numpy.ndarray
-        ``wl_vac_nm / n`` with ``n`` the refractive index of standard air (dry, 15 °C,
-        101 325 Pa) from Morton's formula, evaluated at the vacuum wavenumber.
-
-    Raises
-    ------
-    OptionError
-        If a wavelength is not finite or lies outside 200–2000 nm.
-
-    Notes
-    -----
-    n − 1 = 8.34254×10⁻⁵ + 2.406147×10⁻²/(130 − σ²) + 1.5998×10⁻⁴/(38.9 − σ²), σ in µm⁻¹.
-    This is the convention of the IAU and of tables quoting "air" wavelengths; it is *not* the
-    air of a real laboratory (for that, use :mod:`ftsource.air`).
-
-    References
-    ----------
-    .. [1] D. C. Morton, "Atomic data for resonance absorption lines. II. Wavelengths longward
-       of the H I Lyman limit for heavy elements", ApJS 130, 403 (2000), eq. 8.
-    .. [2] K. P. Birch and M. J. Downs, "Correction to the updated Edlén equation for the
-       refractive index of air", Metrologia 31, 315 (1994).
-    """
-    wl = _check_wavelengths(wl_vac_nm, "wl_vac_nm")
-    out = wl / (1.0 + _morton_n_minus_1(wl))
-    return float(out) if np.ndim(wl_vac_nm) == 0 else out
+    return vacuum_to_standard_air_nm(wl_vac_nm)
 
 
 def standard_air_to_vacuum_nm(wl_air_nm: float | np.ndarray) -> float | np.ndarray:
-    """Convert wavelengths in IAU standard air to vacuum wavelengths.
+    """Standard-air to vacuum wavelength (IAU/Morton 2000); one implementation, in
+    :func:`ftsource.air.standard_air_to_vacuum_nm`."""
+    from ftsource.air import standard_air_to_vacuum_nm as _to_vac
 
-    Parameters
-    ----------
-    wl_air_nm : float or array_like
-        Standard-air wavelength(s) in nm, 200 nm to 2000 nm.
-
-    Returns
-    -------
-    float or numpy.ndarray
-        Vacuum wavelength(s) ``λ_vac`` such that ``λ_vac / n(λ_vac) = λ_air`` with Morton's
-        standard-air index (see :func:`standard_vacuum_to_air_nm`). Solved by fixed-point
-        iteration on the vacuum wavenumber until the change is below 1×10⁻¹² nm.
-
-    Raises
-    ------
-    OptionError
-        If a wavelength is not finite or lies outside 200–2000 nm.
-
-    References
-    ----------
-    .. [1] D. C. Morton, ApJS 130, 403 (2000), eq. 8.
-    """
-    wl_air = _check_wavelengths(wl_air_nm, "wl_air_nm")
-    wl_vac = wl_air * (1.0 + _morton_n_minus_1(wl_air))
-    for _ in range(20):
-        new = wl_air * (1.0 + _morton_n_minus_1(wl_vac))
-        done = np.all(np.abs(new - wl_vac) < 1.0e-12)
-        wl_vac = new
-        if done:
-            break
-    return float(wl_vac) if np.ndim(wl_air_nm) == 0 else wl_vac
+    return _to_vac(wl_air_nm)
 
 
 def _check_wavelengths(values: Any, name: str) -> np.ndarray:
