@@ -11,7 +11,7 @@ from pathlib import Path
 
 from .errors import FtsourceError
 
-__all__ = ["data_path"]
+__all__ = ["data_folder", "data_path"]
 
 _FOLDER = "reference_spectra"
 
@@ -65,4 +65,33 @@ def data_path(name: str) -> Path:
         f"data file {name!r} was not found (looked in: {'; '.join(tried)}); the ftsource "
         f"installation is incomplete - reinstall it, or run from a source checkout that has "
         f"{_FOLDER}/{name}"
+    )
+
+
+def data_folder(pattern: str) -> Path:
+    """Return the ``reference_spectra`` folder that holds files matching ``pattern``.
+
+    Parameters
+    ----------
+    pattern : str
+        A glob pattern for file names, e.g. ``"*.ecsv"``.
+
+    Returns
+    -------
+    pathlib.Path
+        The first folder (installed package, then source checkout) with at least one match.
+
+    Raises
+    ------
+    FtsourceError
+        If neither place holds a matching file.
+    """
+    tried = []
+    for folder in _candidates():
+        tried.append(str(folder))
+        if folder.is_dir() and any(folder.glob(pattern)):
+            return folder
+    raise FtsourceError(
+        f"no {pattern} files found (looked in: {'; '.join(tried)}); the ftsource installation "
+        f"is incomplete - reinstall it, or run from a source checkout that has {_FOLDER}/"
     )

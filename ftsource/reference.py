@@ -23,7 +23,6 @@ obtained. See ``docs/reference_spectra.md``.
 
 from __future__ import annotations
 
-import importlib.resources
 import math
 from collections.abc import Callable, Iterable, Sequence
 from dataclasses import dataclass
@@ -32,6 +31,7 @@ from typing import Any
 
 import numpy as np
 
+from ._data import data_folder
 from .errors import FtsourceError, OptionError
 
 __all__ = [
@@ -44,7 +44,6 @@ __all__ = [
     "standard_vacuum_to_air_nm",
 ]
 
-_FOLDER = "reference_spectra"
 _SUFFIX = ".ecsv"
 #: Columns every line list must have.
 REQUIRED_COLUMNS = (
@@ -104,20 +103,7 @@ def _check_wavelengths(values: Any, name: str) -> np.ndarray:
 # --------------------------------------------------------------------------------------------
 def _data_folder() -> Path:
     """The folder holding the line lists: the installed package first, then a source tree."""
-    candidates: list[Path] = []
-    try:
-        candidates.append(Path(str(importlib.resources.files("ftsource") / _FOLDER)))
-    except (ModuleNotFoundError, TypeError):  # pragma: no cover - defensive
-        pass
-    candidates.append(Path(__file__).resolve().parent.parent / _FOLDER)
-    for folder in candidates:
-        if folder.is_dir() and any(folder.glob("*" + _SUFFIX)):
-            return folder
-    raise FtsourceError(
-        f"no line lists found (looked in: {'; '.join(str(c) for c in candidates)}); the "
-        f"ftsource installation is incomplete - reinstall it, or run from a source checkout "
-        f"that has {_FOLDER}/"
-    )
+    return data_folder("*" + _SUFFIX)
 
 
 def line_list_names() -> list[str]:

@@ -119,16 +119,35 @@ def test_data_folder_is_package_resource_or_source_tree():
         assert (folder / f"{name}.ecsv").is_file()
 
 
+def _fake_layout(monkeypatch, tmp_path, *, packaged: bool, source: bool) -> tuple[Path, Path]:
+    """Point the data locator at a fake installed package and a fake source tree."""
+    from ftsource import _data
+
+    pkg = tmp_path / "site" / "ftsource" / "reference_spectra"
+    src = tmp_path / "checkout" / "reference_spectra"
+    for folder, wanted in ((pkg, packaged), (src, source)):
+        folder.mkdir(parents=True)
+        if wanted:
+            (folder / "lamp_zz.ecsv").write_text("# placeholder\n", encoding="utf-8")
+    monkeypatch.setattr(importlib.resources, "files", lambda name: pkg.parent)
+    monkeypatch.setattr(_data, "__file__", str(tmp_path / "checkout" / "ftsource" / "_data.py"))
+    return pkg, src
+
+
+def test_installed_package_is_tried_first(monkeypatch, tmp_path):
+    pkg, _ = _fake_layout(monkeypatch, tmp_path, packaged=True, source=True)
+    assert reference._data_folder() == pkg
+
+
 def test_falls_back_to_source_tree(monkeypatch, tmp_path):
-    # the installed-package location is tried first; an empty one is skipped
-    monkeypatch.setattr(importlib.resources, "files", lambda pkg: tmp_path / "no_such_pkg")
-    folder = reference._data_folder()
-    assert folder == Path(reference.__file__).resolve().parent.parent / "reference_spectra"
+    # an installed-package folder without line lists is skipped
+    _, src = _fake_layout(monkeypatch, tmp_path, packaged=False, source=True)
+    assert reference._data_folder() == src
+    assert line_list_names() == ["lamp_zz"]
 
 
 def test_missing_data_is_an_ftsource_error(monkeypatch, tmp_path):
-    monkeypatch.setattr(importlib.resources, "files", lambda pkg: tmp_path / "a")
-    monkeypatch.setattr(reference, "__file__", str(tmp_path / "pkg" / "reference.py"))
+    _fake_layout(monkeypatch, tmp_path, packaged=False, source=False)
     with pytest.raises(FtsourceError, match="reference_spectra"):
         line_list_names()
 
