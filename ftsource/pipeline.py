@@ -24,6 +24,9 @@ __all__ = ["AnalysisOptions", "analyze", "SEARCH_BAND_NM"]
 SEARCH_BAND_NM = (200.0, 3300.0)
 #: A line is "broadband" when its FWHM exceeds this many nm (LEDs, lamps, SLEDs).
 BROADBAND_FWHM_NM = 2.0
+#: Peaks down to this fraction of each sweep's strongest enter the speed-diversity alias check
+#: (weaker ones are reported as not checked).
+ALIAS_CHECK_REL_MIN = 0.02
 #: Largest signal-to-reference delay corrected (s); acquisition delays are µs to a few
 #: hundred µs (multiplexed ADCs, amplifier bandwidths, sound-card coupling: common practice).
 MAX_CHANNEL_DELAY_S = 2e-3
@@ -279,7 +282,14 @@ def analyze(record, options: AnalysisOptions | None = None, *, planner=None):
         found = lines_mod.find_lines(spec, band_per_cm=(sig_lo, sig_hi))
     sigma_alias = 1e7 / limits.min_wavelength_nm
     flags = _flag_lines(found, lam_ref, sigma_alias, kind, record, notes)
-    source_lines = [f for f, fl in zip(found, flags) if fl is None]
+    alias_band, aliasing = _aliasing(
+        found, spec, sweep_specs, ifgs, path, fs, beta, sigma_app, factor, sigma_alias
+    )
+    flags = [
+        "alias" if fl is None and a.verdict == "alias" else fl
+        for fl, a in zip(flags, aliasing, strict=True)
+    ]
+    source_lines = [f for f, fl in zip(found, flags, strict=True) if fl is None]
 
     result = Result.build(
         record=record,
@@ -296,6 +306,8 @@ def analyze(record, options: AnalysisOptions | None = None, *, planner=None):
         notes=notes,
         channel_delay=delay,
         rejected=rejected,
+        aliasing=aliasing,
+        alias_band=alias_band,
     )
     for ln in source_lines:
         w = green_pointer_warning(ln.wavelength_nm)
@@ -311,6 +323,60 @@ def analyze(record, options: AnalysisOptions | None = None, *, planner=None):
                 )
             break
     return result
+
+
+def _aliasing(found, spec, sweep_specs, ifgs, path, fs, beta, sigma_app, factor, sigma_alias):
+    """The band where aliases of detectable light may land, and each line's verdict from it
+    and from the sweeps' speed diversity (:mod:`ftsource.aliasing`)."""
+    from ftsource.aliasing import assess_lines, band_at_risk, speed_step_needed
+    from ftsource.sweeps import aliasing_check, sweep_speed_at
+
+    by_index = {ig.sweep.index: ig for ig in ifgs}
+    medians, lows, highs, spreads = [], [], [], []
+    for s in sweep_specs:
+        ig = by_index[s.sweep_index]
+        x = ig.x_cm
+        lo, hi = np.quantile(x, [0.1, 0.9])
+        v = np.asarray(sweep_speed_at(path, ig.sweep, fs, x[(x >= lo) & (x <= hi)]), float)
+        v = v[np.isfinite(v) & (v > 0)]
+        if v.size == 0:
+            continue
+        med = float(np.median(v))
+        medians.append(med)
+        lows.append(float(v.min()))
+        highs.append(float(v.max()))
+        q25, q75 = np.quantile(v, [0.25, 0.75])
+        spreads.append(float((q75 - q25) / (2 * med)))
+    if not medians:
+        return [], [_no_aliasing_verdict() for _ in found]
+    speeds = np.linspace(min(lows), max(max(highs), path.max_speed_cm_s), 33)
+    band = band_at_risk(fs, speeds, beta, shortest_nm=SEARCH_BAND_NM[0])
+    grid = (float(sigma_app[0]), float(sigma_app[-1]))
+    band = [(max(a, grid[0]), min(b, grid[1])) for a, b in band if b > grid[0] and a < grid[1]]
+    if not found:
+        return band, []
+    # centres back on the apparent axis of the sweep spectra (the medium correction is tiny
+    # but the check compares sweeps on their own axis)
+    apparent = np.interp([f.centre_per_cm for f in found], sigma_app * factor, sigma_app)
+    check = None
+    rtol = max(0.01, float(np.median(spreads)))
+    if band and len(medians) >= 2 and len(medians) == len(sweep_specs):
+        mags = [(sigma_app, np.hypot(s.values, s.imag_residual)) for s in sweep_specs]
+        check = aliasing_check(
+            mags, medians, fs, resolution_per_cm=spec.resolution_per_cm, speed_rtol=rtol,
+            rel_min=ALIAS_CHECK_REL_MIN,
+        )
+    verdicts = assess_lines(
+        apparent, band, check, tolerance_per_cm=3 * spec.resolution_per_cm,
+        speed_step_percent=speed_step_needed(rtol), alias_free_limit_per_cm=sigma_alias,
+    )
+    return band, verdicts
+
+
+def _no_aliasing_verdict():
+    from ftsource.aliasing import LineAliasing
+
+    return LineAliasing("cannot be excluded", "")
 
 
 def _sweep_outliers(spec, sweep_specs, found, notes):

@@ -214,7 +214,9 @@ class Scan:
     ``T(θ) = arcsin(k sin θ)/arcsin(k)`` is a triangle wave with rounded turnarounds
     (``shape = k`` in (0, 1); small k is sinusoidal) and θ advances at ``sweep_rate_hz`` full
     back-and-forth cycles per second with a smooth random wobble of relative size
-    ``speed_jitter``.
+    ``speed_jitter``. ``sweep_speed_factors`` (optional) scales the rate of θ sweep by sweep,
+    in turn (the first, partial, sweep takes the first factor): a mirror run at several
+    speeds, which changes speed only at the turnarounds, where it is at rest.
     """
 
     sample_rate_hz: float = 48_000.0
@@ -227,6 +229,7 @@ class Scan:
     vibration_cm: float = 0.0
     vibration_hz: float = 120.0
     start_phase_rad: float = 0.3
+    sweep_speed_factors: tuple[float, ...] = ()
 
     @property
     def n_samples(self) -> int:
@@ -298,6 +301,28 @@ def _smooth_noise(rng: np.random.Generator, t: np.ndarray, n_terms: int = 6, f_m
     return y / np.sqrt(0.5 * np.sum(a**2))
 
 
+def _sweep_phase(scan: Scan, tau: np.ndarray, w: float) -> np.ndarray:
+    """θ(τ): rate ``w`` times the current sweep's speed factor; sweeps end at θ = π/2 + nπ."""
+    factors = tuple(float(f) for f in scan.sweep_speed_factors)
+    if not factors:
+        return scan.start_phase_rad + w * tau
+    if not all(np.isfinite(f) and f > 0 for f in factors):
+        raise ValueError("Scan.sweep_speed_factors must all be positive")
+    theta, time = scan.start_phase_rad, 0.0
+    turn = np.pi / 2 + np.pi * (np.floor((theta - np.pi / 2) / np.pi) + 1)
+    thetas, times = [theta], [time]
+    end = float(np.max(tau)) if tau.size else 0.0
+    j = 0
+    while time <= end:
+        time += (turn - theta) / (w * factors[j % len(factors)])
+        theta = turn
+        thetas.append(theta)
+        times.append(time)
+        turn += np.pi
+        j += 1
+    return np.interp(tau, times, thetas)
+
+
 def mirror_trajectory(scan: Scan, t: np.ndarray, rng: np.random.Generator) -> np.ndarray:
     """Geometric path difference d(t) in cm for a :class:`Scan` (see its docstring)."""
     k = scan.shape
@@ -308,7 +333,8 @@ def mirror_trajectory(scan: Scan, t: np.ndarray, rng: np.random.Generator) -> np
     wob = _smooth_noise(rng, t, f_max=max(3 * scan.sweep_rate_hz, 1.0))
     # integrate the rate perturbation analytically enough: cumulative sum on the sample grid
     dt = 1.0 / scan.sample_rate_hz
-    theta = scan.start_phase_rad + w * t + scan.speed_jitter * w * np.cumsum(wob) * dt
+    tau = t + scan.speed_jitter * np.cumsum(wob) * dt  # time warped by the wobble
+    theta = _sweep_phase(scan, tau, w)
     d = scan.opd_centre_cm + scan.opd_amplitude_cm * np.arcsin(k * np.sin(theta)) / np.arcsin(k)
     if scan.vibration_cm:
         d = d + scan.vibration_cm * np.sin(2 * np.pi * scan.vibration_hz * t + 0.7)

@@ -40,5 +40,8 @@ def test_led_centroid_and_fwhm_with_dispersion(centre, fwhm, asym):
     # issue's targets: centroid within 0.1 nm, FWHM within 1 % of the simulated spectrum's
     assert abs(s["centroid_wavelength_nm"] - t.centroid_nm) < 0.1
     assert abs(s["fwhm_nm"] / t.fwhm_nm - 1) < 0.01
-    if asym == 0.0:  # the split-normal's kink biases any peak estimator; a smooth top does not
-        assert abs(s["peak_wavelength_nm"] - t.peak_nm) < 0.1
+    # the peak too, asymmetric bands included: the line shape's first-order bias is removed
+    # (spectrum.reconvolve); before that the 850 nm band's peak was off by 0.13 nm
+    assert abs(s["peak_wavelength_nm"] - t.peak_nm) < 0.1
+    # the stated FWHM uncertainty covers the remaining error (k = 2)
+    assert abs(s["fwhm_nm"] - t.fwhm_nm) < 2 * s["u_fwhm_nm"]

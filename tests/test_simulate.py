@@ -229,6 +229,37 @@ def test_peak_speed_matches_trajectory():
         assert v == pytest.approx(scan.peak_opd_speed_cm_s, rel=1e-6)
 
 
+def test_sweep_speed_factors_set_each_sweeps_duration_and_speed():
+    # Closed form: with the θ rate w·f_n in sweep n, a whole sweep (θ from π/2 + nπ to
+    # π/2 + (n+1)π) lasts π/(w f_n) and its fastest speed is f_n times the unscaled peak speed.
+    scan = S.Scan(shape=0.9, speed_jitter=0.0, sample_rate_hz=200_000, duration_s=3.2,
+                  sweep_rate_hz=1.0, start_phase_rad=0.3, sweep_speed_factors=(1.0, 1.5))
+    t = np.arange(scan.n_samples) / scan.sample_rate_hz
+    d = S.mirror_trajectory(scan, t, np.random.default_rng(0))
+    v = np.diff(d) * scan.sample_rate_hz
+    turns = np.flatnonzero(np.sign(v[1:]) != np.sign(v[:-1])) + 1
+    durations = np.diff(turns) / scan.sample_rate_hz
+    w = 2 * np.pi * scan.sweep_rate_hz
+    # the first full sweep is the record's second one (factor 1.5), then 1.0, 1.5, ...
+    expected = [np.pi / (w * (1.5 if i % 2 == 0 else 1.0)) for i in range(durations.size)]
+    np.testing.assert_allclose(durations, expected, atol=2 / scan.sample_rate_hz)
+    peaks = [np.max(np.abs(v[a:b])) for a, b in zip(turns[:-1], turns[1:], strict=True)]
+    for i, p in enumerate(peaks):
+        f = 1.5 if i % 2 == 0 else 1.0
+        assert p == pytest.approx(f * scan.peak_opd_speed_cm_s, rel=1e-6)
+    # no factors: the plain trajectory θ = θ0 + w t
+    plain = S.Scan(shape=0.9, speed_jitter=0.0, duration_s=0.5)
+    tp = np.arange(plain.n_samples) / plain.sample_rate_hz
+    dp = S.mirror_trajectory(plain, tp, np.random.default_rng(0))
+    k = plain.shape
+    np.testing.assert_allclose(
+        dp, plain.opd_amplitude_cm * np.arcsin(k * np.sin(0.3 + w * tp)) / np.arcsin(k),
+        rtol=0, atol=1e-15,
+    )
+    with pytest.raises(ValueError, match="sweep_speed_factors"):
+        S.mirror_trajectory(S.Scan(sweep_speed_factors=(1.0, 0.0)), tp, np.random.default_rng(0))
+
+
 def test_detector_delay_shifts_signal_by_delay_times_speed():
     src = S.laser(532)
     det0 = S.Detector(noise_rms=0.0)

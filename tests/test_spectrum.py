@@ -430,3 +430,33 @@ def test_coadd_noise_of_phase_corrected_sweeps(zpd_fraction):
         w = 2 * get_apodization("happ-genzel")(np.abs(np.arange(-half, half + 1)) / half)
         assert np.median(spec.noise) == pytest.approx(
             _component_noise(n, noise_rms, w) / np.sqrt(3), rel=0.06)
+
+
+# --------------------------------------------------------------------------------------------
+# reconvolve: the measured line convolved with the line shape once more
+
+
+@pytest.mark.parametrize("name", ["happ-genzel", "norton-beer-medium"])
+def test_reconvolve_of_a_monochromatic_line_is_the_transform_of_the_squared_apodization(name):
+    # Convolution theorem: the line shape K is the transform of A(|x|/L) over [−L, L], so
+    # K∗K is the transform of A², 2∫₀ᴸ A(x/L)² cos(2πδx) dx, evaluated here by adaptive
+    # quadrature (scipy.integrate.quad), independently of LineShape.
+    from ftsource.spectrum import reconvolve
+
+    L = 0.05
+    shape = LineShape(name, (L,), (1.0,))
+    step = 1.0 / (8 * 2 * L)  # a zero-filled grid: 8 points per 1/(2L)
+    sigma = 15000.0 + step * np.arange(-4000, 4001)
+    s0 = 15000.0 + 0.3 * step  # off-grid line
+    spec = Spectrum(sigma, shape.kernel(sigma - s0), np.zeros_like(sigma), shape, "mertz", ())
+    twice = reconvolve(spec, (s0 - 40 / L, s0 + 40 / L))
+    apo = get_apodization(name)
+    offsets = np.array([0.0, 3.0, 10.0, 25.0, 60.0]) * step
+    for d in offsets:
+        i = int(np.argmin(np.abs(sigma - (s0 + d))))
+        dd = sigma[i] - s0
+        k2 = 2 * integrate.quad(lambda x, dd=dd: apo(x / L) ** 2 * np.cos(2 * np.pi * dd * x),
+                                0, L, limit=200)[0]
+        # the kernel is cut at 30 resolution elements and renormalised: 1e-3 of the peak
+        assert twice[i] == pytest.approx(k2, abs=1e-3 * 2 * L)
+    assert np.isnan(twice[0]) and np.isnan(twice[-1])  # outside the band asked for
