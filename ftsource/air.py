@@ -57,6 +57,8 @@ from .errors import OptionError
 
 __all__ = [
     "MODELS",
+    "WAVELENGTH_RANGE_NM",
+    "EDLEN_VERIFIED_RANGE_NM",
     "MODEL_STANDARD_UNCERTAINTY",
     "UNMEASURED_UNCERTAINTY",
     "MEASURED_UNCERTAINTY",
@@ -77,6 +79,15 @@ __all__ = [
 
 MODELS = ("ciddor", "edlen")
 """Names accepted by ``model=``."""
+
+WAVELENGTH_RANGE_NM = (300.0, 1700.0)
+"""Vacuum wavelengths (nm) where the equations are evaluated: Ciddor's validity range [2]_.
+Callers that extrapolate beyond it (the spectrum axis) must say so for any reported line."""
+
+EDLEN_VERIFIED_RANGE_NM = (380.0, 780.0)
+"""The visible (CIE convention, common practice), where the modified Edlén equation is
+verified here against Ciddor (within 2×10⁻⁸, ``tests/test_air.py``); prefer ``"ciddor"``
+beyond."""
 
 MODEL_STANDARD_UNCERTAINTY = MappingProxyType({"ciddor": 1.0e-8, "edlen": 1.0e-8})
 """Standard uncertainty of the equation itself near ambient conditions (from memory: the
@@ -100,7 +111,7 @@ calibrated sensors of ±0.5 K, ±2 hPa, ±5 % RH and ±50 ppm, read as rectangul
 a with u = a/√3 (JCGM 100 4.3.7; sensor classes common practice)."""
 
 _RANGES = {
-    "wavelength_vac_nm": (300.0, 1700.0, "nm"),
+    "wavelength_vac_nm": (*WAVELENGTH_RANGE_NM, "nm"),
     "temperature_c": (-40.0, 100.0, "°C"),
     "pressure_pa": (10.0e3, 140.0e3, "Pa"),
     "humidity_percent": (0.0, 100.0, "%"),

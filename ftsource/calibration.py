@@ -48,6 +48,12 @@ _DERIVED_KEYS = (
     "u_deviation_ppm",
 )
 _TEXT_KEYS = ("label", "date")
+#: What the rig's OPD scale comes from, and so what a calibration rescales: the reference
+#: laser's effective wavelength, the encoder's scale or the assumed constant mirror speed.
+OPD_SCALES = ("reference", "encoder", "constant-speed")
+#: Largest |λ_known/λ_measured − 1| a calibration file may hold, per OPD scale: a cosine error
+#: of a laser reference or an encoder stays far below 1 %; an assumed mirror speed is a guess.
+MAX_FILE_DEVIATION = {"reference": 0.01, "encoder": 0.01, "constant-speed": 0.5}
 
 
 @dataclass(frozen=True)
@@ -77,6 +83,12 @@ class RigCalibration:
         :attr:`normalized_deviation`; it does not enter ``u_effective_rel``.
     label, date : str or None
         Free text given by the caller (what line, when); nothing is invented.
+    opd_scale : str
+        What the calibration rescales (:data:`OPD_SCALES`): ``"reference"`` (the reference
+        laser's wavelength; then ``effective_reference_wavelength_nm`` is meaningful),
+        ``"encoder"`` (the position scale) or ``"constant-speed"`` (the assumed mirror speed).
+        For the last two, :attr:`scale` multiplies the position or the speed, and
+        ``reference_wavelength_nm`` only carries the nominal value the ratio was taken against.
     """
 
     effective_reference_wavelength_nm: float
@@ -91,6 +103,7 @@ class RigCalibration:
     u_reference_rel: float
     label: str | None = None
     date: str | None = None
+    opd_scale: str = "reference"
 
     @property
     def scale(self) -> float:
@@ -171,6 +184,7 @@ class RigCalibration:
                 "u_deviation_ppm": self.u_deviation_ppm,
                 "label": self.label,
                 "date": self.date,
+                "opd_scale": self.opd_scale,
             }
         )
         return d
@@ -220,6 +234,7 @@ def calibrate_reference(
     label: str | None = None,
     date: str | None = None,
     max_deviation_rel: float = 1e-3,
+    opd_scale: str = "reference",
 ) -> RigCalibration:
     """Effective reference wavelength of the rig from one line of known wavelength.
 
@@ -243,7 +258,10 @@ def calibrate_reference(
     max_deviation_rel : float
         Refuse a calibration whose ``|λ_known/λ_measured − 1|`` exceeds this (default 10⁻³,
         1000 ppm — a cosine error that large needs a 2.6° tilt): it most likely matched the
-        wrong line. At most 0.01 (files are checked against that limit).
+        wrong line. At most :data:`MAX_FILE_DEVIATION` for ``opd_scale`` (0.01, or 0.5 for an
+        assumed constant mirror speed; files are checked against that limit).
+    opd_scale : str
+        What the calibration rescales (:data:`OPD_SCALES`; see :class:`RigCalibration`).
 
     Returns
     -------
@@ -287,8 +305,12 @@ def calibrate_reference(
                  wavelength=True)
     ur = _number("u_reference_rel", u_reference_rel, rel=True)
     mx = _number("max_deviation_rel", max_deviation_rel, positive=True)
-    if mx > 0.01:
-        raise OptionError(f"max_deviation_rel = {mx!r} is not allowed; at most 0.01")
+    if opd_scale not in OPD_SCALES:
+        raise OptionError(f"opd_scale = {_short(opd_scale)} is not one of {', '.join(OPD_SCALES)}")
+    if mx > MAX_FILE_DEVIATION[opd_scale]:
+        raise OptionError(
+            f"max_deviation_rel = {mx!r} is not allowed; at most {MAX_FILE_DEVIATION[opd_scale]}"
+        )
     label = _text("label", label)
     date = _text("date", date)
     for name, u, w in (("u_measured_nm", um, lm), ("u_known_nm", uk, lk)):
@@ -317,6 +339,7 @@ def calibrate_reference(
         u_reference_rel=ur,
         label=label,
         date=date,
+        opd_scale=opd_scale,
     )
 
 
@@ -428,7 +451,7 @@ def load_calibration(path) -> RigCalibration:
         raise OptionError(
             f"{name}: version {_short(version)} is not supported (allowed: {FILE_VERSION})"
         )
-    allowed = {"kind", "version", *_INPUT_KEYS, *_DERIVED_KEYS, *_TEXT_KEYS}
+    allowed = {"kind", "version", "opd_scale", *_INPUT_KEYS, *_DERIVED_KEYS, *_TEXT_KEYS}
     unknown = sorted(set(doc) - allowed)
     if unknown:
         raise OptionError(f"{name}: unknown key {_short(unknown[0])}; allowed: "
@@ -440,12 +463,18 @@ def load_calibration(path) -> RigCalibration:
         v = doc[k]
         if isinstance(v, bool) or not isinstance(v, (int, float)):
             raise OptionError(f"{name}: {k} = {_short(v)} is not a number")
+    scale_kind = doc.get("opd_scale", "reference")  # files from before the key: a laser
+    if scale_kind not in OPD_SCALES:
+        raise OptionError(
+            f"{name}: opd_scale = {_short(scale_kind)} is not one of {', '.join(OPD_SCALES)}"
+        )
     try:
         cal = calibrate_reference(
             *(doc[k] for k in _INPUT_KEYS),
             label=doc.get("label"),
             date=doc.get("date"),
-            max_deviation_rel=0.01,
+            max_deviation_rel=MAX_FILE_DEVIATION[scale_kind],
+            opd_scale=scale_kind,
         )
     except (OptionError, AnalysisError) as exc:
         raise OptionError(f"{name}: {exc}") from None

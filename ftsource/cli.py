@@ -83,16 +83,29 @@ def build_parser() -> argparse.ArgumentParser:
     ln.add_argument("--max", dest="max_wl", metavar="QTY", help="longest wavelength")
     ln.add_argument("--near", metavar="QTY", help="closest lines to this wavelength")
     ln.add_argument("--tolerance", metavar="QTY", default="1nm")
-    ln.add_argument("--medium", choices=("vacuum", "air"), default="vacuum")
+    ln.add_argument("--medium", choices=("vacuum", "air"), default="vacuum",
+                    help="which wavelength --min/--max/--near refer to and the list is sorted by")
+    ln.add_argument("--air-temperature", metavar="QTY",
+                    help="with any --air-* option the air column is computed for that air "
+                         "(Ciddor 1996); without, it is standard air as NIST quotes it")
+    ln.add_argument("--air-pressure", metavar="QTY")
+    ln.add_argument("--air-humidity", metavar="QTY")
     ln.add_argument("--json", action="store_true")
 
     c = sub.add_parser("calibrate", help="calibrate the rig with a record of a known line",
                        epilog=SAFETY_LINE)
     c.add_argument("record", help="record of a source of known wavelength")
-    c.add_argument("--known-wavelength", metavar="QTY", required=True,
-                   help="its vacuum wavelength, e.g. 532.24503610nm")
-    c.add_argument("--known-uncertainty", metavar="QTY", default="0nm",
-                   help="its standard uncertainty (length)")
+    known = c.add_mutually_exclusive_group(required=True)
+    known.add_argument("--known-wavelength", metavar="QTY",
+                       help="its vacuum wavelength, e.g. 532.24503610nm; needs "
+                            "--known-uncertainty unless it is a bundled standard's value")
+    known.add_argument("--known-line", metavar="LIST:QTY",
+                       help="a bundled entry named by list and wavelength (vacuum or standard "
+                            "air), e.g. laser_standards:632.99121258nm or lamp_ne:640.2248nm; "
+                            "see 'ftsource lines'. Nominal laser labels are refused")
+    c.add_argument("--known-uncertainty", metavar="QTY",
+                   help="standard uncertainty of the known wavelength (length); required unless "
+                        "the entry states one (laser standards do, lamp lines do not)")
     c.add_argument("--save", metavar="FILE", required=True, help="calibration file to write")
     c.add_argument("--overwrite", action="store_true", help="replace an existing FILE")
     _add_analysis_options(c)
@@ -119,9 +132,29 @@ def _add_analysis_options(a) -> None:
                    help="cosine-error allowance a (ratio): the result may be too long by up to a "
                         "(negative: too short); corrected by a/2, u = |a|/sqrt(12)")
     a.add_argument("--medium", choices=("air", "vacuum"), default="air")
-    a.add_argument("--air-temperature", metavar="QTY")
-    a.add_argument("--air-pressure", metavar="QTY")
-    a.add_argument("--air-humidity", metavar="QTY")
+    a.add_argument("--air-temperature", metavar="QTY",
+                   help="air temperature in the arms, e.g. 21.5degC (default 20 °C ± 2 K)")
+    a.add_argument("--air-pressure", metavar="QTY",
+                   help="air pressure, e.g. 1013hPa (default 101.325 kPa ± 2 kPa)")
+    a.add_argument("--air-humidity", metavar="QTY",
+                   help="relative humidity, e.g. 45%% (default 50 %% ± 20 %%)")
+    a.add_argument("--air-co2", metavar="QTY",
+                   help="CO2 mole fraction, e.g. 420ppm (default 450 ppm ± 150 ppm)")
+    a.add_argument("--air-temperature-uncertainty", metavar="QTY",
+                   help="standard uncertainty of the air temperature, e.g. 0.2K (default "
+                        "0.3 K when --air-temperature is given)")
+    a.add_argument("--air-pressure-uncertainty", metavar="QTY",
+                   help="standard uncertainty of the pressure, e.g. 50Pa (default 120 Pa)")
+    a.add_argument("--air-humidity-uncertainty", metavar="QTY",
+                   help="standard uncertainty of the humidity, e.g. 3%% (default 3 %%)")
+    a.add_argument("--air-co2-uncertainty", metavar="QTY",
+                   help="standard uncertainty of the CO2 fraction, e.g. 50ppm (default 30 ppm "
+                        "when --air-co2 is given)")
+    a.add_argument("--air-model", choices=("ciddor", "edlen"), default="ciddor",
+                   help="equation for the index of air: ciddor (Ciddor 1996, 300-1700 nm; "
+                        "default) or edlen (Birch & Downs, verified in the visible)")
+    a.add_argument("--encoder-scale-uncertainty", metavar="QTY",
+                   help="relative standard uncertainty of a position encoder's scale, e.g. 5ppm")
     a.add_argument("--sample-rate", metavar="QTY")
     a.add_argument("--columns", metavar="MAP", help="column mapping, e.g. signal=PD1,ref=PD2")
     a.add_argument("--mirror-speed", metavar="QTY",
@@ -171,13 +204,14 @@ def _ratio(text, name):
 
 def _reference_uncertainty_ppm(text, lam_nm):
     """``--reference-uncertainty`` as a ratio (ppm, %, a bare fraction) or as a length (then
-    relative to ``--reference-wavelength``)."""
+    relative to ``--reference-wavelength``): ``(ppm, None)``, or ``(None, nm)`` when no
+    reference wavelength was given (the record's metadata may give it)."""
     from ftsource.errors import OptionError
     from ftsource.quantity import parse_quantity
 
     name = "--reference-uncertainty"
     try:
-        return _ratio(text, name)
+        return _ratio(text, name), None
     except OptionError:
         q = parse_quantity(text, name=name)  # re-raises a text or unit that cannot be read
     if q.unit.physical_type != "length":
@@ -186,33 +220,58 @@ def _reference_uncertainty_ppm(text, lam_nm):
             "'0.001nm'"
         )
     if lam_nm is None:
-        raise OptionError(f"{name} given as a length needs --reference-wavelength")
-    return _qty(text, "nm", name) / lam_nm * 1e6
+        # the record's metadata may name the reference: the pipeline converts it then
+        return None, _qty(text, "nm", name)
+    return _qty(text, "nm", name) / lam_nm * 1e6, None
 
 
 def _options(args):
     from ftsource.air import AirConditions
     from ftsource.pipeline import AnalysisOptions
 
-    given = {}
-    if args.air_temperature is not None:
-        given["temperature"] = args.air_temperature
-    if args.air_pressure is not None:
-        given["pressure"] = args.air_pressure
-    if args.air_humidity is not None:
-        given["humidity"] = args.air_humidity
+    conds = ("temperature", "pressure", "humidity", "co2")
+    given = {k: getattr(args, f"air_{k}") for k in conds
+             if getattr(args, f"air_{k}") is not None}
+    u_given = {k: getattr(args, f"air_{k}_uncertainty") for k in conds
+               if getattr(args, f"air_{k}_uncertainty") is not None}
     air = None
     if args.medium == "air":
+        from ftsource.errors import OptionError
         from ftsource.quantity import parse_quantity
 
-        types = {"temperature": "temperature", "pressure": "pressure", "humidity": "dimensionless"}
+        types = {"temperature": "temperature", "pressure": "pressure",
+                 "humidity": "dimensionless", "co2": "dimensionless"}
         q = {k: parse_quantity(v, physical_type=types[k], name=f"--air-{k}")
              for k, v in given.items()}
+        for k, v in u_given.items():
+            name = f"--air-{k}-uncertainty"
+            uq = parse_quantity(v, physical_type=types[k], name=name)
+            if not (float(uq.value) >= 0 and float(uq.value) < float("inf")):
+                raise OptionError(f"{name}: {_show(v)} is not allowed; give a finite value ≥ 0")
+            q[f"u_{k}"] = uq
         air = AirConditions.from_quantities(**q)
+    elif given or u_given:
+        from ftsource.errors import OptionError
+
+        first = next(iter(given or u_given))
+        raise OptionError(
+            f"--air-{first}{'' if given else '-uncertainty'} needs --medium air (the default); "
+            "in vacuum there is no air to describe"
+        )
     lam = None
     if args.reference_wavelength is not None:
         lam = _qty(args.reference_wavelength, "nm", "--reference-wavelength", positive=True)
-    ref_u_ppm = _reference_uncertainty_ppm(args.reference_uncertainty, lam)
+    ref_u_ppm, ref_u_nm = _reference_uncertainty_ppm(args.reference_uncertainty, lam)
+    esu = None
+    if args.encoder_scale_uncertainty is not None:
+        esu = _ratio(args.encoder_scale_uncertainty, "--encoder-scale-uncertainty")
+        if not 0.0 <= esu <= 1e5:
+            from ftsource.errors import OptionError
+
+            raise OptionError(
+                f"--encoder-scale-uncertainty: {_show(args.encoder_scale_uncertainty)} is not "
+                "allowed; give a ratio from 0 to 10 %, e.g. '5ppm'"
+            )
 
     def opt(value, unit, name):
         return None if value is None else _qty(value, unit, name, positive=True)
@@ -229,11 +288,15 @@ def _options(args):
         resp = ResponseCurve.from_file(args.response)
     return AnalysisOptions(
         reference_wavelength_nm=lam,
-        reference_uncertainty_ppm=ref_u_ppm,
+        reference_uncertainty_ppm=0.0 if ref_u_ppm is None else ref_u_ppm,
+        reference_uncertainty_nm=ref_u_nm,
         alignment_allowance_ppm=_ratio(args.alignment_allowance, "--alignment-allowance"),
         medium=args.medium,
         air=air,
-        air_given=tuple(sorted(given)),
+        air_given=tuple(sorted(k for k in given if k != "co2")),
+        air_uncertainty_given=tuple(sorted(u_given)),
+        air_model=args.air_model,
+        encoder_scale_uncertainty_ppm=esu,
         sample_rate_hz=opt(args.sample_rate, "Hz", "--sample-rate"),
         mirror_speed_m_s=opt(args.mirror_speed, "m/s", "--mirror-speed"),
         apodization=args.apodization,
@@ -408,8 +471,36 @@ def _cmd_demo(args, out, err) -> int:
 
 def _cmd_lines(args, out, err) -> int:
     import json
+    import math
+
+    import numpy as np
 
     from ftsource.reference import search_lines
+
+    standard_air_text = (
+        "standard air (dry, 15 °C, 101 325 Pa, 450 ppm CO2), the convention of NIST's tables: "
+        "lamp lines as NIST quotes them, laser standards computed with the IAU/Morton 2000 "
+        "formula (ApJS 130:403, eq. 8)"
+    )
+
+    def lines_air():
+        """``(AirConditions, model, names given)`` from the ``--air-*`` options, or None.
+
+        Parsed by the same code as analyze's (:func:`_options` over a namespace holding the
+        defaults of :func:`_add_analysis_options`): units, ranges and the uncertainties of
+        given and assumed values are the same.
+        """
+        names = [k for k in vars(args) if k.startswith("air_") and getattr(args, k) is not None]
+        if not names:
+            return None
+        shared = _Parser(prog="ftsource lines")
+        _add_analysis_options(shared)
+        ns = shared.parse_args([])
+        ns.medium = "air"
+        for k in names:
+            setattr(ns, k, getattr(args, k))
+        opts = _options(_analysis_defaults(ns))
+        return opts.air, getattr(opts, "air_model", "ciddor"), tuple(opts.air_given)
 
     kw = {}
     if args.min_wl:
@@ -419,19 +510,75 @@ def _cmd_lines(args, out, err) -> int:
     if args.near:
         kw["near_nm"] = _qty(args.near, "nm", "--near")
         kw["tolerance_nm"] = _qty(args.tolerance, "nm", "--tolerance")
+    air = lines_air()
+    air_text, conditions, u_index = standard_air_text, None, {}
+    if air is not None:
+        from ftsource.air import index_uncertainty, vacuum_to_air_nm
+
+        cond, model, given = air
+        conditions = {"temperature_c": cond.temperature_c, "pressure_pa": cond.pressure_pa,
+                      "humidity_percent": cond.humidity_percent, "co2_ppm": cond.co2_ppm}
+        kw["to_air"] = lambda wl: vacuum_to_air_nm(wl, cond, model=model)
+        kw["conditions"] = cond
+        parts = [f"{cond.temperature_c:g} °C", f"{cond.pressure_pa:g} Pa",
+                 f"{cond.humidity_percent:g} % RH", f"{cond.co2_ppm:g} ppm CO2"]
+        keys = ("temperature", "pressure", "humidity", "co2")
+        shown = [p + ("" if k in given else " (assumed)")
+                 for p, k in zip(parts, keys, strict=True)]
+        air_text = (f"air at {', '.join(shown)}, computed from vacuum with the "
+                    f"{'Ciddor 1996' if model == 'ciddor' else 'Edlén (Birch & Downs)'} "
+                    "equation")
     table = search_lines(element=args.element, medium=args.medium, **kw)
-    rows = [
-        {k: (float(r[k]) if hasattr(r[k], "dtype") and r[k].dtype.kind == "f" else str(r[k]))
-         for k in ("wavelength_nm", "species", "list_name") if k in r.colnames}
-        for r in table
-    ]
+    if air is not None and len(table):
+        computed = np.array([c == "given conditions" for c in table["air_convention"]])
+        if computed.any():
+            vac = np.asarray(table["wavelength_vac_nm"], dtype=float)[computed]
+            u_n = np.atleast_1d(index_uncertainty(vac, air[0], air[1]))
+            u_index = dict(zip(np.flatnonzero(computed).tolist(), u_n.tolist(), strict=True))
+
+    def num(x):
+        x = float(x)
+        return x if math.isfinite(x) else None
+
+    rows = []
+    for i, r in enumerate(table):
+        conv = str(r["air_convention"])
+        rows.append({
+            "wavelength_nm": num(r["wavelength_nm"]),
+            "wavelength_vac_nm": num(r["wavelength_vac_nm"]),
+            "wavelength_air_nm": num(r["wavelength_air_nm"]),
+            "air_convention": conv,
+            "air_conditions": conditions if conv == "given conditions" else None,
+            "u_air_index": u_index.get(i),
+            "u_vac_nm": num(r["u_vac_nm"]),
+            "kind": str(r["kind"]),
+            "species": str(r["species"]),
+            "list_name": str(r["list_name"]),
+            "relative_intensity": num(r["relative_intensity"]),
+            "status": str(r["status"]),
+        })
     if args.json:
         out.write(json.dumps(rows, indent=2) + "\n")
-    else:
-        out.write(f"{len(rows)} line(s), {args.medium} wavelengths:\n")
-        for r in rows:
-            out.write(f"  {r.get('wavelength_nm', float('nan')):12.5f} nm  {r.get('species', '')}"
-                      f"  ({r.get('list_name', '')})\n")
+        return 0
+
+    def stored(x):  # as written in the list, without padding digits
+        return "—" if x is None else f"{x:.8f}".rstrip("0").rstrip(".")
+
+    out.write(f"{len(rows)} line(s), sorted by {args.medium} wavelength\n"
+              f"air column: {air_text}; nominal laser labels have no medium\n")
+    if air is not None and u_index:
+        out.write(f"air index uncertainty from these conditions: u(n) = "
+                  f"{max(u_index.values()) * 1e6:.2g} ppm (k = 1); not in the u column\n")
+    if rows:
+        out.write(f"  {'vacuum nm':>14}  {'air nm':>14}  {'u(vacuum) nm':>12}  "
+                  f"{'kind':<11}  species [list]\n")
+    for r in rows:
+        air_nm = r["wavelength_air_nm"]
+        air_s = (f"{air_nm:.6f}" if r["air_convention"] == "given conditions" and air_nm
+                 else stored(air_nm))
+        u_s = "—" if r["u_vac_nm"] is None else f"{r['u_vac_nm']:.2g}"
+        out.write(f"  {stored(r['wavelength_vac_nm']):>14}  {air_s:>14}  {u_s:>12}  "
+                  f"{r['kind']:<11}  {r['species']} [{r['list_name']}]\n")
     return 0
 
 
@@ -460,16 +607,88 @@ def _cmd_calibrate(args, out, err) -> int:
     from ftsource.records import read_record
     from ftsource.rig import calibrate_rig
 
+    def known_line():
+        """``(vacuum nm, standard uncertainty nm, description)`` of the known line, checked:
+        a nominal laser label is refused, and the uncertainty is never taken as 0 unasked."""
+        import math
+
+        from ftsource.errors import OptionError
+        from ftsource.reference import entries_with_value, line_list_names, pick_entry
+
+        u_given = None
+        if args.known_uncertainty is not None:
+            u_given = _qty(args.known_uncertainty, "nm", "--known-uncertainty")
+            if not u_given >= 0:
+                raise OptionError(
+                    f"--known-uncertainty: {_show(args.known_uncertainty)} is not allowed; give "
+                    "a standard uncertainty ≥ 0 as a length, e.g. '0.0001nm'"
+                )
+        if args.known_line is not None:
+            opt = "--known-line"
+            name, sep, wl_text = args.known_line.partition(":")
+            if not (sep and name.strip() and wl_text.strip()):
+                raise OptionError(
+                    f"{opt} {_show(args.known_line)} is not LIST:QTY; write e.g. "
+                    f"laser_standards:632.99121258nm (lists: {', '.join(line_list_names())})"
+                )
+            wl = _qty(wl_text.strip(), "nm", opt, positive=True)
+            try:
+                entry = pick_entry(name.strip(), wl)
+            except OptionError as exc:
+                raise OptionError(f"{opt} {_show(args.known_line)}: {exc}") from None
+        else:
+            opt = "--known-wavelength"
+            wl = _qty(args.known_wavelength, "nm", opt, positive=True)
+            same = entries_with_value(wl)
+            entry = (next((e for e in same if e.is_nominal), None)
+                     or next((e for e in same if e.is_standard), None))
+            if entry is None:
+                if u_given is None:
+                    raise OptionError(
+                        f"{opt} needs --known-uncertainty (its standard uncertainty; it is not "
+                        "taken as 0), or name a bundled entry with --known-line LIST:QTY"
+                    )
+                return wl, u_given, f"{wl:.12g} nm vacuum, u = {u_given:.2g} nm (as given)"
+        if entry.is_nominal:
+            raise OptionError(
+                f"{opt}: {entry.wavelength_vac_nm:g} nm is the nominal label "
+                f"'{entry.species}' ({entry.list_name}), not a measured wavelength, and nominal "
+                "values are never standards; calibrate with a laser standard or a lamp line "
+                "(see 'ftsource lines')"
+            )
+        stated = entry.u_vac_nm
+        if u_given is None:
+            if not math.isfinite(stated):
+                raise OptionError(
+                    f"{opt}: {entry.species} at {entry.wavelength_vac_nm:.12g} nm "
+                    f"({entry.list_name}) has no stated uncertainty; give --known-uncertainty, "
+                    "including lamp effects such as pressure shifts"
+                )
+            u, src = stated, f"as stated in {entry.list_name}"
+        else:
+            if math.isfinite(stated) and u_given < stated:
+                raise OptionError(
+                    f"--known-uncertainty {u_given:.2g} nm is smaller than the {stated:.2g} nm "
+                    f"that {entry.list_name} states for {entry.species}; a calibration cannot be "
+                    "better than its standard"
+                )
+            u, src = u_given, "as given"
+        return entry.wavelength_vac_nm, u, (
+            f"{entry.species} ({entry.list_name}, {entry.kind}), "
+            f"{entry.wavelength_vac_nm:.12g} nm vacuum, u = {u:.2g} nm ({src}); list status "
+            f"'{entry.status}' (V verified, V2 secondary, C computed, M from memory)"
+        )
+
     target = Path(args.save)
     if target.exists() and not args.overwrite:
         raise OutputError(f"--save {target}: exists already; use --overwrite to replace it")
-    known = _qty(args.known_wavelength, "nm", "--known-wavelength", positive=True)
-    u_known = _qty(args.known_uncertainty, "nm", "--known-uncertainty")
+    known, u_known, what = known_line()
     options = _options(_analysis_defaults(args))
     record = read_record(args.record, columns=args.columns, sample_rate=options.sample_rate_hz)
     cal, _ = calibrate_rig(record, options, known, u_known, label=Path(args.record).name)
     save_calibration(target, cal, overwrite=args.overwrite)
     out.write(
+        f"known line: {what}\n"
         f"measured {cal.measured_wavelength_nm:.6f} nm for the known {known:.6f} nm: the rig "
         f"reads {-cal.deviation_ppm:+.3f} ppm (± {cal.u_deviation_ppm:.3f} ppm)\n"
         f"effective reference wavelength {cal.effective_reference_wavelength_nm:.6f} nm "

@@ -354,6 +354,21 @@ def opd_from_quadrature(
         raise AnalysisError("no fringes found on the quadrature reference channels")
     fit0 = fit_ellipse(i[ok], q[ok])
     if fit0.residual > 0.2:
+        # The dropout test above compares with the median radius, so it is blind when the
+        # reference is dark for more than half the record: measure the dark share against the
+        # fringes' own level instead: the radius exceeded by 64 samples, the shortest stretch
+        # the dropout test keeps (a shorter glitch cannot set it).
+        k = n - min(n, 64)
+        top = np.partition(r_s, k)[k]
+        dark = float(np.mean(r_s < DROPOUT_LEVEL * top))
+        if dark > 0.5:
+            pct = min(round(dark * 100), 99)  # some fringes are there: never say 100 %
+            raise AnalysisError(
+                f"the quadrature reference has no fringes in {pct}% of the record "
+                f"(amplitude under {DROPOUT_LEVEL:.0%} of its peak): the reference beam was "
+                "blocked or a reference detector is dead; check the reference laser, its beam "
+                "path and both detectors, and record again"
+            )
         raise AnalysisError(
             "the quadrature reference channels do not trace a clean ellipse "
             f"(RMS residual {fit0.residual:.2f}); check that ref_i and ref_q see the same fringes"

@@ -41,15 +41,33 @@ class AnalysisOptions:
 
     Wavelengths are vacuum values in nm; ratios (uncertainty, allowance) in ppm.
     ``air`` is an :class:`ftsource.air.AirConditions` (default: an unmeasured lab, with its
-    wide default uncertainties).
+    wide default uncertainties). ``air_given`` names the conditions the caller stated
+    (``"temperature"``, ``"pressure"``, ``"humidity"``); a condition not named there and left
+    at its nominal value is taken from the record's ``air_temperature``, ``air_pressure`` or
+    ``air_humidity`` metadata when present (stated values win). ``air_uncertainty_given``
+    names the conditions whose uncertainty the caller stated (kept for metadata values too).
+    ``air_model`` is the equation for the index of air, ``"ciddor"`` (Ciddor 1996, default) or
+    ``"edlen"`` (Birch & Downs); it serves the dispersion correction and the budget.
+    ``encoder_scale_uncertainty_ppm`` is the relative standard uncertainty of a position
+    encoder's scale (``None``: not known, and not in the budget).
+
+    References
+    ----------
+    .. [1] P. E. Ciddor, Appl. Opt. 35, 1566-1573 (1996).
+    .. [2] K. P. Birch and M. J. Downs, Metrologia 30, 155-162 (1993); 31, 315-316 (1994).
     """
 
     reference_wavelength_nm: float | None = None
     reference_uncertainty_ppm: float = DEFAULT_REFERENCE_UNCERTAINTY_PPM
+    #: The reference's uncertainty given as a length (nm) before its wavelength was known; it
+    #: replaces ``reference_uncertainty_ppm`` once the wavelength is (option or metadata).
+    reference_uncertainty_nm: float | None = None
     alignment_allowance_ppm: float = 0.0
     medium: str = "air"
     air: object | None = None
     air_given: tuple[str, ...] = ()
+    air_uncertainty_given: tuple[str, ...] = ()
+    air_model: str = "ciddor"
     sample_rate_hz: float | None = None
     mirror_speed_m_s: float | None = None
     apodization: str = "happ-genzel"
@@ -76,6 +94,13 @@ class AnalysisOptions:
             raise OptionError("--reference-uncertainty must be a finite value ≥ 0")
         if not np.isfinite(self.alignment_allowance_ppm):
             raise OptionError("--alignment-allowance must be finite")
+        if self.air_model not in ("ciddor", "edlen"):
+            raise OptionError(
+                f"--air-model {self.air_model!r} is not known; use ciddor or edlen"
+            )
+        esu = self.encoder_scale_uncertainty_ppm
+        if esu is not None and not (np.isfinite(esu) and esu >= 0):
+            raise OptionError("--encoder-scale-uncertainty must be a finite value ≥ 0")
         if self.zero_fill < 1:
             raise OptionError("zero_fill must be at least 1")
         from ftsource.apodization import get_apodization
@@ -105,6 +130,40 @@ def _reference_wavelength(record, options: AnalysisOptions) -> float | None:
     return to_float(meta, "nm", name="reference_wavelength (metadata)")
 
 
+def _apply_calibration(kind, lam_ref, options, notes):
+    """Rescale what the rig calibration calibrated: the reference wavelength, the encoder's
+    scale (applied in :func:`_optical_path`) or the assumed mirror speed."""
+    cal = options.calibration
+    if cal is None or kind is None:
+        return lam_ref, options
+    wanted = kind if kind in ("encoder", "constant-speed") else "reference"
+    made = getattr(cal, "opd_scale", "reference")
+    names = {"reference": "a reference laser", "encoder": "a position encoder",
+             "constant-speed": "an assumed constant mirror speed"}
+    if made != wanted:
+        raise OptionError(
+            f"the rig calibration was made on a record whose OPD came from {names[made]}, but "
+            f"this record's OPD comes from {names[wanted]}: calibrate with a record of the same "
+            "kind"
+        )
+    if wanted == "reference":
+        lam_ref = float(cal.effective_reference_wavelength_nm)
+        notes.add(
+            "the reference wavelength was replaced by the rig calibration's effective value "
+            f"{lam_ref:.6f} nm"
+        )
+    elif wanted == "encoder":
+        notes.add(f"the encoder's scale was multiplied by the rig calibration's {cal.scale:.9f}")
+    else:
+        speed = options.mirror_speed_m_s * cal.scale
+        notes.add(
+            f"the assumed mirror speed was replaced by the rig calibration's {speed:.6g} m/s "
+            f"({cal.scale:.6f} × the stated one)"
+        )
+        options = replace(options, mirror_speed_m_s=speed)
+    return lam_ref, options
+
+
 def _optical_path(record, options, fs, lam_ref, notes):
     from ftsource import opd
 
@@ -115,7 +174,8 @@ def _optical_path(record, options, fs, lam_ref, notes):
     if kind == "single":
         return opd.opd_from_single(cols["ref"], fs, lam_ref)
     if kind == "encoder":
-        return opd.opd_from_position(record.position_m, fs)
+        scale = options.calibration.scale if options.calibration is not None else 1.0
+        return opd.opd_from_position(record.position_m * scale, fs)
     if options.mirror_speed_m_s is None:
         raise AnalysisError(
             "the record has no reference channel (ref, or ref_i and ref_q) and no position "
@@ -124,17 +184,114 @@ def _optical_path(record, options, fs, lam_ref, notes):
     return opd.opd_from_constant_speed(record.n_samples, fs, options.mirror_speed_m_s)
 
 
+def _encoder_note(options, notes):
+    """Say which of an encoder's scale uncertainty and cosine/Abbe allowance the budget lacks
+    (a rig calibration covers both: it measured the scale with the alignment in place)."""
+    if options.calibration is not None:
+        return
+    scale = options.encoder_scale_uncertainty_ppm is None
+    abbe = options.alignment_allowance_ppm == 0
+    if scale and abbe:
+        notes.add(
+            "the OPD scale comes from a position encoder: its scale uncertainty and any "
+            "cosine/Abbe error are not known to ftsource and are not in the budget; give "
+            "--encoder-scale-uncertainty and --alignment-allowance"
+        )
+    elif scale:
+        notes.add(
+            "the OPD scale comes from a position encoder: its scale uncertainty is not known "
+            "to ftsource and is not in the budget, which is then too small; give "
+            "--encoder-scale-uncertainty"
+        )
+    elif abbe:
+        notes.add(
+            "the OPD scale comes from a position encoder: any cosine/Abbe error is not in the "
+            "budget; give --alignment-allowance"
+        )
+
+
+_AIR_KEYS = (  # condition, metadata key, physical type, AirConditions field
+    ("temperature", "air_temperature", "temperature", "temperature_c"),
+    ("pressure", "air_pressure", "pressure", "pressure_pa"),
+    ("humidity", "air_humidity", "dimensionless", "humidity_percent"),
+)
+
+
+def _air_conditions(record, options, notes):
+    """``options`` with the air of the analysis: the caller's stated conditions, else the
+    record's ``air_*`` metadata, else the nominal laboratory (:class:`ftsource.air.AirConditions`).
+
+    A value from metadata gets the caller's stated uncertainty for it, or else
+    :data:`ftsource.air.MEASURED_UNCERTAINTY`; it then counts as given (``air_given``).
+    """
+    if options.medium != "air":
+        return options
+    import astropy.units as u
+
+    from ftsource.air import MEASURED_UNCERTAINTY, UNMEASURED_UNCERTAINTY, AirConditions
+    from ftsource.errors import RecordError
+
+    air = options.air or AirConditions()
+    nominal = AirConditions()
+    values, taken = {}, []
+    for cond, key, ptype, fld in _AIR_KEYS:
+        if cond in options.air_given or getattr(air, fld) != getattr(nominal, fld):
+            continue  # stated by the caller: it wins
+        q = record.metadata_quantity(key, ptype)
+        if q is None:
+            continue
+        try:
+            if ptype == "temperature":
+                v = float(q.to_value(u.deg_C, equivalencies=u.temperature()))
+            else:
+                v = float(q.to_value(u.Pa if ptype == "pressure" else u.percent))
+        except u.UnitsError:
+            raise RecordError(f"{record.path}: metadata {key} = {q} is not usable") from None
+        values[fld] = v
+        stated = cond in options.air_uncertainty_given or (
+            getattr(air, "u_" + fld) != UNMEASURED_UNCERTAINTY[fld]
+        )
+        values["u_" + fld] = getattr(air, "u_" + fld) if stated else MEASURED_UNCERTAINTY[fld]
+        taken.append(f"{key} = {record.metadata[key]}")
+    given = set(options.air_given) | {c for c, _, _, f in _AIR_KEYS if f in values}
+    missing = [c for c in options.air_uncertainty_given
+               if c in ("temperature", "pressure", "humidity") and c not in given]
+    if missing:
+        raise OptionError(
+            f"--air-{missing[0]}-uncertainty was given without --air-{missing[0]}, and the "
+            f"record's metadata has no air_{missing[0]}: give the value it belongs to"
+        )
+    if values:
+        try:
+            air = replace(air, **values)
+        except OptionError as exc:
+            raise RecordError(f"{record.path}: the air conditions of its metadata: {exc}") from None
+        notes.add("air conditions from the record's metadata: " + ", ".join(taken)
+                  + " (command-line values win)")
+    return replace(options, air=air, air_given=tuple(sorted(given)))
+
+
 def _index_factor(sigma, lam_ref, options, kind):
-    """σ_vac/σ_apparent = n_scale/n(σ) for the medium (1 in vacuum)."""
+    """σ_vac/σ_apparent = n_scale/n(σ) for the medium (1 in vacuum), by ``options.air_model``.
+
+    The air equations hold for 300–1700 nm (:data:`ftsource.air.WAVELENGTH_RANGE_NM`); beyond,
+    the index at
+    the nearer end is used. The axis covers far more than the lines, so this is silent
+    here: :mod:`ftsource.result` warns for each reported line outside the range.
+    """
     if options.medium == "vacuum":
         return np.ones_like(sigma)
-    from ftsource.air import air_index
+    from ftsource.air import WAVELENGTH_RANGE_NM, air_index
 
-    wl = np.clip(1e7 / np.maximum(sigma, 1.0), 300.0, 1700.0)
+    model = options.air_model
+    wl = np.clip(1e7 / np.maximum(sigma, 1.0), *WAVELENGTH_RANGE_NM)
     uniq = np.geomspace(wl.min(), wl.max(), 256) if wl.size > 256 else wl
-    n_at = air_index(uniq, options.air)
+    n_at = air_index(uniq, options.air, model=model)
     n = np.interp(wl, uniq, n_at) if wl.size > 256 else n_at
-    n_scale = float(air_index(lam_ref, options.air)) if kind in ("quadrature", "single") else 1.0
+    n_scale = (
+        float(air_index(lam_ref, options.air, model=model))
+        if kind in ("quadrature", "single") else 1.0
+    )
     return n_scale / n
 
 
@@ -167,11 +324,8 @@ def analyze(record, options: AnalysisOptions | None = None, *, planner=None):
     from ftsource.transform import FFTPlanner, next_fft_length
 
     options = options or AnalysisOptions()
-    if options.air is None and options.medium == "air":
-        from ftsource.air import AirConditions
-
-        options = replace(options, air=AirConditions())
     notes = Notes()
+    options = _air_conditions(record, options, notes)
     fs = options.sample_rate_hz or record.sample_rate_hz
     if not fs:
         raise OptionError(
@@ -187,20 +341,22 @@ def analyze(record, options: AnalysisOptions | None = None, *, planner=None):
         )
     if lam_ref is not None and not 200.0 <= lam_ref <= 2000.0:
         raise OptionError(f"--reference-wavelength {lam_ref:g} nm is outside 200–2000 nm")
-    if options.calibration is not None and lam_ref is not None:
-        lam_ref = float(options.calibration.effective_reference_wavelength_nm)
-        notes.add(
-            "the reference wavelength was replaced by the rig calibration's effective value "
-            f"{lam_ref:.6f} nm"
+    if options.reference_uncertainty_nm is not None:
+        if lam_ref is None:
+            raise OptionError(
+                "--reference-uncertainty given as a length needs the reference wavelength: give "
+                "--reference-wavelength or a reference_wavelength in the record's metadata"
+            )
+        options = replace(
+            options, reference_uncertainty_nm=None,
+            reference_uncertainty_ppm=options.reference_uncertainty_nm / lam_ref * 1e6,
         )
+    lam_ref, options = _apply_calibration(kind, lam_ref, options, notes)
     path = _optical_path(record, options, fs, lam_ref or 632.991, notes)
     for w in path.warnings:
         notes.add(w)
     if kind == "encoder":
-        notes.add(
-            "the OPD scale comes from a position encoder: its scale uncertainty and any "
-            "cosine/Abbe error are not known to ftsource and are not in the budget"
-        )
+        _encoder_note(options, notes)
     if record.source_format == "wav":
         beta = options.bandwidth_fraction or resample.BANDWIDTH_FRACTION_SOUND_CARD
     else:
@@ -290,6 +446,11 @@ def analyze(record, options: AnalysisOptions | None = None, *, planner=None):
         for fl, a in zip(flags, aliasing, strict=True)
     ]
     source_lines = [f for f, fl in zip(found, flags, strict=True) if fl is None]
+    fov = _field_of_view_factor(source_lines, options)
+    if fov != 1.0:
+        spec = spec.with_axis(spec.sigma_per_cm * fov)
+        found = [_rescale_line(f, fov) for f in found]
+        source_lines = [f for f, fl in zip(found, flags, strict=True) if fl is None]
 
     result = Result.build(
         record=record,
@@ -308,21 +469,69 @@ def analyze(record, options: AnalysisOptions | None = None, *, planner=None):
         rejected=rejected,
         aliasing=aliasing,
         alias_band=alias_band,
+        field_of_view_factor=fov,
     )
     for ln in source_lines:
         w = green_pointer_warning(ln.wavelength_nm)
         if w:
-            result.add_warning(w)
             ir = [f for f in source_lines if 800.0 <= f.wavelength_nm <= 815.0
                   or 1060.0 <= f.wavelength_nm <= 1068.0]
+            if not ir:  # the general caution: nothing found does not rule a leak out
+                result.add_warning(w)
             for f in ir:
                 result.add_warning(
                     f"INFRARED FOUND: a line at {f.wavelength_nm:.2f} nm (invisible) comes with the "
-                    "green light — the pointer leaks pump or fundamental light; its infrared power "
-                    "is not measured here and may exceed the green's"
+                    "green light — the pointer is a diode-pumped, frequency-doubled laser that "
+                    "leaks pump or fundamental light; its infrared power is not measured here and "
+                    "may exceed the green's: do not rely on the visible brightness"
                 )
             break
     return result
+
+
+def _field_of_view_factor(source_lines, options) -> float:
+    """The Jacquinot factor σ/σ' = 1/(1 − Ω/4π) for an extended source, else 1.
+
+    It applies when the user gave the field stop (aperture diameter and collimator focal
+    length) and the main source line is broadband (resolved, FWHM above
+    :data:`BROADBAND_FWHM_NM`): an LED or a lamp fills the field stop. A laser beam does not;
+    its own divergence sets a far smaller shift, and the result says the correction was not
+    applied.
+
+    References
+    ----------
+    .. [1] P. Jacquinot, J. Opt. Soc. Am. 44, 761-765 (1954).
+    """
+    if not (options.aperture_diameter_m and options.focal_length_m) or not source_lines:
+        return 1.0
+    main = max(source_lines, key=lambda f: f.area)
+    fwhm_nm = 1e7 * main.fwhm_per_cm / main.centre_per_cm**2
+    if not (main.resolved and fwhm_nm > BROADBAND_FWHM_NM):
+        return 1.0
+    from ftsource.instrument import field_of_view_correction, field_solid_angle
+
+    omega = field_solid_angle(options.aperture_diameter_m, options.focal_length_m)
+    return float(field_of_view_correction(1.0, omega))
+
+
+def _rescale_line(fit, factor: float):
+    """A line fit on a wavenumber axis stretched by ``factor`` (centre, widths, area)."""
+    def sc(v):
+        return None if v is None else v * factor
+
+    return replace(
+        fit,
+        centre_per_cm=fit.centre_per_cm * factor,
+        u_centre_per_cm=fit.u_centre_per_cm * factor,
+        area=fit.area * factor,
+        u_area=fit.u_area * factor,
+        gauss_fwhm_per_cm=fit.gauss_fwhm_per_cm * factor,
+        lorentz_fwhm_per_cm=fit.lorentz_fwhm_per_cm * factor,
+        fwhm_per_cm=fit.fwhm_per_cm * factor,
+        u_fwhm_per_cm=fit.u_fwhm_per_cm * factor,
+        fwhm_upper_bound_per_cm=sc(fit.fwhm_upper_bound_per_cm),
+        instrument_fwhm_per_cm=fit.instrument_fwhm_per_cm * factor,
+    )
 
 
 def _aliasing(found, spec, sweep_specs, ifgs, path, fs, beta, sigma_app, factor, sigma_alias):
@@ -451,34 +660,31 @@ def _channel_delay(ifgs, path, fs, kind, notes):
 
 
 def _flag_lines(found, lam_ref, sigma_alias, kind, record, notes):
-    """Why each line is not a source line (None when it is)."""
-    flags = []
-    strongest = max(found, key=lambda f: f.area) if found else None
-    clipped = _clipped_fraction(record.columns["signal"]) > 1e-3
-    for f in found:
-        flag = None
+    """Why each line is not a source line (None when it is): a ghost (reference light,
+    harmonic or intermodulation product of a clipped detector; :mod:`ftsource.ghosts`) or a
+    line beyond the alias-free limit."""
+    from ftsource.ghosts import flag_ghosts
+
+    flags = flag_ghosts(
+        [f.centre_per_cm for f in found],
+        [f.area for f in found],
+        [3 * f.instrument_fwhm_per_cm for f in found],
+        reference_per_cm=1e7 / lam_ref if lam_ref and kind in ("quadrature", "single") else None,
+        clipped=_clipped_fraction(record.columns["signal"]) > 1e-3,
+        band_edge_per_cm=1e7 / SEARCH_BAND_NM[0],
         # ghosts of a laser are as narrow as the instrument line shape
-        narrow = not f.resolved or f.fwhm_per_cm < 3 * f.instrument_fwhm_per_cm
-        tol = 3 * f.instrument_fwhm_per_cm
-        if lam_ref and kind in ("quadrature", "single") and narrow:
-            s_ref = 1e7 / lam_ref
-            if abs(f.centre_per_cm - s_ref) < tol:
-                flag = "reference-ghost"
-            elif strongest is not None and f is not strongest and any(
-                abs(f.centre_per_cm - (strongest.centre_per_cm + s * s_ref)) < tol for s in (-1, 1)
-            ):
-                flag = "reference-ghost"
-        if flag is None and strongest is not None and f is not strongest and clipped and narrow:
-            if any(abs(f.centre_per_cm - m * strongest.centre_per_cm) < tol for m in (2, 3)):
-                flag = "harmonic"
-        if flag is None and f.centre_per_cm > sigma_alias:
-            flag = "alias"
-        flags.append(flag)
+        eligible=[not f.resolved or f.fwhm_per_cm < 3 * f.instrument_fwhm_per_cm for f in found],
+    )
+    flags = [
+        "alias" if fl is None and f.centre_per_cm > sigma_alias else fl
+        for f, fl in zip(found, flags, strict=True)
+    ]
     n_ghost = sum(fl is not None for fl in flags)
     if n_ghost:
         notes.add(
             f"{n_ghost} spectral feature(s) were flagged as not from the source (reference "
-            "ghost, detector harmonic or beyond the alias-free limit); see 'flag' in lines"
+            "ghost, harmonic or intermodulation product of a clipped detector, or beyond the "
+            "alias-free limit); see 'flag' in lines"
         )
     return flags
 

@@ -40,6 +40,9 @@ __all__ = [
     "load_line_list",
     "search_lines",
     "identify",
+    "ReferenceEntry",
+    "pick_entry",
+    "entries_with_value",
     "standard_air_to_vacuum_nm",
     "standard_vacuum_to_air_nm",
 ]
@@ -58,6 +61,8 @@ REQUIRED_COLUMNS = (
     "u_vac_nm",
 )
 _MEDIA = ("vacuum", "air")
+#: ``air_convention`` of a nominal laser label: it has no medium and is never converted.
+_LABEL_AIR = "none (nominal label)"
 
 # IAU/Morton (2000, ApJS 130:403, eq. 8) standard-air dispersion, after Birch & Downs (1994).
 _MORTON_A = 8.34254e-5
@@ -224,10 +229,11 @@ def search_lines(
     medium : {"vacuum", "air"}
         Which wavelength the limits refer to and the column ``wavelength_nm`` holds.
     conditions : object, optional
-        Air conditions for ``medium="air"``. Without it the standard-air values stored in the
-        files are used. With it, air wavelengths are computed from the vacuum ones by
-        ``to_air(wl_vac_nm)`` if given, else by ``ftsource.air.vacuum_to_air_nm(wl_vac_nm,
-        conditions)``.
+        Air conditions for the ``wavelength_air_nm`` column (and for ``wavelength_nm`` when
+        ``medium="air"``). Without it the standard-air values stored in the files are used.
+        With it, air wavelengths are computed from the vacuum ones by ``to_air(wl_vac_nm)``
+        if given, else by ``ftsource.air.vacuum_to_air_nm(wl_vac_nm,
+        conditions)`` (Ciddor 1996). Nominal laser labels are never converted.
     to_air : callable, optional
         ``to_air(wl_vac_nm) -> wl_air_nm`` for non-standard air (takes precedence).
     lists : str or sequence of str, optional
@@ -238,7 +244,10 @@ def search_lines(
     astropy.table.Table
         Matching rows from all selected lists, sorted by ``wavelength_nm``, with columns
         ``list_name, species, kind, wavelength_nm, wavelength_vac_nm, wavelength_air_nm,
-        relative_intensity, u_vac_nm, status, note`` and ``meta["medium"]``. Possibly empty.
+        air_convention, relative_intensity, u_vac_nm, status, note`` and ``meta["medium"]``.
+        ``air_convention`` says what ``wavelength_air_nm`` is: ``"standard air"`` (the stored
+        value: NIST's quoted value for lamp lines, IAU/Morton 2000 for lasers), ``"given
+        conditions"`` (computed) or ``"none (nominal label)"``. Possibly empty.
 
     Raises
     ------
@@ -268,7 +277,7 @@ def search_lines(
     names = _resolve_lists(lists)
 
     converter = None
-    if medium == "air" and (conditions is not None or to_air is not None):
+    if conditions is not None or to_air is not None:  # the air column, in either medium
         if to_air is not None:
             converter = to_air
         else:
@@ -293,11 +302,15 @@ def search_lines(
         piece["kind"] = list(t["kind"])
         vac = np.asarray(t["wavelength_vac_nm"], dtype=float)
         air = np.asarray(t["wavelength_air_nm"], dtype=float)
+        label = np.array([str(k) == "nominal" for k in t["kind"]], dtype=bool)
         if converter is not None:
-            air = np.asarray(converter(vac), dtype=float)
+            # a nominal laser label has no medium: it stays as written
+            air = np.where(label, air, np.asarray(converter(vac), dtype=float))
+        convention = "given conditions" if converter is not None else "standard air"
         piece["wavelength_nm"] = vac if medium == "vacuum" else air
         piece["wavelength_vac_nm"] = vac
         piece["wavelength_air_nm"] = air
+        piece["air_convention"] = [_LABEL_AIR if lab else convention for lab in label]
         piece["relative_intensity"] = np.asarray(t["relative_intensity"], dtype=float)
         piece["u_vac_nm"] = np.asarray(t["u_vac_nm"], dtype=float)
         piece["status"] = list(t["status"])
@@ -363,6 +376,7 @@ def identify(
     k: float = 2.0,
     lists: str | Sequence[str] | None = None,
     max_candidates: int = 3,
+    tables: dict | None = None,
 ) -> list[Candidate]:
     """Compare a measured vacuum wavelength with the reference lists.
 
@@ -378,6 +392,9 @@ def identify(
         Lists to compare against (default all).
     max_candidates : int, default 3
         How many nearest entries to return.
+    tables : dict, optional
+        An explicit cache the caller owns, list name → loaded table (filled on first use and
+        only read afterwards), so identifying many lines reads each list once.
 
     Returns
     -------
@@ -413,7 +430,12 @@ def identify(
         raise OptionError(f"max_candidates = {max_candidates!r} is not allowed: give >= 1")
     found: list[Candidate] = []
     for name in _resolve_lists(lists):
-        t = load_line_list(name)
+        if tables is None:
+            t = load_line_list(name)
+        else:  # the caller's explicit cache: one read per list for many lines
+            t = tables.get(name)
+            if t is None:
+                t = tables[name] = load_line_list(name)
         ref = np.asarray(t["wavelength_vac_nm"], dtype=float)
         u_ref = np.nan_to_num(np.asarray(t["u_vac_nm"], dtype=float), nan=0.0)
         diff = wl - ref
@@ -432,3 +454,136 @@ def identify(
             )
     found.sort(key=lambda c: abs(c.difference_nm))
     return found[: int(max_candidates)]
+
+
+# --------------------------------------------------------------------------------------------
+# single entries (known lines for calibration)
+# --------------------------------------------------------------------------------------------
+#: How far (nm) a wavelength given to :func:`pick_entry` may lie from the entry it names.
+PICK_WINDOW_NM = 0.05
+#: The next entry must be at least this many times farther than the one picked.
+PICK_MARGIN = 10.0
+
+
+@dataclass(frozen=True)
+class ReferenceEntry:
+    """One row of a bundled line list.
+
+    Attributes
+    ----------
+    list_name, species, kind, status : str
+        As in the list (``kind`` is ``"atomic line"``, ``"standard"`` or ``"nominal"``).
+    wavelength_vac_nm, wavelength_air_nm : float
+        The stored vacuum and standard-air values.
+    u_vac_nm : float
+        Standard uncertainty stated by the source; NaN where none is stated.
+    """
+
+    list_name: str
+    species: str
+    kind: str
+    wavelength_vac_nm: float
+    wavelength_air_nm: float
+    u_vac_nm: float
+    status: str
+
+    @property
+    def is_standard(self) -> bool:
+        """True for a wavelength standard (CIPM recommended value)."""
+        return self.kind == "standard"
+
+    @property
+    def is_nominal(self) -> bool:
+        """True for a nominal laser label, which is never a standard."""
+        return self.kind == "nominal"
+
+
+def _entries(name: str) -> list[ReferenceEntry]:
+    t = load_line_list(name)
+    return [
+        ReferenceEntry(
+            list_name=name,
+            species=str(t["species"][i]),
+            kind=str(t["kind"][i]),
+            wavelength_vac_nm=float(t["wavelength_vac_nm"][i]),
+            wavelength_air_nm=float(t["wavelength_air_nm"][i]),
+            u_vac_nm=float(t["u_vac_nm"][i]),
+            status=str(t["status"][i]),
+        )
+        for i in range(len(t))
+    ]
+
+
+def pick_entry(list_name: str, wavelength_nm: float) -> ReferenceEntry:
+    """The entry of one list that a user names by its wavelength.
+
+    Parameters
+    ----------
+    list_name : str
+        A name from :func:`line_list_names`.
+    wavelength_nm : float
+        The entry's vacuum or standard-air wavelength, with as many digits as it takes to
+        single it out (e.g. ``632.99121258`` for the iodine-stabilised He-Ne, ``640.2248`` for
+        the Ne I line quoted in air).
+
+    Returns
+    -------
+    ReferenceEntry
+        The entry nearest to ``wavelength_nm`` in either column.
+
+    Raises
+    ------
+    OptionError
+        If no entry lies within :data:`PICK_WINDOW_NM`, or if another entry is less than
+        :data:`PICK_MARGIN` times farther than the nearest one (ambiguous: give more digits).
+    """
+    wl = _check_float(wavelength_nm, "wavelength_nm", positive=True)
+    entries = _entries(_resolve_lists(list_name)[0])
+    if not entries:  # pragma: no cover - every shipped list has rows
+        raise OptionError(f"line list {list_name!r} is empty")
+    dist = [min(abs(e.wavelength_vac_nm - wl), abs(e.wavelength_air_nm - wl)) for e in entries]
+    order = sorted(range(len(entries)), key=dist.__getitem__)
+    best = entries[order[0]]
+    d1 = dist[order[0]]
+    if d1 > PICK_WINDOW_NM:
+        raise OptionError(
+            f"{list_name} has no entry within {PICK_WINDOW_NM} nm of {wl:g} nm; the nearest is "
+            f"{best.species} at {best.wavelength_vac_nm:.12g} nm (vacuum); see 'ftsource lines'"
+        )
+    if len(order) > 1:
+        d2 = dist[order[1]]
+        other = entries[order[1]]
+        if d2 < PICK_MARGIN * d1 or d2 == 0.0:
+            raise OptionError(
+                f"{wl:g} nm does not single out one entry of {list_name}: {best.species} at "
+                f"{best.wavelength_vac_nm:.12g} nm and {other.species} at "
+                f"{other.wavelength_vac_nm:.12g} nm (vacuum) are both near; give more digits"
+            )
+    return best
+
+
+def entries_with_value(wavelength_vac_nm: float, *, rel: float = 1e-12) -> list[ReferenceEntry]:
+    """Entries whose stored vacuum (or, for nominal labels, written) value equals a number.
+
+    Used to recognise a value copied from a list, e.g. a nominal laser label given as a
+    "known" wavelength.
+
+    Parameters
+    ----------
+    wavelength_vac_nm : float
+        The value, nm.
+    rel : float, default 1e-12
+        Relative tolerance of the comparison (floating-point round-off only).
+
+    Returns
+    -------
+    list of ReferenceEntry
+        Possibly empty.
+    """
+    wl = _check_float(wavelength_vac_nm, "wavelength_vac_nm", positive=True)
+    return [
+        e
+        for name in line_list_names()
+        for e in _entries(name)
+        if abs(e.wavelength_vac_nm - wl) <= rel * wl
+    ]

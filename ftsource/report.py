@@ -75,6 +75,12 @@ def _fmt(v, unit="", digits=6):
     return f"{v:.{digits}f}{unit}"
 
 
+def _weighting(summary) -> str:
+    """How the broadband figures were weighted: ``response-corrected`` when the instrument
+    response was divided out, otherwise ``detector-weighted`` (the measured spectrum)."""
+    return "detector-weighted" if summary.get("detector_weighted", True) else "response-corrected"
+
+
 def format_summary(result) -> str:
     """A short human-readable summary of a result (one printable line per item: control
     characters from the record are shown as '?')."""
@@ -97,7 +103,7 @@ def format_summary(result) -> str:
         out.append(
             f"peak {_fmt(s.get('peak_wavelength_nm'), ' nm', 2)}, centroid "
             f"{_fmt(s.get('centroid_wavelength_nm'), ' nm', 2)}, FWHM "
-            f"{_fmt(s.get('fwhm_nm'), ' nm', 2)}"
+            f"{_fmt(s.get('fwhm_nm'), ' nm', 2)} ({_weighting(s)})"
         )
         if s.get("dominant_wavelength_nm") is not None and s.get("chromaticity_xy"):
             x, y = s["chromaticity_xy"]
@@ -160,6 +166,10 @@ def _spectrum_ecsv(result) -> bytes:
     t.meta["medium_corrected"] = result.input["medium"]
     t.meta["resolution_per_cm"] = result.instrument["resolution_per_cm"]
     t.meta["line_shape"] = result.instrument["line_shape"]
+    # the columns are the measured spectrum: no instrument response is divided out of them
+    t.meta["density_weighting"] = "detector-weighted"
+    s = result.summary
+    t.meta["broadband_figures_weighting"] = _weighting(s) if s["kind"] == "broadband" else None
     buf = io.StringIO()
     with np.printoptions(legacy=False):
         t.write(buf, format="ascii.ecsv")

@@ -30,7 +30,14 @@ __all__ = [
     "apply_response",
     "power_outside_band",
     "silicon_photodiode_response",
+    "correct_band",
+    "response_shape_uncertainty",
+    "MAX_OUTSIDE_FRACTION",
 ]
+
+#: Largest fraction of a band's measured power that may lie outside the response's valid band
+#: for the band to be corrected (:func:`correct_band`); above it the band stays uncorrected.
+MAX_OUTSIDE_FRACTION = 1e-3
 
 # 2019 SI defining constants (exact).
 _H = 6.62607015e-34  # J s
@@ -859,6 +866,137 @@ def apply_response(sigma, density, noise, curve: ResponseCurve, *, warn_above: f
             stacklevel=2,
         )
     return dc, nc, cover
+
+
+def correct_band(sigma, density, noise, curve: ResponseCurve, *,
+                 max_outside: float = MAX_OUTSIDE_FRACTION):
+    """Correct one emission band for the response, or say why it cannot be corrected.
+
+    Parameters
+    ----------
+    sigma, density, noise : array_like
+        Wavenumber (cm⁻¹), measured density per cm⁻¹ and its standard uncertainty, over the
+        window that holds the band (for example ±4 FWHM around it).
+    curve : ResponseCurve
+    max_outside : float
+        Largest fraction of the band's measured power (:func:`power_outside_band`) that may lie
+        outside ``curve.valid_band_per_cm``; default :data:`MAX_OUTSIDE_FRACTION` (0.1 %).
+
+    Returns
+    -------
+    density : numpy.ndarray
+        ``density / r(σ)`` when corrected (NaN where the curve is not known, which then holds
+        at most ``max_outside`` of the power), otherwise the measured density unchanged.
+    noise : numpy.ndarray
+        The *statistical* part only, ``noise / r(σ)`` (or ``noise`` when not corrected). The
+        response's own uncertainty is a shape error, correlated across the band, and is
+        evaluated separately by :func:`response_shape_uncertainty`.
+    applied : bool
+        Whether the correction was made.
+    messages : list of str
+        Warnings to pass to the user: those :func:`apply_response` raised and, when the band
+        could not be corrected, why (the figures are then detector-weighted).
+
+    Notes
+    -----
+    Correcting only the part of a band the curve covers would drop the rest and move the
+    centroid by about (fraction dropped) × (its distance from the centroid) — for 1 % of
+    an LED's power two FWHM out, a fifth of a nanometre for a 10 nm wide band, as much as the
+    detector weighting the correction is meant to remove. So the band is corrected whole or not
+    at all, with the limit at 0.1 % of its power (at most a few hundredths of a nanometre).
+
+    References
+    ----------
+    .. [1] JCGM 100:2008 (GUM), §5.1: propagation of uncertainty for a quotient.
+    """
+    s, d, n = _spectrum_inputs(sigma, density, noise)
+    if not isinstance(curve, ResponseCurve):
+        raise OptionError(f"curve is a ResponseCurve, not {type(curve).__name__}")
+    limit = float(max_outside)
+    if not (math.isfinite(limit) and 0.0 <= limit < 1.0):
+        raise OptionError(f"max_outside = {max_outside!r} is a fraction in [0, 1)")
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always", FtsourceWarning)
+        dc, _, cover = apply_response(s, d, n, curve)
+    frac = power_outside_band(s, d, n, curve)
+    messages = [str(c.message) for c in caught if issubclass(c.category, FtsourceWarning)]
+    if frac > limit:
+        lo, hi = curve.valid_band_per_cm
+        reason = (
+            f"the instrument response was not applied: {100 * frac:.3g} % of the band's "
+            f"measured power lies outside the response's valid band ({1e7 / hi:.0f}–"
+            f"{1e7 / lo:.0f} nm; at most {100 * limit:.2g} % may), and correcting only part of "
+            "the band would bias its figures; the broadband figures are detector-weighted. "
+            "Calibrate the response with a lamp record whose signal covers the whole band"
+        )
+        return np.array(d, dtype=float), np.array(n, dtype=float), False, [reason]
+    r = np.where(cover, curve.at(s), np.nan)
+    return dc, np.where(cover, n / np.where(cover, r, 1.0), np.nan), True, messages
+
+
+def response_shape_uncertainty(sigma, density_corrected, curve: ResponseCurve, figures, *,
+                               centre_per_cm: float, width_per_cm: float):
+    """Standard uncertainty of a band's figures from the response's correlated shape error.
+
+    Parameters
+    ----------
+    sigma : array_like
+        Wavenumber, cm⁻¹, where ``density_corrected`` is given.
+    density_corrected : array_like
+        The band divided by ``curve`` (:func:`correct_band`); NaN where not covered.
+    curve : ResponseCurve
+    figures : callable
+        ``figures(sigma, density) -> sequence of float``: the figures (e.g. peak, centroid and
+        FWHM) of a density on ``sigma``.
+    centre_per_cm, width_per_cm : float
+        Centre and FWHM of the band in wavenumber (they set the tilt below).
+
+    Returns
+    -------
+    numpy.ndarray
+        One standard uncertainty per figure: ``√(Δ_shift² + Δ_tilt²)``, each Δ half the change
+        of the figure between the two signs of one shape error of the response:
+
+        * shift: ``r → r ± u_r`` (every point moved together by its standard uncertainty);
+        * tilt: ``r → r ± u_r·t`` with ``t = clip((σ − centre)/width, −1, 1)``, a tilt
+          through the band's centre that reaches the full ``u_r`` one FWHM out.
+
+    Notes
+    -----
+    ``u_relative`` of a calibrated curve is dominated by errors shared by neighbouring points —
+    the lamp's temperature or table, the lamp record's noise smoothed over the resolution — so
+    the error of the response is a *shape*, and it does not average down over a band as
+    independent per-point noise would. A shift with the same relative size everywhere leaves
+    every shape figure unchanged; a blackbody's temperature error is a tilt about the curve's
+    normalising point, which the shift reproduces for a band on one side of that point and the
+    tilt for a band across it. The two are added in quadrature (conservative: the real error is
+    one shape). This is a one-at-a-time sensitivity evaluation, GUM §5.1.3 with finite
+    differences.
+
+    References
+    ----------
+    .. [1] JCGM 100:2008 (GUM), §5.1.3 (sensitivity coefficients, here by finite differences)
+       and §5.2 (correlated input quantities).
+    """
+    s = _check_sigma(sigma, "sigma")
+    dc = np.asarray(density_corrected, dtype=float)
+    if s.ndim != 1 or dc.shape != s.shape:
+        raise OptionError("sigma and density_corrected are 1-D of one length")
+    w = float(width_per_cm)
+    if not (math.isfinite(w) and w > 0 and math.isfinite(float(centre_per_cm))):
+        raise OptionError("centre_per_cm is finite and width_per_cm finite and > 0")
+    r, u = curve.at(s), curve.u_at(s)
+    ok = np.isfinite(r) & (r > 0)
+    r, u = np.where(ok, r, 1.0), np.where(ok, u, 0.0)
+    tilt = np.clip((s - float(centre_per_cm)) / w, -1.0, 1.0)
+    deltas = []
+    for shape in (u, u * tilt):
+        pair = []
+        for sign in (1.0, -1.0):
+            rr = np.maximum(r + sign * shape, 1e-3 * r)  # keep the response positive
+            pair.append(np.asarray(figures(s, dc * r / rr), dtype=float))
+        deltas.append(0.5 * (pair[0] - pair[1]))
+    return np.sqrt(np.sum(np.square(deltas), axis=0))
 
 
 # --------------------------------------------------------------------------------------------

@@ -100,6 +100,7 @@ class Result:
         rejected=(),
         aliasing=None,
         alias_band=None,
+        field_of_view_factor=1.0,
     ) -> Result:
         warnings = list(notes.items)
         spec = spectrum
@@ -113,7 +114,7 @@ class Result:
 
             if not 300.0 <= wl <= 1700.0:
                 return None
-            return float(vacuum_to_air_nm(wl, air))
+            return float(vacuum_to_air_nm(wl, air, model=options.air_model))
 
         # ---- input
         digest = hashlib.sha256()
@@ -195,6 +196,7 @@ class Result:
         line_dicts = []
         if aliasing is None:
             aliasing = [None] * len(lines)
+        line_tables: dict = {}  # reference lists read once for all lines of this result
         for f, flag, alias in zip(lines, flags, aliasing, strict=True):
             wl = _nm(f.centre_per_cm)
             if alias is not None and alias.message and (flag is None or alias.verdict == "alias"):
@@ -216,10 +218,9 @@ class Result:
                     "u_wavelength_nm": _f(_u_nm(f.centre_per_cm, f.u_centre_per_cm)),
                     "flag": flag,
                     "aliasing": alias.verdict if alias is not None else None,
-                    "identification": _identify(wl, _u_nm(f.centre_per_cm, f.u_centre_per_cm),
-                                                reference_wavelength_nm, options)
-                    if flag is None
-                    else None,
+                    **_identify(wl, _u_nm(f.centre_per_cm, f.u_centre_per_cm),
+                                reference_wavelength_nm, options, source_line=flag is None,
+                                tables=line_tables),
                 }
             )
         line_dicts.sort(key=lambda d: d["wavelength_nm"] or 0.0)
@@ -237,7 +238,7 @@ class Result:
 
         summary, budget_dict = _summary(
             spec, source_lines, strongest, sweep_spectra, interferograms, options, path,
-            reference_wavelength_nm, warnings, to_air,
+            reference_wavelength_nm, warnings, to_air, field_of_view_factor,
         )
         if strongest is not None and 1e7 / strongest.centre_per_cm < limits.min_wavelength_nm:
             warnings.append(
@@ -302,29 +303,45 @@ def _band_text(band, max_ranges: int = 3) -> str:
     return ", ".join(parts) + more
 
 
-def _identify(wl_nm, u_fit_nm, lam_ref, options):
-    """The nearest reference-list entry consistent with a measured line, or None.
+def _identify(wl_nm, u_fit_nm, lam_ref, options, *, source_line=True, tables=None):
+    """``{"identification": ..., "nearest_entries": [...]}`` for one measured line.
 
-    The tolerance uses the line's fit uncertainty combined with the reference laser's
-    relative uncertainty (k = 2), so a He-Ne-referenced measurement is not asked to be better
-    than its own reference.
+    ``nearest_entries`` are the (up to 3) nearest candidate entries of the bundled reference lists in vacuum
+    wavelength, nearest first, each with its difference in ppm (measured − reference, relative
+    to the reference) and whether it lies within tolerance; ``identification`` is the nearest
+    of them within tolerance, or None ("no match"). The tolerance is k = 2 times the line's
+    fit uncertainty combined with the reference laser's relative uncertainty and the entry's
+    own stated uncertainty (:func:`ftsource.reference.identify`), so a He-Ne-referenced
+    measurement is not asked to be better than its own reference. Lines flagged as artefacts
+    (``source_line`` False) and lines outside 200-3000 nm get no candidates.
+
+    References
+    ----------
+    .. [1] JCGM 100:2008 (GUM), §6 (expanded uncertainty, k = 2).
     """
     from ftsource.reference import identify
 
-    if not (np.isfinite(wl_nm) and 200.0 <= wl_nm <= 3000.0):
-        return None
+    if not (source_line and np.isfinite(wl_nm) and 200.0 <= wl_nm <= 3000.0):
+        return {"identification": None, "nearest_entries": []}
     u = float(np.hypot(u_fit_nm if np.isfinite(u_fit_nm) else 0.0,
                        wl_nm * _reference_u_ppm(options) * 1e-6))
-    for c in identify(wl_nm, u):
-        if c.within_tolerance:
-            return {
-                "species": c.species,
-                "list": c.list_name,
-                "kind": c.kind,
-                "wavelength_vac_nm": _f(c.wavelength_vac_nm),
-                "difference_ppm": _f(c.difference_ppm),
-            }
-    return None
+    candidates = [
+        {
+            "species": c.species,
+            "list": c.list_name,
+            "kind": c.kind,
+            "wavelength_vac_nm": _f(c.wavelength_vac_nm),
+            "difference_ppm": _f(c.difference_ppm),
+            "within_tolerance": bool(c.within_tolerance),
+        }
+        for c in identify(wl_nm, u, max_candidates=3, tables=tables)
+    ]
+    best = next((c for c in candidates if c["within_tolerance"]), None)
+    return {
+        "identification": None if best is None
+        else {k: v for k, v in best.items() if k != "within_tolerance"},
+        "nearest_entries": candidates,
+    }
 
 
 def _rejections(path, used, rejected):
@@ -343,14 +360,60 @@ def _reference_u_ppm(options) -> float:
 
 
 def _air_ratio_rel_u(options, path, lam_ref, wl) -> float:
+    """u(n_ref/n) for a reference-laser scale, u(n) for a geometric one (encoder, assumed
+    speed), by ``options.air_model``; beyond 300–1700 nm at the nearer end (see
+    :func:`_air_range_warnings`)."""
     if options.medium == "vacuum":
         return 0.0
-    from ftsource.air import index_ratio_uncertainty, index_uncertainty
+    from ftsource.air import WAVELENGTH_RANGE_NM, index_ratio_uncertainty, index_uncertainty
 
-    wl_c = float(np.clip(wl, 300.0, 1700.0))
+    model = options.air_model
+    wl_c = float(np.clip(wl, *WAVELENGTH_RANGE_NM))
     if path.kind in ("quadrature", "single"):
-        return float(index_ratio_uncertainty(lam_ref, wl_c, options.air))
-    return float(index_uncertainty(wl_c, options.air))
+        return float(index_ratio_uncertainty(lam_ref, wl_c, options.air, model=model))
+    return float(index_uncertainty(wl_c, options.air, model=model))
+
+
+def _air_range_warnings(source_lines, options, warnings) -> None:
+    """Warn for reported lines where the air equation was used outside its range: Ciddor's
+    300–1700 nm (the index at the nearer end was used), or, for ``edlen``, the visible where
+    it is verified. The size of the neglected dispersion is estimated from the standard-air
+    formula of Morton 2000 (eq. 8, valid 200–2000 nm)."""
+    if options.medium != "air" or not source_lines:
+        return
+    from ftsource.air import EDLEN_VERIFIED_RANGE_NM, WAVELENGTH_RANGE_NM
+
+    def n_std(wl):  # Morton 2000, eq. 8 (standard air)
+        s2 = (1e3 / float(np.clip(wl, 200.0, 2000.0))) ** 2
+        return 1.0 + 8.34254e-5 + 2.406147e-2 / (130.0 - s2) + 1.5998e-4 / (38.9 - s2)
+
+    lo, hi = WAVELENGTH_RANGE_NM
+    wls = sorted(_nm(f.centre_per_cm) for f in source_lines)
+    out = [w for w in wls if not lo <= w <= hi]
+    name = "Ciddor" if options.air_model == "ciddor" else "modified Edlén"
+    if out:
+        worst = max(out, key=lambda w: abs(w - np.clip(w, lo, hi)))
+        edge = float(np.clip(worst, lo, hi))
+        size = abs(n_std(worst) / n_std(edge) - 1) * 1e6
+        bound = "at least " if not 200.0 <= worst <= 2000.0 else "about "
+        shown = ", ".join(f"{w:.2f}" for w in out[:5]) + (
+            f" and {len(out) - 5} more" if len(out) > 5 else "")
+        warnings.append(
+            f"the line(s) at {shown} nm lie outside {lo:.0f}–{hi:.0f} nm, the range of the "
+            f"{name} equation for the index of air: the air correction and its uncertainty "
+            f"used the index at {edge:.0f} nm, which can be off by {bound}{size:.2g} ppm "
+            f"there (standard-air dispersion, Morton 2000); measure in vacuum (--medium "
+            "vacuum) or treat these wavelengths as uncertain by that much"
+        )
+    if options.air_model == "edlen":
+        vlo, vhi = EDLEN_VERIFIED_RANGE_NM
+        outside = [w for w in wls if not vlo <= w <= vhi and lo <= w <= hi]
+        if outside:
+            warnings.append(
+                f"the modified Edlén equation is verified in the visible ({vlo:.0f}–{vhi:.0f} "
+                f"nm) only; the line(s) at {', '.join(f'{w:.2f}' for w in outside[:5])} nm lie "
+                "outside it: --air-model ciddor (the default) is the equation for them"
+            )
 
 
 def _empty_summary():
@@ -359,7 +422,9 @@ def _empty_summary():
         "expanded_uncertainty_nm", "coverage_factor", "wavenumber_per_cm", "frequency_thz",
         "fwhm_nm", "fwhm_upper_bound_nm", "u_fwhm_nm", "coherence_length_mm",
         "coherence_length_lower_bound_mm", "coherence_length_definition",
-        "coherence_length_visibility_mm", "half_visibility_opd_mm", "peak_wavelength_nm",
+        "coherence_length_visibility_mm", "u_coherence_length_mm",
+        "u_coherence_length_visibility_mm", "coherence_length_visibility_definition",
+        "half_visibility_opd_mm", "peak_wavelength_nm",
         "u_peak_wavelength_nm", "centroid_wavelength_nm", "u_centroid_wavelength_nm",
         "chromaticity_xy", "dominant_wavelength_nm", "modes",
     ]
@@ -369,7 +434,7 @@ def _empty_summary():
 
 
 def _summary(spec, source_lines, strongest, sweep_spectra, ifgs, options, path, lam_ref,
-             warnings, to_air):
+             warnings, to_air, field_of_view_factor=1.0):
     from ftsource import coherence as coh
     from ftsource.uncertainty import wavelength_budget
 
@@ -425,17 +490,24 @@ def _summary(spec, source_lines, strongest, sweep_spectra, ifgs, options, path, 
         from ftsource.broadband import broadband_metrics
         from ftsource.spectrum import reconvolve
 
-        lo = sig0 - 4 * main.fwhm_per_cm
+        lo = max(sig0 - 4 * main.fwhm_per_cm, 0.0)
         hi = sig0 + 4 * main.fwhm_per_cm
         m = (spec.sigma_per_cm > lo) & (spec.sigma_per_cm < hi)
         sig_m = spec.sigma_per_cm[m]
         dens_s, noise_s = spec.density[m], spec.noise[m]
         twice_s = reconvolve(spec, (lo, hi))[m]
+        # the response corrects the whole band or nothing (docs/response_and_calibration.md)
+        weighted = True
         if options.response is not None:
-            from ftsource.response import apply_response
+            from ftsource.response import correct_band
 
-            dens_s, noise_s, _ = apply_response(sig_m, dens_s, noise_s, options.response)
-            twice_s, _, _ = apply_response(sig_m, twice_s, noise_s, options.response)
+            dens_c, noise_c, applied, msgs = correct_band(sig_m, dens_s, noise_s,
+                                                          options.response)
+            warnings.extend(msg for msg in dict.fromkeys(msgs) if msg not in warnings)
+            if applied:
+                dens_s, noise_s, weighted = dens_c, noise_c, False
+                twice_s = twice_s / options.response.at(sig_m)
+        s["detector_weighted"] = weighted
         ok = np.isfinite(dens_s) & np.isfinite(twice_s)
         wl = 1e7 / sig_m[ok]
         dens = dens_s[ok] * sig_m[ok] ** 2 / 1e7
@@ -455,13 +527,39 @@ def _summary(spec, source_lines, strongest, sweep_spectra, ifgs, options, path, 
         peak_nm, u_peak, fwhm_nm, u_fwhm = _line_shape_corrected(
             bb, bb2, _u_nm(sig0, spec.resolution_per_cm), warnings
         )
+        u_centroid = bb.u_centroid_nm
+        if not weighted:
+            # the response's shape error is correlated across the band: a separate term
+            from ftsource.errors import AnalysisError
+            from ftsource.response import response_shape_uncertainty
+
+            def figures(sg, d):
+                b = broadband_metrics(1e7 / sg, d * sg**2 / 1e7, None, n_monte_carlo=0)
+                return b.peak_nm, b.centroid_nm, b.fwhm_nm
+
+            try:
+                with _w.catch_warnings():  # notes on the perturbed copies are not the data's
+                    _w.simplefilter("ignore", FtsourceWarning)
+                    u_resp = response_shape_uncertainty(
+                        sig_m[ok], dens_s[ok], options.response, figures,
+                        centre_per_cm=sig0, width_per_cm=main.fwhm_per_cm,
+                    )
+            except AnalysisError:
+                u_resp = np.full(3, np.nan)
+                warnings.append(
+                    "the band's figures could not be recomputed with the instrument response "
+                    "moved by its uncertainty, so their uncertainties are not given; check the "
+                    "response file's u_relative"
+                )
+            u_peak, u_centroid, u_fwhm = (float(np.hypot(a, b)) for a, b in
+                                          zip((u_peak, u_centroid, u_fwhm), u_resp, strict=True))
         s.update(
             peak_wavelength_nm=_f(peak_nm),
             u_peak_wavelength_nm=_f(u_peak),
             centroid_wavelength_nm=_f(bb.centroid_nm),
-            u_centroid_wavelength_nm=_f(bb.u_centroid_nm),
+            u_centroid_wavelength_nm=_f(u_centroid),
         )
-        centre_nm, u_fit_nm, dof_fit = bb.centroid_nm, bb.u_centroid_nm, 50.0
+        centre_nm, u_fit_nm, dof_fit = bb.centroid_nm, u_centroid, 50.0
         s["u_fwhm_nm"] = _f(u_fwhm)
         from ftsource.colour import chromaticity_xy, dominant_wavelength_nm
 
@@ -475,17 +573,7 @@ def _summary(spec, source_lines, strongest, sweep_spectra, ifgs, options, path, 
                 "was applied (the detector and beamsplitter weight the spectrum; a silicon "
                 "photodiode alone moves an 850 nm LED's centroid by about a quarter nm)"
             )
-        if options.aperture_diameter_m and options.focal_length_m:
-            from ftsource.instrument import field_of_view_correction, field_solid_angle
-
-            omega = field_solid_angle(options.aperture_diameter_m, options.focal_length_m)
-            factor = float(field_of_view_correction(1.0, omega))
-            centre_nm = centre_nm / factor
-            warnings.append(
-                f"the wavenumber scale was corrected for the field of view (Jacquinot, "
-                f"Ω = {omega:.3g} sr): centre shifted by {(1 / factor - 1) * 1e6:.2f} ppm"
-            )
-    elif options.aperture_diameter_m and options.focal_length_m:
+    if kind != "broadband" and options.aperture_diameter_m and options.focal_length_m:
         warnings.append(
             "the field-of-view (aperture) correction applies to extended sources that fill the "
             "field stop, not to a laser beam, whose own divergence sets a far smaller shift: "
@@ -496,9 +584,35 @@ def _summary(spec, source_lines, strongest, sweep_spectra, ifgs, options, path, 
     wl_for_air = centre_nm
     from ftsource.uncertainty import Component
 
+    _air_range_warnings(source_lines, options, warnings)
+    opd_scale = path.kind if path.kind in ("encoder", "constant-speed") else "reference"
+
     extra = []
+    if field_of_view_factor != 1.0:
+        shift = field_of_view_factor - 1.0  # σ/σ' − 1 = Ω/4π to first order
+        omega = 4 * np.pi * (1 - 1 / field_of_view_factor)
+        warnings.append(
+            f"the wavenumber scale was corrected for the field of view (Jacquinot, "
+            f"Ω = {omega:.3g} sr): every wavelength is {shift * 1e6:.2f} ppm shorter than "
+            f"measured; the aperture also broadens lines by σΩ/2π = "
+            f"{_u_nm(sig0, sig0 * omega / (2 * np.pi)):.3g} nm here (not removed)"
+        )
+        extra.append(Component(
+            "field of view", centre_nm * shift / (2 * np.sqrt(3)),
+            note=f"Jacquinot correction of {shift * 1e6:.3g} ppm assumes a uniformly filled "
+                 "field stop; half of it is allowed for partial filling (rectangular)",
+        ))
     ref_rel = _reference_u_ppm(options) * 1e-6
-    if path.kind == "encoder":
+    cal = options.calibration
+    if cal is not None and path.kind in ("encoder", "constant-speed"):
+        ref_rel = 0.0
+        what = "encoder's scale" if path.kind == "encoder" else "mirror speed"
+        extra.append(Component(
+            "rig calibration", centre_nm * cal.u_effective_rel,
+            note=f"relative standard uncertainty {cal.u_effective_rel * 1e6:.3g} ppm of the "
+                 f"{what} calibrated from the known line {cal.known_wavelength_nm:.6g} nm",
+        ))
+    elif path.kind == "encoder":
         ref_rel = 0.0
         if options.encoder_scale_uncertainty_ppm is not None:
             extra.append(Component(
@@ -506,11 +620,7 @@ def _summary(spec, source_lines, strongest, sweep_spectra, ifgs, options, path, 
                 note=f"relative standard uncertainty {options.encoder_scale_uncertainty_ppm:g} ppm "
                      "of the encoder's scale (user input)",
             ))
-        else:
-            warnings.append(
-                "the encoder's scale uncertainty was not given (--encoder-scale-uncertainty): it "
-                "is not in the budget, which is then too small"
-            )
+        # not given: the pipeline's note says it is missing from the budget
     elif path.kind == "constant-speed":
         ref_rel = 0.0
         extra.append(Component(
@@ -524,9 +634,21 @@ def _summary(spec, source_lines, strongest, sweep_spectra, ifgs, options, path, 
         dof_fit=max(float(dof_fit), 1.0) if np.isfinite(dof_fit) else math.inf,
         reference_rel_u=ref_rel,
         air_ratio_rel_u=_air_ratio_rel_u(options, path, lam_ref, wl_for_air),
-        alignment_allowance_rel=options.alignment_allowance_ppm * 1e-6,
+        alignment_allowance_rel=(
+            0.0 if cal is not None else options.alignment_allowance_ppm * 1e-6
+        ),
+        alignment_note=(
+            "held in the rig calibration, made with the alignment in use (realigning calls "
+            "for a new calibration)" if cal is not None else None
+        ),
         extra=tuple(extra),
+        opd_scale=opd_scale,
     )
+    if cal is not None and options.alignment_allowance_ppm > 0:
+        warnings.append(
+            "the alignment allowance was not applied: the rig calibration already holds the "
+            "cosine error of the alignment it was made with (realigning calls for a new one)"
+        )
     s["centre_wavelength_nm"] = _f(corrected)
     s["centre_wavelength_air_nm"] = _f(to_air(corrected))
     s["u_centre_wavelength_nm"] = _f(budget.combined)
@@ -534,7 +656,12 @@ def _summary(spec, source_lines, strongest, sweep_spectra, ifgs, options, path, 
     s["coverage_factor"] = _f(budget.coverage_factor)
     s["wavenumber_per_cm"] = _f(1e7 / corrected)
     s["frequency_thz"] = _f(C_M_S / (corrected * 1e-9) / 1e12)
-    if path.kind == "constant-speed":
+    if path.kind == "constant-speed" and cal is not None:
+        warnings.append(
+            "NO REFERENCE: every wavelength scales with the mirror speed, calibrated here from a "
+            "known line; this holds only while the drive runs exactly as it did then"
+        )
+    elif path.kind == "constant-speed":
         warnings.append(
             "NO REFERENCE: every wavelength scales with the assumed mirror speed; the budget "
             "carries its stated uncertainty (default 5 %), which dominates. Calibrate the speed "
@@ -561,6 +688,11 @@ def _summary(spec, source_lines, strongest, sweep_spectra, ifgs, options, path, 
                     # the fitted intrinsic profile (instrument shape removed, wings complete)
                     ce = _profile_coherence(main)
                 s["coherence_length_mm"] = _f(ce.length_cm * 10)
+                u_lc = ce.u_length_cm if np.isfinite(ce.u_length_cm or np.nan) else np.nan
+                if not (u_lc > 0) and main.fwhm_per_cm > 0:
+                    # L_c ∝ 1/Δσ for a given profile: the width's relative uncertainty
+                    u_lc = ce.length_cm * main.u_fwhm_per_cm / main.fwhm_per_cm
+                s["u_coherence_length_mm"] = _f(u_lc * 10)
                 s["half_visibility_opd_mm"] = _f(ce.half_visibility_opd_cm * 10)
                 s["coherence_length_definition"] = ce.definition
             except Exception as e:  # noqa: BLE001 - an estimate that fails is reported, not fatal
@@ -579,16 +711,37 @@ def _summary(spec, source_lines, strongest, sweep_spectra, ifgs, options, path, 
         vis = _visibility(ifgs, sweep_spectra)
         if vis is not None and not vis.is_lower_bound:
             s["coherence_length_visibility_mm"] = _f(vis.length_cm * 10)
-            lc = s["coherence_length_mm"]
-            u_vis = (vis.u_length_cm or 0.0) * 10
-            if lc is not None and abs(lc - vis.length_cm * 10) > max(2 * u_vis, 0.1 * lc):
-                warnings.append(
-                    f"the coherence length from the spectrum ({lc:.4g} mm) and from the fringe "
-                    f"visibility ({vis.length_cm * 10:.4g} mm) disagree by more than their "
-                    "uncertainties (or 10 %): side structure in the spectrum, detector "
-                    "nonlinearity or a visibility limited by alignment may be the cause"
-                )
+            s["u_coherence_length_visibility_mm"] = _f((vis.u_length_cm or np.nan) * 10)
+            s["coherence_length_visibility_definition"] = f"{vis.definition}; {vis.method}"
+            msg = coherence_disagreement(
+                s["coherence_length_mm"], s["u_coherence_length_mm"],
+                vis.length_cm * 10, s["u_coherence_length_visibility_mm"],
+            )
+            if msg:
+                warnings.append(msg)
     return s, budget.to_dict("_nm")
+
+
+def coherence_disagreement(lc_mm, u_lc_mm, lv_mm, u_lv_mm, *, floor: float = 0.1):
+    """The warning when the two coherence lengths disagree, or None.
+
+    They disagree when ``|L_spec − L_vis| > max(2·√(u_spec² + u_vis²), floor·L_spec)``: two
+    standard uncertainties of the difference (k = 2, about 95 %), but never less than 10 % of
+    the value, which covers what the uncertainties leave out (the visibility envelope's
+    sampling, the spectrum's band limits). Missing values give None.
+    """
+    if lc_mm is None or lv_mm is None or not (np.isfinite(lc_mm) and np.isfinite(lv_mm)):
+        return None
+    u = math.hypot(u_lc_mm if u_lc_mm is not None and np.isfinite(u_lc_mm) else 0.0,
+                   u_lv_mm if u_lv_mm is not None and np.isfinite(u_lv_mm) else 0.0)
+    if abs(lc_mm - lv_mm) <= max(2 * u, floor * lc_mm):
+        return None
+    return (
+        f"the coherence length from the spectrum ({lc_mm:.4g} mm) and from the fringe "
+        f"visibility ({lv_mm:.4g} mm) disagree by more than their uncertainties (or 10 %): side "
+        "structure in the spectrum, detector nonlinearity or a visibility limited by alignment "
+        "may be the cause"
+    )
 
 
 def _profile_coherence(fit):

@@ -39,7 +39,13 @@ def calibrate_rig(record, options, known_wavelength_nm: float, u_known_nm: float
     from ftsource.pipeline import analyze
 
     nominal_u = options.reference_uncertainty_ppm
-    res = analyze(record, replace(options, reference_uncertainty_ppm=0.0, calibration=None))
+    # what the calibration determines is left out of the measured line's uncertainty: the
+    # reference wavelength, the encoder's scale or the assumed mirror speed (and the cosine
+    # allowance, which the calibration absorbs)
+    res = analyze(record, replace(
+        options, reference_uncertainty_ppm=0.0, calibration=None, alignment_allowance_ppm=0.0,
+        mirror_speed_uncertainty_ppm=0.0, encoder_scale_uncertainty_ppm=0.0,
+    ))
     s = res.summary
     if s["centre_wavelength_nm"] is None:
         raise AnalysisError("the calibration record shows no line to calibrate against")
@@ -47,6 +53,10 @@ def calibrate_rig(record, options, known_wavelength_nm: float, u_known_nm: float
         raise AnalysisError(
             f"the calibration record's source is {s['kind']}; calibrate with a single narrow line"
         )
+    opd_source = res.input["opd_source"]
+    opd_scale = opd_source if opd_source in ("encoder", "constant-speed") else "reference"
+    # for an encoder or an assumed speed there is no reference laser: the nominal He-Ne value
+    # only labels the ratio λ_known/λ_measured that the calibration stores
     lam_ref = res.input["reference_wavelength_nm"] or 632.991
     cal = calibrate_reference(
         s["centre_wavelength_nm"],
@@ -54,8 +64,10 @@ def calibrate_rig(record, options, known_wavelength_nm: float, u_known_nm: float
         known_wavelength_nm,
         u_known_nm,
         lam_ref,
-        nominal_u * 1e-6,
+        nominal_u * 1e-6 if opd_scale == "reference" else 0.0,
         label=label,
+        opd_scale=opd_scale,
+        max_deviation_rel=0.5 if opd_scale == "constant-speed" else 1e-3,
     )
     if not math.isfinite(cal.effective_reference_wavelength_nm):  # pragma: no cover
         raise AnalysisError("the calibration did not give a finite reference wavelength")

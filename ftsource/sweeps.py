@@ -1009,8 +1009,9 @@ def aliasing_check(
         if not any(tell):
             verdict = "cannot be excluded"
             why = (
-                f"the sweeps' speeds (spread {100 * spread:.3g} %) are too alike: an alias "
-                f"would move by less than {k:g} uncertainties"
+                f"the sweeps' speeds (spread {100 * spread:.3g} %) are too alike for their "
+                f"±{100 * speed_rtol:.2g} % speed uncertainty: an alias would move by less "
+                f"than {k:g} uncertainties"
             )
         elif "miss" not in real and any(
             t and r == "match" for t, r in zip(tell, real, strict=True)

@@ -27,7 +27,8 @@ For p = 0.95 the t factor exceeds 2 up to ν ≈ 60 (t_0.975(60) = 2.0003, t_0.9
 so ``k = t`` below that and ``k = 2`` above it; ``k`` is continuous in ν_eff. ν_eff is
 truncated to the next lower integer before the t quantile is taken (GUM G.6.4 allows
 truncation or interpolation; truncation is the conservative choice), but is reported
-unrounded.
+unrounded. Above ν_eff = 10⁶ (:data:`DOF_AS_INFINITE`) ν is taken as infinite: the t factor
+then differs from the normal quantile by less than 3×10⁻⁶ relative for p ≤ 0.99.
 
 References
 ----------
@@ -58,9 +59,18 @@ __all__ = [
     "one_sided_rectangular",
     "wavelength_budget",
     "sweep_consistency",
+    "DOF_AS_INFINITE",
+    "OPD_SCALES",
 ]
 
 _KINDS = ("A", "B")
+#: Above this many effective degrees of freedom the Student-t factor is taken as the normal
+#: one: t_0.975(10⁶) − z_0.975 = 2.4×10⁻⁶ (scipy.stats), far below any stated digit, and
+#: scipy's t quantile refuses a floor(ν) too large for its integer conversion (e.g. 10²⁶).
+DOF_AS_INFINITE = 1e6
+#: What sets the optical-path scale of :func:`wavelength_budget`: a reference laser's fringes,
+#: a position encoder, or an assumed constant mirror speed (the last two are geometric).
+OPD_SCALES = ("reference", "encoder", "constant-speed")
 
 
 def _finite(name: str, value, *, minimum: float | None = None, strict: bool = False) -> float:
@@ -310,13 +320,14 @@ class Budget:
 
     @property
     def coverage_factor(self) -> float:
-        """``k = max(k_∞, t_{(1+p)/2}(⌊ν_eff⌋))``; ``k_∞ = 2`` for p = 0.95 (see module)."""
+        """``k = max(k_∞, t_{(1+p)/2}(⌊ν_eff⌋))``; ``k_∞ = 2`` for p = 0.95 (see module);
+        ``k_∞`` alone when ν_eff is infinite or above :data:`DOF_AS_INFINITE`."""
         q = 0.5 * (1.0 + self.coverage)
         k_inf = 2.0 if math.isclose(self.coverage, 0.95) else _normal_quantile(q)
         nu = self.effective_dof
-        if not math.isfinite(nu):
+        if not math.isfinite(nu) or nu > DOF_AS_INFINITE:
             return k_inf
-        nu_t = max(1.0, math.floor(nu))
+        nu_t = max(1.0, float(math.floor(nu)))
         return max(k_inf, _t_quantile(q, nu_t))
 
     @property
@@ -371,6 +382,8 @@ def wavelength_budget(
     alignment_allowance_rel: float = 0.0,
     extra: tuple[Component, ...] = (),
     coverage: float = 0.95,
+    opd_scale: str = "reference",
+    alignment_note: str | None = None,
 ) -> tuple[float, Budget]:
     """The budget of a centre (vacuum) wavelength, from mostly relative inputs.
 
@@ -384,14 +397,19 @@ def wavelength_budget(
         The statistical uncertainty of the fitted line centre, ``u_fit_nm`` (from the fit's
         covariance, scaled by its residuals), with the fit's degrees of freedom (points used
         minus parameters fitted, GUM G.3.3).
-    ``reference wavelength`` (Type B)
+    ``reference wavelength`` (Type B; ``opd_scale="reference"`` only)
         Relative standard uncertainty of the vacuum wavelength of the reference laser that
         sets the OPD scale (its certificate or the CIPM value of its kind), ``reference_rel_u``.
-    ``refractive-index ratio`` (Type B)
+        Listed even when zero, so that a reference taken as exact is visible.
+    ``refractive-index ratio`` (Type B; ``opd_scale="reference"``)
         Relative standard uncertainty of ``n(λ_src)/n(λ_ref)`` when the arms are in air: the
         reference counts path in air at its own wavelength, so the source's vacuum wavelength
         needs the index ratio (dispersion of air) — from the air model and the uncertainty of
         the measured temperature, pressure and humidity, ``air_ratio_rel_u``. Zero in vacuum.
+    ``refractive index of air`` (Type B; ``opd_scale`` ``"encoder"`` or ``"constant-speed"``)
+        With a geometric OPD scale (x = 2 × mirror position) the source's phase is
+        2π·n(λ)·x/λ, so its vacuum wavelength needs the **absolute** index of air:
+        ``air_ratio_rel_u`` is then u(n)/n (about 1 ppm per kelvin, 2.7 ppm per kPa).
     ``alignment (cosine error)`` (Type B, one-sided)
         A beam at angle θ to the mirror travel sees the path ``x·cos θ``. If the source beam
         is tilted and the reference is not, the measured wavelength is **too long** by a
@@ -401,12 +419,31 @@ def wavelength_budget(
         The effect is uniform on ``[0, a]`` (:func:`one_sided_rectangular`): the returned
         centre is corrected by ``−a/2`` (relative), i.e. ``λ·(1 − a/2)``, to the middle of the
         interval, and the component is ``λ·|a|/√12``.
+    ``alignment (cosine/Abbe error)`` (Type B, one-sided; ``opd_scale="encoder"``)
+        The same allowance for an encoder: a scale tilted by θ against the beam reads the
+        travel as d/cos θ (the result too long by up to ``a``; or d·cos θ, too short), and an
+        Abbe error of one sign (a pitch that grows steadily along the travel, times the offset
+        between the scale and the beam) is also a scale error of one sign. A two-sided Abbe
+        error belongs in the encoder's scale uncertainty instead.
     ``extra``
         Further components already in nm (for example the field-of-view residual after the
-        Jacquinot correction of :mod:`ftsource.instrument`), appended as given.
+        Jacquinot correction of :mod:`ftsource.instrument`, or the encoder's scale), appended
+        as given.
 
-    Components whose uncertainty is zero are left out of the budget (air ratio in vacuum, no
-    alignment allowance).
+    Components whose uncertainty is zero are left out of the budget (air index in vacuum),
+    except the reference wavelength of a reference-laser scale and the alignment component,
+    which is named with u = 0 and a note when no allowance was given (not for an assumed
+    constant speed, whose own uncertainty dwarfs it).
+
+    Parameters
+    ----------
+    alignment_note : str, optional
+        The note of the zero alignment component when no allowance is given (default: says
+        none was given), e.g. that a rig calibration holds it.
+    opd_scale : {"reference", "encoder", "constant-speed"}
+        What sets the OPD scale (:data:`OPD_SCALES`). Without a reference laser there is no
+        ``reference wavelength`` component (``reference_rel_u`` must be 0) and the air
+        component is the absolute index, not a ratio.
 
     Returns
     -------
@@ -429,6 +466,16 @@ def wavelength_budget(
             f"alignment_allowance_rel = {a:g} is not allowed; it is a small relative allowance "
             "(|a| < 0.1, typically 1e-7 to 1e-4)"
         )
+    if opd_scale not in OPD_SCALES:
+        raise OptionError(
+            f"opd_scale = {opd_scale!r} is not known; use one of {', '.join(OPD_SCALES)}"
+        )
+    laser = opd_scale == "reference"
+    if not laser and ref > 0:
+        raise OptionError(
+            f"reference_rel_u = {ref:g} is not allowed with opd_scale = {opd_scale!r}: there is "
+            "no reference laser; give the scale's own uncertainty as an extra component"
+        )
     corr, u_align = one_sided_rectangular(a)
     corrected = lam * (1.0 - corr)
 
@@ -437,23 +484,45 @@ def wavelength_budget(
             "line fit", u_fit, nu_fit, "A",
             f"statistical uncertainty of the fitted centre, {nu_fit:g} degrees of freedom",
         ),
-        Component.from_input(
+    ]
+    if laser:
+        comps.append(Component.from_input(
             "reference wavelength", ref, corrected, kind="B",
             note=f"relative standard uncertainty {ref:.3g} of the reference vacuum wavelength",
-        ),
-    ]
-    if air > 0:
+        ))
+    if air > 0 and laser:
         comps.append(
             Component.from_input(
                 "refractive-index ratio", air, corrected, kind="B",
                 note=f"relative standard uncertainty {air:.3g} of n(source)/n(reference)",
             )
         )
+    elif air > 0:
+        comps.append(
+            Component.from_input(
+                "refractive index of air", air, corrected, kind="B",
+                note=(
+                    f"relative standard uncertainty {air:.3g} of the absolute index n(source) "
+                    "of air: the OPD scale is geometric, x = 2 × mirror position"
+                ),
+            )
+        )
+    what = "cosine/Abbe error" if opd_scale == "encoder" else "cosine error"
+    if a == 0 and opd_scale != "constant-speed":
+        # named even when no allowance was given: the budget says what it leaves out
+        comps.append(Component(
+            f"alignment ({what})", 0.0, kind="B",
+            note=alignment_note or (
+                "no allowance given (--alignment-allowance): a reference beam or encoder tilted "
+                "by θ against the mirror's travel reads every wavelength about θ²/2 short; a "
+                "rig calibration (--calibration) removes it"
+            ),
+        ))
     if a != 0:
         side = "long" if a > 0 else "short"
         comps.append(
             Component.from_input(
-                "alignment (cosine error)", u_align, corrected, kind="B",
+                f"alignment ({what})", u_align, corrected, kind="B",
                 note=(
                     f"one-sided: measured up to {abs(a):.3g} (relative) too {side}; "
                     f"corrected by half of it, u = |a|/sqrt(12)"

@@ -54,7 +54,7 @@ def test_budget_names_the_encoder_scale_and_the_absolute_index():
     r = analyze(sim.record, opts).to_dict()
     names = {c["name"] for c in r["uncertainty"]["components"]}
     assert "encoder scale" in names
-    assert "refractive-index ratio" in names  # here the absolute index (geometric scale)
+    assert "refractive index of air" in names  # here the absolute index (geometric scale)
     assert any("alignment" in n for n in names)
     # OPD = 2·n(λ)·position: the vacuum wavelength comes back within the budget
     assert abs(r["summary"]["centre_wavelength_nm"] - 650.0) < r["summary"]["expanded_uncertainty_nm"]

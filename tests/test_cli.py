@@ -147,9 +147,33 @@ def test_bad_option_values(capsys, record_file, tmp_path, extra, fragment):
     assert not out_dir.exists()
 
 
-def test_reference_uncertainty_as_length_needs_the_wavelength(capsys, record_file):
-    status, _out, err = run(capsys, ["analyze", record_file, "--reference-uncertainty", "1pm"])
-    assert_clean_error(status, err, "given as a length needs --reference-wavelength")
+def test_reference_uncertainty_as_length_needs_the_wavelength(capsys, tmp_path):
+    from dataclasses import replace
+
+    rec = sim.simulate(sim.laser(650.0),
+                       sim.Scan(sample_rate_hz=FS, duration_s=0.5, sweep_rate_hz=2.0),
+                       rng=3).record
+    path = tmp_path / "bare.npz"
+    write_record_npz(path, replace(rec, metadata={"sample_rate": f"{FS} Hz"}))
+    status, _out, err = run(capsys, ["analyze", path, "--reference-uncertainty", "1pm"])
+    assert_clean_error(status, err, "the reference wavelength is unknown")
+
+
+def test_reference_uncertainty_as_length_uses_the_metadata_wavelength(capsys, tmp_path):
+    # 1 pm of a 632.991 nm reference is 1e-3/632.991 = 1.5798 ppm (closed form)
+    from dataclasses import replace
+
+    rec = sim.simulate(sim.laser(650.0),
+                       sim.Scan(sample_rate_hz=FS, duration_s=0.5, sweep_rate_hz=2.0),
+                       rng=3).record
+    path = tmp_path / "meta.npz"
+    write_record_npz(path, replace(rec, metadata={"reference_wavelength": "632.991 nm"}))
+    status, out, err = run(capsys, ["analyze", path, "--reference-uncertainty", "1pm",
+                                    "--medium", "vacuum", "--json"])
+    assert status == 0, err
+    d = json.loads(out)
+    assert d["input"]["reference_uncertainty_ppm"] == pytest.approx(1e-3 / 632.991 * 1e6,
+                                                                    rel=1e-12)
 
 
 def test_wav_with_zero_rate_header_reads_with_sample_rate_option(tmp_path, capsys, record_file):

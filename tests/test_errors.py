@@ -22,6 +22,7 @@ from __future__ import annotations
 
 import json
 import os
+import re
 import struct
 from pathlib import Path
 
@@ -334,10 +335,12 @@ def c_single_noise(d, base, single):
 
 
 def c_quadrature_all_dropped(d, base, single):
+    # the reference is dark for 0.49 s of the 0.5 s record: 98 % (the simulator's truth)
     rec = sim.simulate(sim.laser(650.0), _scan(),
                        sim.ReferenceChannel(dropouts=((0.0, 0.49),)), rng=1).record
     write_record_npz(d / "dark.npz", rec)
-    return [d / "dark.npz", *REF], "dark.npz: the quadrature reference"
+    return ([d / "dark.npz", *REF],
+            "dark.npz: the quadrature reference has no fringes in 98% of the record")
 
 
 def c_mono_wav(d, base, single):
@@ -513,6 +516,61 @@ wavelength response
 CATALOGUE = [v for k, v in sorted(globals().items()) if k.startswith("c_")]
 
 
+# --------------------------------------------------------------------------------------------
+# the users' side: docs/errors.md shows each message in full (issue 8: "the exact message users
+# get"); a file name in the docs' examples (x.csv, cal.json, r.ecsv) stands for any file of that
+# form, and `…` for values that differ from record to record
+
+DOCS = Path(__file__).parents[1] / "docs" / "errors.md"
+_DOC_ROW = re.compile(r"^\| `(\w+)` \| `([^`]*)` \|", re.MULTILINE)  # | `id` | `message` |
+_DOC_WILD = re.compile(r"…|\b[\w-]+(\.(?:csv|tsv|txt|dat|npz|wav|xlsx|json|ecsv))\b")
+
+
+def doc_pattern(documented: str) -> re.Pattern:
+    """A documented message as a pattern: file names and ``…`` are wildcards, all else literal."""
+    parts, pos = [], 0
+    for m in _DOC_WILD.finditer(documented):
+        parts.append(re.escape(documented[pos:m.start()]))
+        parts.append(".+?" if m.group() == "…" else r"[^\s/]+" + re.escape(m.group(1)))
+        pos = m.end()
+    parts.append(re.escape(documented[pos:]))
+    return re.compile("".join(parts), re.DOTALL)
+
+
+def documented_messages() -> dict[str, str]:
+    """``{case id: message}`` from the catalogue tables of docs/errors.md."""
+    rows: dict[str, str] = {}
+    for m in _DOC_ROW.finditer(DOCS.read_text(encoding="utf-8")):
+        assert m[1] not in rows, f"`{m[1]}` has two rows in docs/errors.md"
+        rows[m[1]] = m[2]
+    return rows
+
+
+def documented_warnings() -> list[str]:
+    """The warnings quoted in docs/errors.md's part on damaged records that still give a result
+    (a code span wrapped over two lines reads as one line, as Markdown renders it)."""
+    doc = DOCS.read_text(encoding="utf-8")
+    part = doc.split("## Damaged records that still give a result", 1)[1].split("\n## ", 1)[0]
+    return [" ".join(span.split()) for span in re.findall(r"`([^`]+)`", part)]
+
+
+def assert_documented(name, err, folder):
+    """The line the user saw is, word for word, the one docs/errors.md shows for case ``name``
+    (the test's folder is cut from file paths: the docs show file names only)."""
+    shown = err.rstrip("\n").replace(f"{folder}{os.sep}", "")
+    documented = documented_messages()[name]
+    assert doc_pattern(documented).fullmatch(shown), (
+        f"docs/errors.md row `{name}` says\n  {documented}\nbut users get\n  {shown}"
+    )
+
+
+def assert_warning_documented(warning):
+    assert any(doc_pattern(w).fullmatch(warning) for w in documented_warnings()), (
+        f"warning not quoted in docs/errors.md (damaged records that still give a result): "
+        f"{warning!r}"
+    )
+
+
 @pytest.mark.parametrize("case", CATALOGUE, ids=lambda f: f.__name__[2:])
 def test_catalogue_earlier_results_untouched(case, tmp_path, capsys, base, single):
     """Each broken input: one clean error line; earlier results in --out stay as they were."""
@@ -524,6 +582,7 @@ def test_catalogue_earlier_results_untouched(case, tmp_path, capsys, base, singl
     before = tree(out_dir)
     status, out, err = run(capsys, ["analyze", *argv, "--out", out_dir, "--overwrite", "--json"])
     assert_clean_error(status, err, fragment)
+    assert_documented(case.__name__[2:], err, tmp_path)
     assert out == ""
     assert tree(out_dir) == before
 
@@ -534,18 +593,35 @@ def test_catalogue_no_output_folder_made(case, tmp_path, capsys, base, single):
     out_dir = tmp_path / "new" / "results"
     status, out, err = run(capsys, ["analyze", *argv, "--out", out_dir])
     assert_clean_error(status, err, fragment)
+    assert_documented(case.__name__[2:], err, tmp_path)
     assert not (tmp_path / "new").exists()
 
 
 def test_catalogue_is_documented():
-    """Every fragment of the catalogue appears in docs/errors.md (the users' side of it)."""
-    doc = (Path(__file__).parents[1] / "docs" / "errors.md").read_text(encoding="utf-8")
-    missing = []
-    for case in CATALOGUE:
-        name = case.__name__[2:]
-        if f"`{name}`" not in doc:
-            missing.append(name)
-    assert not missing, f"cases not in docs/errors.md: {missing}"
+    """Every case has its row in docs/errors.md, showing one whole `error:` line: nothing cut
+    short with '...' (only `…` stands for values, and the catalogue tests above check the
+    rest of each row word for word against what the command line prints)."""
+    rows = documented_messages()
+    missing = [case.__name__[2:] for case in CATALOGUE if case.__name__[2:] not in rows]
+    assert not missing, f"cases without a row in docs/errors.md: {missing}"
+    for name, message in rows.items():
+        assert message.startswith("error: ") and "\n" not in message, (name, message)
+        assert "..." not in message.replace("signal=..., ref=...", ""), (name, message)
+
+
+def test_documented_message_pattern_is_strict():
+    """The docs-to-message comparison passes the same line and fails on any other."""
+    p = doc_pattern("error: x.csv: line … holds NUL bytes; this is not a text table")
+    assert p.fullmatch("error: nul.csv: line 2 holds NUL bytes; this is not a text table")
+    for other in (
+        "error: nul.npz: line 2 holds NUL bytes; this is not a text table",  # another form
+        "error: nul.csv: line 2 holds NUL bytes; this is not a text table!",  # text added
+        "error: nul.csv: line 2 holds NUL bytes",  # text missing
+        "error: sub/nul.csv: line 2 holds NUL bytes; this is not a text table",  # a folder
+        "error: nul.csv: line 2 holds nul bytes; this is not a text table",  # case differs
+        "error: nul.csv: line  holds NUL bytes; this is not a text table",  # no value
+    ):
+        assert not p.fullmatch(other), other
 
 
 # --------------------------------------------------------------------------------------------
@@ -639,7 +715,9 @@ def test_clipped_detector_gives_result_with_clipping_warning(tmp_path, capsys):
     write_record_npz(tmp_path / "clip.npz", rec)
     d = _analyze_json(capsys, [tmp_path / "clip.npz", *REF])
     assert d["health"]["clipped_fraction"] > 1e-3
-    assert any("clipping" in w for w in d["warnings"]), d["warnings"]
+    clipping = [w for w in d["warnings"] if "clipping" in w]
+    assert len(clipping) == 1, d["warnings"]
+    assert_warning_documented(clipping[0])
     # the line itself is still found (truth 650 nm; tolerance: one resolution element)
     wl = d["summary"]["centre_wavelength_nm"]
     assert abs(wl - 650.0) < d["instrument"]["resolution_nm"]
@@ -652,17 +730,26 @@ def test_wav_clipped_at_full_scale_gives_clipping_warning(tmp_path, capsys, base
                      {"signal": cols["signal"] * 0.9 - 0.4, "ref": cols["ref_i"] / 2}, FS,
                      clip=True)
     d = _analyze_json(capsys, [tmp_path / "hot.wav", *REF])
-    assert any("clipping" in w for w in d["warnings"]), d["warnings"]
+    clipping = [w for w in d["warnings"] if "clipping" in w]
+    assert len(clipping) == 1, d["warnings"]
+    assert_warning_documented(clipping[0])
 
 
 def test_reference_dropout_leaves_a_result_from_the_rest(tmp_path, capsys):
     """The reference beam blocked for 0.1 s of 0.5 s: the sweeps outside it still give the
-    line (truth 650 nm, within one resolution element), and the dropout is counted."""
+    line (truth 650 nm, within one resolution element), and the dropout is counted and named
+    in a warning, word for word as docs/errors.md quotes it."""
     rec = sim.simulate(sim.laser(650.0), _scan(),
                        sim.ReferenceChannel(dropouts=((0.2, 0.1),)), rng=1).record
     write_record_npz(tmp_path / "drop.npz", rec)
     d = _analyze_json(capsys, [tmp_path / "drop.npz", *REF])
-    assert d["health"]["dropouts"] >= 1
+    assert d["health"]["dropouts"] == 1  # one blocked stretch, well inside the record
+    warning = (
+        "the reference dropped out 1 time(s): the record was split there and only the "
+        "stretches with fringes were used; check the reference beam's alignment and detector"
+    )
+    assert warning in d["warnings"], d["warnings"]
+    assert_warning_documented(warning)
     assert d["processing"]["n_sweeps_used"] >= 1
     wl = d["summary"]["centre_wavelength_nm"]
     assert abs(wl - 650.0) < d["instrument"]["resolution_nm"]

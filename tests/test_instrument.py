@@ -138,3 +138,61 @@ def test_errors(call, words):
         call()
     for word in words:
         assert word in str(info.value)
+
+
+# --------------------------------------------------------------------------------------------
+# end to end: an extended source through a field stop (Jacquinot 1954)
+#
+# An LED filling a field stop of diameter d behind a collimator of focal length f is seen at
+# σ' = σ(1 − Ω/4π), Ω ≈ π d²/(4 f²) (the shift checked against the cone integral above). The
+# simulated record holds that apparent spectrum: the same LED shape scaled in wavenumber, so
+# its true figures are the apparent ones × (1 − Ω/4π) exactly.
+
+D_STOP, F_COLL = 0.010, 0.050  # m: Ω = 0.0314 sr, Ω/4π = 2.5e-3 (a large, visible shift)
+
+
+def _fov_analysis(source, **opts):
+    from ftsource import simulate as S
+    from ftsource.pipeline import AnalysisOptions, analyze
+
+    sim = S.simulate(source, S.Scan(sample_rate_hz=100_000, duration_s=0.5, opd_centre_cm=0.0,
+                                    opd_amplitude_cm=0.02, sweep_rate_hz=4.0),
+                     S.ReferenceChannel(), S.Detector(noise_rms=0.001), rng=5)
+    return analyze(sim.record, AnalysisOptions(reference_wavelength_nm=632.991, medium="vacuum",
+                                               **opts)).to_dict()
+
+
+def test_led_through_a_field_stop_is_corrected():
+    from ftsource import simulate as S
+    from ftsource.broadband import broadband_metrics
+
+    eps = 1 - 1 / field_of_view_correction(1.0, field_solid_angle(D_STOP, F_COLL))
+    # the exact cone, Ω = 2π(1 − cos θ) with tan θ = d/2f (≈ π d²/4f² for a small stop)
+    omega = 2 * np.pi * (1 - np.cos(np.arctan(D_STOP / (2 * F_COLL))))
+    assert eps == pytest.approx(omega / (4 * np.pi), rel=1e-12)
+    apparent = S.led(590.0 / (1 - eps), 20.0 / (1 - eps))
+    true = S.led(590.0, 20.0)
+    sig = np.linspace(1e7 / 680.0, 1e7 / 500.0, 200_001)
+    truth = broadband_metrics(1e7 / sig, true.density(sig) * sig**2 / 1e7, None,
+                              n_monte_carlo=0)
+    raw = _fov_analysis(apparent)["summary"]
+    # uncorrected: 2.5e-3 long, 1.48 nm at 590 nm
+    assert raw["centroid_wavelength_nm"] == pytest.approx(truth.centroid_nm / (1 - eps), abs=0.1)
+    d = _fov_analysis(apparent, aperture_diameter_m=D_STOP, focal_length_m=F_COLL)
+    s = d["summary"]
+    assert abs(s["centroid_wavelength_nm"] - truth.centroid_nm) < 0.1
+    assert abs(s["centre_wavelength_nm"] - truth.centroid_nm) < 0.1
+    assert any("corrected for the field of view" in w for w in d["warnings"])
+    comp = {c["name"]: c for c in d["uncertainty"]["components"]}
+    # half the correction, rectangular: u = λ·(Ω/4π)/(1 − Ω/4π)/(2√3)
+    assert comp["field of view"]["u_nm"] == pytest.approx(
+        s["centre_wavelength_nm"] * eps / (1 - eps) / (2 * np.sqrt(3)), rel=2e-3)
+
+
+def test_laser_through_a_field_stop_is_not_corrected():
+    from ftsource import simulate as S
+
+    d = _fov_analysis(S.laser(650.0), aperture_diameter_m=D_STOP, focal_length_m=F_COLL)
+    assert any("not to a laser beam" in w for w in d["warnings"])
+    assert d["summary"]["centre_wavelength_nm"] == pytest.approx(650.0, abs=1e-3)
+    assert "field of view" not in {c["name"] for c in d["uncertainty"]["components"]}

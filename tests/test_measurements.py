@@ -188,6 +188,27 @@ def test_coherence_length_of_a_resolved_line(profile, factor):
     # the visibility route measures the same L_c from the fringes (Born & Wolf §7.5.8)
     assert sm["coherence_length_visibility_mm"] == pytest.approx(expected_mm, rel=0.03)
     assert sm["coherence_length_lower_bound_mm"] is None
+    # each route carries its uncertainty and definition; they agree, so no warning
+    assert 0 < sm["u_coherence_length_mm"] < 0.03 * sm["coherence_length_mm"]
+    assert sm["u_coherence_length_visibility_mm"] > 0
+    assert "visibility" in sm["coherence_length_visibility_definition"].lower()
+    assert sm["coherence_length_definition"].startswith("L_c = integral of |gamma(x)|^2")
+    assert not any("disagree" in w for w in d["warnings"])
+
+
+def test_coherence_disagreement_rule():
+    from ftsource.result import coherence_disagreement
+
+    # 2·√(u₁² + u₂²) = 2·√(0.3² + 0.4²) = 1.0 mm, above the 10 % floor of 5 mm × 0.1
+    assert coherence_disagreement(5.0, 0.3, 6.0, 0.4) is None  # exactly 2 u: agree
+    assert coherence_disagreement(5.0, 0.3, 6.01, 0.4) is not None
+    # small uncertainties: the 10 % floor decides
+    assert coherence_disagreement(5.0, 0.01, 5.49, 0.01) is None
+    msg = coherence_disagreement(5.0, 0.01, 5.6, 0.01)
+    assert msg and "5 mm" in msg and "5.6 mm" in msg
+    # missing values: nothing to compare
+    assert coherence_disagreement(None, None, 5.0, 0.1) is None
+    assert coherence_disagreement(5.0, None, float("nan"), None) is None
 
 
 # ------------------------------------------------------------------------------------------

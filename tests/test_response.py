@@ -13,6 +13,7 @@ Sources:
 from __future__ import annotations
 
 import os
+import re
 import warnings
 
 import astropy.units as u
@@ -226,6 +227,61 @@ def test_noise_propagation_closed_form(lamp_curve):
     np.testing.assert_allclose(dc, d / r, rtol=1e-15)
     np.testing.assert_allclose(nc, np.hypot(n / r, d * ur / r**2), rtol=1e-15)
     assert cover.all()
+
+
+def test_correct_band_whole_or_not_at_all(lamp_curve):
+    # inside: closed form d/r and the statistical noise n/r only (the response's own u is a
+    # correlated shape error, evaluated by response_shape_uncertainty)
+    s = np.arange(12000.0, 16000.0, 2.0)
+    d = np.exp(-0.5 * ((s - 14000.0) / 200.0) ** 2)
+    n = np.full(s.shape, 1e-4)
+    dc, nc, applied, msgs = R.correct_band(s, d, n, lamp_curve)
+    assert applied and msgs == []
+    np.testing.assert_allclose(dc, d / lamp_curve.at(s), rtol=1e-15)
+    np.testing.assert_allclose(nc, n / lamp_curve.at(s), rtol=1e-15)
+    # across the band's upper edge: half the power outside (symmetry, closed form) > 0.1 %,
+    # so nothing is corrected and the message says why
+    hi = lamp_curve.valid_band_per_cm[1]
+    s2 = np.arange(hi - 2000.0, hi + 2000.0, 2.0)
+    d2 = np.exp(-0.5 * ((s2 - hi) / 200.0) ** 2)
+    dc2, nc2, applied2, msgs2 = R.correct_band(s2, d2, n[: s2.size], lamp_curve)
+    assert not applied2
+    np.testing.assert_array_equal(dc2, d2)
+    np.testing.assert_array_equal(nc2, n[: s2.size])
+    assert len(msgs2) == 1  # about 50 % (the edge falls between grid points)
+    assert re.search(r" (49\.[5-9]|50(\.[0-4])?) % of the band's measured power", msgs2[0])
+    assert "detector-weighted" in msgs2[0]
+    with pytest.raises(OptionError, match="max_outside"):
+        R.correct_band(s, d, n, lamp_curve, max_outside=1.5)
+
+
+def test_response_shape_uncertainty_closed_form():
+    # closed form: density N(σc, s²) in σ, flat response r = 1 with constant u = c; figure =
+    # centroid in σ. The shift r ± c leaves it unchanged; the tilt r ± c·clip(x/w) moves it by
+    # ∓c·E[x·clip(x/w, −1, 1)] + O(c³) (half the difference of the two signs), with
+    # E = (s²/w)(erf(a/√2) − 2aφ(a)) + 2sφ(a), a = w/s (truncated-normal moments).
+    from scipy.special import erf
+    from scipy.stats import norm
+
+    sc, s_g, w, c = 15000.0, 80.0, 150.0, 0.01
+    sigma = np.arange(sc - 1500.0, sc + 1500.0, 0.25)
+    d = np.exp(-0.5 * ((sigma - sc) / s_g) ** 2)
+    curve = R.ResponseCurve(sigma, np.ones(sigma.size), np.full(sigma.size, c),
+                            (sigma[0], sigma[-1]), "flat")
+
+    def figures(sg, dens):
+        return (np.sum(sg * dens) / np.sum(dens), np.sum(dens))
+
+    u = R.response_shape_uncertainty(sigma, d, curve, figures, centre_per_cm=sc,
+                                     width_per_cm=w)
+    a = w / s_g
+    expected = c * ((s_g**2 / w) * (erf(a / np.sqrt(2)) - 2 * a * norm.pdf(a))
+                    + 2 * s_g * norm.pdf(a))
+    assert u[0] == pytest.approx(expected, rel=1e-3)
+    # the integral: the shift changes it by ∓c/(1 ± c) of itself (closed form), the tilt by
+    # O(c²) only (odd in x)
+    total = np.sum(d)
+    assert u[1] == pytest.approx(total * 0.5 * (1 / (1 - c) - 1 / (1 + c)), rel=1e-3)
 
 
 def test_at_is_nan_outside_band(lamp_curve):

@@ -10,9 +10,9 @@ import pytest
 
 from ftsource import simulate as S
 from ftsource.calibration import load_calibration, save_calibration
+from ftsource.errors import AnalysisError
 from ftsource.pipeline import AnalysisOptions, analyze
 from ftsource.rig import calibrate_rig
-from ftsource.errors import AnalysisError
 
 NOMINAL = 632.991
 TRUE_REF = 632.99185  # 1.34 ppm longer than nominal: the bias a calibration must remove
@@ -68,3 +68,93 @@ def test_calibration_refuses_a_record_without_a_line():
         calibrate_rig(sim.record, AnalysisOptions(reference_wavelength_nm=NOMINAL,
                                                   medium="vacuum"), KNOWN, 0.0)
     assert np.isfinite(KNOWN)
+
+
+# --------------------------------------------------------------------------------------------
+# rigs without a reference laser: the calibration rescales the encoder or the assumed speed
+
+
+LINEAR = S.Scan(duration_s=1.0, opd_centre_cm=0.2, opd_amplitude_cm=0.1, sweep_rate_hz=0.1,
+                shape=0.999, speed_jitter=0.0, start_phase_rad=-0.3)
+#: Mirror speed of that scan, m/s: half its OPD speed (Scan.peak_opd_speed_cm_s, closed form
+#: tested in test_simulate.py); over |θ| ≤ 0.33 rad the speed stays within 1e-4 of it.
+MIRROR_SPEED = LINEAR.peak_opd_speed_cm_s / 2 / 100
+
+
+def _linear_scan(wl, seed, kind):
+    """One steady sweep: θ from −0.3 to +0.33 rad of a near-triangle (k = 0.999), where
+    dd/dθ ∝ k cos θ/√(1 − k² sin² θ) = k(1 − (1 − k²)θ²/2 + …) is constant to 1e-4."""
+    return S.simulate(
+        S.laser(wl), LINEAR, S.ReferenceChannel(kind=kind), S.Detector(noise_rms=0.003),
+        rng=seed,
+    ).record
+
+
+def test_constant_speed_rig_calibrated_from_a_known_line(tmp_path):
+    # the user's guess of the speed is 3 % high: every wavelength comes out 3 % long
+    guess = MIRROR_SPEED * 1.03
+    opts = AnalysisOptions(mirror_speed_m_s=guess, medium="vacuum")
+    raw = analyze(_linear_scan(650.0, 5, "none"), opts).summary
+    assert raw["centre_wavelength_nm"] == pytest.approx(650.0 * 1.03, rel=2e-3)
+    cal, _ = calibrate_rig(_linear_scan(KNOWN, 6, "none"), opts, KNOWN, 1e-6)
+    assert cal.opd_scale == "constant-speed"
+    # closed form: the speed scale is λ_known/λ_measured ≈ 1/1.03 (to the sweep's linearity)
+    assert cal.scale == pytest.approx(1 / 1.03, rel=2e-3)
+    path = tmp_path / "rig.json"
+    save_calibration(path, cal)
+    cal2 = load_calibration(path)
+    assert cal2 == cal
+    r = analyze(_linear_scan(650.0, 7, "none"), AnalysisOptions(
+        mirror_speed_m_s=guess, medium="vacuum", calibration=cal2)).to_dict()
+    s = r["summary"]
+    assert abs(s["centre_wavelength_nm"] - 650.0) <= s["expanded_uncertainty_nm"]
+    names = [c["name"] for c in r["uncertainty"]["components"]]
+    assert "rig calibration" in names and "assumed mirror speed" not in names
+    assert any("calibrated here from a known line" in w for w in r["warnings"])
+
+
+def test_encoder_rig_calibrated_from_a_known_line():
+    # an encoder whose scale is 200 ppm off: the record's position column is 1.0002× the truth
+    from dataclasses import replace
+
+    def rec(wl, seed):
+        r = _linear_scan(wl, seed, "encoder")
+        return replace(r, columns={**r.columns, "position": r.columns["position"] * 1.0002})
+
+    opts = AnalysisOptions(medium="vacuum")
+    raw = analyze(rec(650.0, 8), opts).summary
+    assert raw["centre_wavelength_nm"] == pytest.approx(650.0 * 1.0002, rel=2e-5)
+    cal, _ = calibrate_rig(rec(KNOWN, 9), opts, KNOWN, 1e-6)
+    assert cal.opd_scale == "encoder"
+    assert cal.scale == pytest.approx(1 / 1.0002, rel=2e-5)
+    s = analyze(rec(650.0, 10), AnalysisOptions(medium="vacuum", calibration=cal)).summary
+    assert abs(s["centre_wavelength_nm"] - 650.0) <= s["expanded_uncertainty_nm"]
+
+
+def test_calibration_of_another_kind_of_rig_is_refused():
+    from ftsource.errors import OptionError
+
+    opts = AnalysisOptions(mirror_speed_m_s=MIRROR_SPEED, medium="vacuum")
+    cal, _ = calibrate_rig(_linear_scan(KNOWN, 11, "none"), opts, KNOWN, 1e-6)
+    with pytest.raises(OptionError, match="calibrate with a record of the same kind"):
+        analyze(_record(650.0, 12), AnalysisOptions(reference_wavelength_nm=NOMINAL,
+                                                    medium="vacuum", calibration=cal))
+
+
+def test_calibration_file_without_opd_scale_is_a_reference_calibration(tmp_path):
+    import json
+
+    from ftsource.calibration import calibrate_reference
+
+    cal = calibrate_reference(650.0001, 1e-5, 650.0, 1e-6, NOMINAL, 1.5e-6)
+    doc = cal.to_dict()
+    del doc["opd_scale"]  # as written before the key existed
+    path = tmp_path / "old.json"
+    path.write_text(json.dumps(doc), encoding="utf-8")
+    assert load_calibration(path).opd_scale == "reference"
+    doc["opd_scale"] = "guesswork"
+    path.write_text(json.dumps(doc), encoding="utf-8")
+    from ftsource.errors import OptionError
+
+    with pytest.raises(OptionError, match="opd_scale"):
+        load_calibration(path)

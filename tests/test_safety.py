@@ -97,3 +97,36 @@ def test_bad_wavelength_raises(bad):
     with pytest.raises(OptionError, match="wavelength_nm") as info:
         green_pointer_warning(bad)
     assert isinstance(info.value, FtsourceError)
+
+
+# --------------------------------------------------------------------------------------------
+# end to end: the caution, or the infrared actually found (NIST TN 1668: DPSS green pointers
+# can emit 808 nm pump and 1064 nm fundamental light)
+
+
+def _green_result(ir_strength):
+    from ftsource import simulate as S
+    from ftsource.pipeline import AnalysisOptions, analyze
+
+    lines = [S.SpectralLine(1e7 / 532.0, 1.0)]
+    if ir_strength:
+        lines.append(S.SpectralLine(1e7 / 1064.0, ir_strength))
+    sim = S.simulate(S.SourceModel(tuple(lines), label="invented"),
+                     S.Scan(duration_s=0.6, opd_centre_cm=0.05, opd_amplitude_cm=0.03),
+                     S.ReferenceChannel(), S.Detector(noise_rms=0.002), rng=21)
+    return analyze(sim.record, AnalysisOptions(reference_wavelength_nm=632.991,
+                                               medium="vacuum")).to_dict()
+
+
+def test_green_line_alone_gets_the_caution():
+    d = _green_result(0.0)
+    assert GREEN_POINTER_WARNING in d["warnings"]
+    assert not any(w.startswith("INFRARED FOUND") for w in d["warnings"])
+
+
+def test_green_line_with_1064_nm_names_the_infrared_instead():
+    d = _green_result(0.3)
+    found = [w for w in d["warnings"] if w.startswith("INFRARED FOUND")]
+    assert found and "1064.0" in found[0]
+    # not both "cannot rule out" and "found": the found one replaces the caution
+    assert GREEN_POINTER_WARNING not in d["warnings"]

@@ -282,9 +282,17 @@ def test_wavelength_budget_omits_zero_components_and_appends_extra():
         800.0, u_fit_nm=1e-4, dof_fit=5, reference_rel_u=1e-7, extra=extra
     )
     assert corrected == 800.0
+    # the air index in vacuum is left out; the alignment is named with u = 0 and a note
     assert [c.name for c in b.components] == [
-        "line fit", "reference wavelength", "field of view residual",
+        "line fit", "reference wavelength", "alignment (cosine error)", "field of view residual",
     ]
+    align = b.components[2]
+    assert align.u == 0.0 and "no allowance given" in align.note
+    assert b.combined == pytest.approx(math.sqrt(1e-4**2 + (800 * 1e-7) ** 2 + 2e-5**2))
+    # an assumed constant speed has no alignment entry
+    _, b2 = wavelength_budget(800.0, u_fit_nm=1e-4, dof_fit=5, reference_rel_u=0.0,
+                              opd_scale="constant-speed")
+    assert [c.name for c in b2.components] == ["line fit"]
 
 
 def test_wavelength_budget_cosine_error_model():
