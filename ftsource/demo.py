@@ -32,7 +32,9 @@ def demo_records() -> tuple[str, list[dict]]:
     try:
         manifest = json.loads((d / "demo.json").read_text(encoding="utf-8"))
     except OSError as e:
-        raise FtsourceError(f"the demo data is missing ({e.strerror}); reinstall ftsource") from None
+        raise FtsourceError(
+            f"the demo data is missing ({e.strerror}); reinstall ftsource"
+        ) from None
     recs = []
     for r in manifest["records"]:
         recs.append({**r, "path": str(d / r["file"])})

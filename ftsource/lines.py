@@ -389,7 +389,8 @@ def find_lines(
             fit.success
             and np.isfinite(fit.centre_per_cm)
             and 0 < fit.peak < 2 * peak
-            and abs(fit.centre_per_cm - sig[i0]) < 2 * max(fit.instrument_fwhm_per_cm, fit.fwhm_per_cm)
+            and abs(fit.centre_per_cm - sig[i0])
+            < 2 * max(fit.instrument_fwhm_per_cm, fit.fwhm_per_cm)
             and fit.snr >= snr_threshold
             # the same line again (a residual of an imperfect subtraction) is not a new line
             and all(abs(fit.centre_per_cm - f.centre_per_cm) > 0.5 * f.instrument_fwhm_per_cm

@@ -158,7 +158,7 @@ def _runs(mask: np.ndarray) -> list[tuple[int, int]]:
     """Start/stop index pairs of the True runs of a boolean array."""
     m = np.concatenate([[False], np.asarray(mask, bool), [False]])
     d = np.diff(m.astype(np.int8))
-    return list(zip(np.flatnonzero(d == 1), np.flatnonzero(d == -1)))
+    return list(zip(np.flatnonzero(d == 1), np.flatnonzero(d == -1), strict=False))
 
 
 def _trim_runs(runs, margin: int, n: int) -> list[tuple[int, int]]:
@@ -215,7 +215,7 @@ def _split_sweeps(
 
     sweeps: list[Sweep] = []
     ids = segment_ids if segment_ids is not None else list(range(len(seg_runs)))
-    for seg, (a, b) in zip(ids, seg_runs):
+    for seg, (a, b) in zip(ids, seg_runs, strict=False):
         xs = x[a:b]
         if xs.size < 16:
             continue
@@ -280,7 +280,8 @@ def _bridge_turnarounds(mx, mn, amp, zc, period):
     Near a turnaround the fringes slow down and the running extremes no longer span a fringe,
     so the apparent amplitude falls just as in a dropout. A turnaround is preceded or followed
     by slowing fringes (level-crossing intervals above 1.5× the median, or hardly any crossings
-    within six fringe periods); a dropout cuts in at full speed on both sides. Across a turnaround the envelope is bridged linearly from its edges.
+    within six fringe periods); a dropout cuts in at full speed on both sides. Across a
+    turnaround the envelope is bridged linearly from its edges.
     """
     med = np.median(amp)
     low = _close_gaps(amp < DROPOUT_LEVEL * med, max(int(10 * period), 3))
@@ -385,7 +386,7 @@ def opd_from_quadrature(
         bad = np.flatnonzero((np.abs(d) > 0.6 * np.pi) | (np.abs(dev) > 0.2 * np.pi))
         slips += bad.size
         edges = [a] + [a + k + 1 for k in bad] + [b]
-        seg_runs += [(s, e) for s, e in zip(edges[:-1], edges[1:]) if e - s >= 64]
+        seg_runs += [(s, e) for s, e in zip(edges[:-1], edges[1:], strict=False) if e - s >= 64]
     if slips:
         warnings.append(
             f"{slips} possible fringe-count slip(s) on the reference (phase steps above 0.6π "

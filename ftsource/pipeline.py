@@ -90,7 +90,8 @@ class AnalysisOptions:
                 f"--phase-correction {self.phase_correction!r} is not known; use auto, mertz, "
                 "forman or magnitude"
             )
-        if not (np.isfinite(self.reference_uncertainty_ppm) and self.reference_uncertainty_ppm >= 0):
+        ref_u = self.reference_uncertainty_ppm
+        if not (np.isfinite(ref_u) and ref_u >= 0):
             raise OptionError("--reference-uncertainty must be a finite value ≥ 0")
         if not np.isfinite(self.alignment_allowance_ppm):
             raise OptionError("--alignment-allowance must be finite")
@@ -382,11 +383,11 @@ def analyze(record, options: AnalysisOptions | None = None, *, planner=None):
     if len(ifgs) >= 3:
         med = float(np.median(spans))
         keep = spans >= 0.5 * med
-        for ig, k in zip(ifgs, keep):
+        for ig, k in zip(ifgs, keep, strict=False):
             if not k:
                 rejected.append((ig.sweep.index, f"partial sweep: {ig.span_cm * 10:.3f} mm of OPD, "
                                  f"less than half the median {med * 10:.3f} mm"))
-        ifgs = tuple(ig for ig, k in zip(ifgs, keep) if k)
+        ifgs = tuple(ig for ig, k in zip(ifgs, keep, strict=False) if k)
     planner = planner or FFTPlanner(effort=options.fft_planning)
     n_fft = next_fft_length(options.zero_fill * max(ig.y.size for ig in ifgs))
     with _warnings.catch_warnings(record=True) as caught:
@@ -480,7 +481,8 @@ def analyze(record, options: AnalysisOptions | None = None, *, planner=None):
                 result.add_warning(w)
             for f in ir:
                 result.add_warning(
-                    f"INFRARED FOUND: a line at {f.wavelength_nm:.2f} nm (invisible) comes with the "
+                    f"INFRARED FOUND: a line at {f.wavelength_nm:.2f} nm (invisible) comes with "
+                    "the "
                     "green light — the pointer is a diode-pumped, frequency-doubled laser that "
                     "leaks pump or fundamental light; its infrared power is not measured here and "
                     "may exceed the green's: do not rely on the visible brightness"
@@ -612,7 +614,7 @@ def _sweep_outliers(spec, sweep_specs, found, notes):
     if len(vals) < 4:
         return []
     cmp = compare_sweeps(vals, us, dirs, label="centre")
-    out = [(i, r) for i, k, r in zip(idx, cmp.keep, cmp.reasons) if not k]
+    out = [(i, r) for i, k, r in zip(idx, cmp.keep, cmp.reasons, strict=False) if not k]
     if out:
         notes.add(
             f"{len(out)} sweep(s) were left out as outliers of the line centre (see "

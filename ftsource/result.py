@@ -306,9 +306,10 @@ def _band_text(band, max_ranges: int = 3) -> str:
 def _identify(wl_nm, u_fit_nm, lam_ref, options, *, source_line=True, tables=None):
     """``{"identification": ..., "nearest_entries": [...]}`` for one measured line.
 
-    ``nearest_entries`` are the (up to 3) nearest candidate entries of the bundled reference lists in vacuum
-    wavelength, nearest first, each with its difference in ppm (measured − reference, relative
-    to the reference) and whether it lies within tolerance; ``identification`` is the nearest
+    ``nearest_entries`` are the (up to 3) nearest candidate entries of the bundled reference
+    lists in vacuum wavelength, nearest first, each with its difference in ppm (measured −
+    reference, relative to the reference) and whether it lies within tolerance;
+    ``identification`` is the nearest
     of them within tolerance, or None ("no match"). The tolerance is k = 2 times the line's
     fit uncertainty combined with the reference laser's relative uncertainty and the entry's
     own stated uncertainty (:func:`ftsource.reference.identify`), so a He-Ne-referenced
@@ -696,7 +697,9 @@ def _summary(spec, source_lines, strongest, sweep_spectra, ifgs, options, path, 
                 s["half_visibility_opd_mm"] = _f(ce.half_visibility_opd_cm * 10)
                 s["coherence_length_definition"] = ce.definition
             except Exception as e:  # noqa: BLE001 - an estimate that fails is reported, not fatal
-                warnings.append(f"the coherence length could not be computed from the spectrum: {e}")
+                warnings.append(
+                    f"the coherence length could not be computed from the spectrum: {e}"
+                )
         else:
             ub = main.fwhm_upper_bound_per_cm
             s["fwhm_upper_bound_nm"] = _f(_u_nm(sig0, ub))
@@ -787,7 +790,7 @@ def _sweep_check(spec, sweep_spectra, sig0, warnings):
 def _visibility(ifgs, sweep_spectra):
     from ftsource.coherence import coherence_from_visibility
 
-    for ig, sw in zip(ifgs, sweep_spectra):
+    for ig, sw in zip(ifgs, sweep_spectra, strict=False):
         if sw.zpd_found:
             try:
                 return coherence_from_visibility(ig.x_cm, ig.y, zpd_x_cm=sw.x_zpd_cm)
@@ -799,7 +802,7 @@ def _visibility(ifgs, sweep_spectra):
 def _revivals(ifgs, comb, sweep_spectra):
     from ftsource.modes import check_revivals
 
-    for ig, sw in zip(ifgs, sweep_spectra):
+    for ig, sw in zip(ifgs, sweep_spectra, strict=False):
         if sw.zpd_found:
             try:
                 rc = check_revivals(ig.x_cm, ig.y, comb.spacing_per_cm, zpd_x_cm=sw.x_zpd_cm)

@@ -174,7 +174,9 @@ def led(
     half = np.where(lam > centre_nm, w_long, w_short)
     weight = np.exp(-_LN2 * ((lam - centre_nm) / half) ** 2)  # split normal, FWHM = w_s + w_l
     weight *= strength / weight.sum()
-    lines = tuple(SpectralLine(float(s), float(a), 2.5 * step) for s, a in zip(sig, weight))
+    lines = tuple(
+        SpectralLine(float(s), float(a), 2.5 * step) for s, a in zip(sig, weight, strict=True)
+    )
     return SourceModel(lines, label=f"LED {centre_nm:g} nm")
 
 
@@ -202,7 +204,7 @@ def multimode(
     keep = amp >= threshold
     amp = amp[keep] / amp[keep].sum() * strength
     w = s0 * mode_fwhm_nm / centre_nm
-    lines = tuple(SpectralLine(float(s), float(a), w) for s, a in zip(sig[keep], amp))
+    lines = tuple(SpectralLine(float(s), float(a), w) for s, a in zip(sig[keep], amp, strict=False))
     return SourceModel(lines, label=f"multimode {centre_nm:g} nm")
 
 
@@ -368,10 +370,11 @@ def interferogram(source: SourceModel, opd_cm: np.ndarray, index=None) -> np.nda
     for start in range(0, x.size, chunk):
         xs = x[start : start + chunk]
         acc = np.zeros_like(xs)
-        for ln, n in zip(source.lines, idx):
+        for ln, n in zip(source.lines, idx, strict=False):
             xo = n * xs
             acc += ln.strength * (
-                1.0 + ln.coherence(xo) * np.cos(2 * np.pi * ln.wavenumber_per_cm * xo + ln.phase_rad)
+                1.0
+                + ln.coherence(xo) * np.cos(2 * np.pi * ln.wavenumber_per_cm * xo + ln.phase_rad)
             )
         out[start : start + chunk] = acc
     return out
@@ -451,7 +454,9 @@ def simulate(
         if ref.kind == "quadrature":
             q = np.deg2rad(ref.quadrature_deg)
             cols["ref_i"] = ref.offsets[0] * drift + ref.gains[0] * amp * np.cos(phase)
-            cols["ref_q"] = ref.offsets[1] * drift + ref.gains[1] * amp * np.sin(phase + q - np.pi / 2)
+            cols["ref_q"] = (
+                ref.offsets[1] * drift + ref.gains[1] * amp * np.sin(phase + q - np.pi / 2)
+            )
             cols["ref_i"] = cols["ref_i"] + rng.normal(0, ref.noise_rms, n)
             cols["ref_q"] = cols["ref_q"] + rng.normal(0, ref.noise_rms, n)
         else:

@@ -90,7 +90,7 @@ class LineShape:
         out = np.zeros(d.shape)
         # sweeps of the same span share a kernel: add their weights first
         groups: dict[float, float] = {}
-        for L, w in zip(self.L_cm, self.weights):
+        for L, w in zip(self.L_cm, self.weights, strict=False):
             key = float(np.round(L, 9))
             groups[key] = groups.get(key, 0.0) + w
         for L, w in groups.items():
@@ -349,9 +349,11 @@ def _noise_floor(s: SweepSpectrum, block: int = 1024) -> np.ndarray:
     if s.method != "magnitude":
         # deviations about each block's median (a broad source lifts a whole block)
         med = np.array([np.median(np.abs(s.values[a:b] - np.median(s.values[a:b])))
-                        for a, b in zip(edges[:-1], edges[1:])]) * scale
+                        for a, b in zip(edges[:-1], edges[1:], strict=False)]) * scale
     else:
-        med = np.array([np.median(v[a:b]) for a, b in zip(edges[:-1], edges[1:])]) * scale
+        med = np.array(
+            [np.median(v[a:b]) for a, b in zip(edges[:-1], edges[1:], strict=True)]
+        ) * scale
     # white interferogram noise is flat in wavenumber: the median over blocks is robust to the
     # blocks a source occupies
     level = float(np.median(med))

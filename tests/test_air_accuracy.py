@@ -57,4 +57,5 @@ def test_budget_names_the_encoder_scale_and_the_absolute_index():
     assert "refractive index of air" in names  # here the absolute index (geometric scale)
     assert any("alignment" in n for n in names)
     # OPD = 2·n(λ)·position: the vacuum wavelength comes back within the budget
-    assert abs(r["summary"]["centre_wavelength_nm"] - 650.0) < r["summary"]["expanded_uncertainty_nm"]
+    s = r["summary"]
+    assert abs(s["centre_wavelength_nm"] - 650.0) < s["expanded_uncertainty_nm"]
