@@ -259,6 +259,44 @@ class Result:
                    warnings, spec, tuple(interferograms))
 
 
+def _broadband_sweep_scatter(spec, sweep_spectra, mask, ok, response):
+    """Standard errors of a band's peak, centroid and FWHM from their scatter over sweeps.
+
+    Each sweep's own spectrum (:func:`ftsource.spectrum.coadd` of that sweep alone) gives the
+    three figures (:func:`ftsource.broadband.broadband_metrics`, no Monte Carlo); their
+    standard error is ``std(ddof=1)/√n`` (Type A, JCGM 100:2008 §4.2), returned with ``n``.
+    None with fewer than 3 sweeps whose figures could be taken.
+    """
+    import warnings as _w
+
+    from ftsource.broadband import broadband_metrics
+    from ftsource.errors import FtsourceError, FtsourceWarning
+    from ftsource.spectrum import coadd
+
+    if len(sweep_spectra) < 3:
+        return None
+    sig = spec.sigma_per_cm[mask][ok]
+    rows = []
+    for sw in sweep_spectra:
+        one = coadd([sw], spec.sigma_per_cm, spec.line_shape.apodization)
+        d = one.density[mask][ok]
+        if response is not None:
+            d = d / response.at(sig)
+        try:
+            with _w.catch_warnings():
+                _w.simplefilter("ignore", FtsourceWarning)
+                b = broadband_metrics(1e7 / sig, d * sig**2 / 1e7, None, n_monte_carlo=0)
+        except (FtsourceError, ValueError):
+            continue
+        row = (b.peak_nm, b.centroid_nm, b.fwhm_nm)
+        if all(np.isfinite(row)):
+            rows.append(row)
+    if len(rows) < 3:
+        return None
+    a = np.asarray(rows)
+    return np.std(a, axis=0, ddof=1) / np.sqrt(len(rows)), len(rows)
+
+
 def _line_shape_corrected(bb, bb2, resolution_nm, warnings):
     """Peak and FWHM of a broad band with the instrument line shape's first-order bias removed.
 
@@ -529,6 +567,24 @@ def _summary(spec, source_lines, strongest, sweep_spectra, ifgs, options, path, 
             bb, bb2, _u_nm(sig0, spec.resolution_per_cm), warnings
         )
         u_centroid = bb.u_centroid_nm
+        dof_bb = 50.0
+        scatter = _broadband_sweep_scatter(
+            spec, sweep_spectra, m, ok, None if weighted else options.response
+        )
+        if scatter is not None:
+            # the figures' scatter between sweeps sees what the noise model leaves out (the
+            # zero-filled points' correlation, phase-correction noise, drift): the larger of
+            # the two statistical estimates is kept, with the scatter's degrees of freedom
+            # when it is the larger (docs/measurements.md)
+            (u_pk, u_ct, u_fw), n_used = scatter
+            ls_peak = math.sqrt(max(u_peak**2 - bb.u_peak_nm**2, 0.0)) if np.isfinite(u_peak) \
+                else 0.0
+            ls_fwhm = math.sqrt(max(u_fwhm**2 - bb.u_fwhm_nm**2, 0.0)) if np.isfinite(u_fwhm) \
+                else 0.0
+            u_peak = float(np.hypot(np.fmax(bb.u_peak_nm, u_pk), ls_peak))
+            u_fwhm = float(np.hypot(np.fmax(bb.u_fwhm_nm, u_fw), ls_fwhm))
+            if not (u_centroid >= u_ct):
+                u_centroid, dof_bb = u_ct, float(n_used - 1)
         if not weighted:
             # the response's shape error is correlated across the band: a separate term
             from ftsource.errors import AnalysisError
@@ -560,7 +616,7 @@ def _summary(spec, source_lines, strongest, sweep_spectra, ifgs, options, path, 
             centroid_wavelength_nm=_f(bb.centroid_nm),
             u_centroid_wavelength_nm=_f(u_centroid),
         )
-        centre_nm, u_fit_nm, dof_fit = bb.centroid_nm, u_centroid, 50.0
+        centre_nm, u_fit_nm, dof_fit = bb.centroid_nm, u_centroid, dof_bb
         s["u_fwhm_nm"] = _f(u_fwhm)
         from ftsource.colour import chromaticity_xy, dominant_wavelength_nm
 
