@@ -126,6 +126,7 @@ def find_mode_comb(
     *,
     min_fraction: float = 0.05,
     rtol: float = 0.1,
+    u_centres_per_cm: np.ndarray | None = None,
 ) -> ModeComb | None:
     """Recognise and measure an equally spaced comb of modes among fitted lines.
 
@@ -136,7 +137,10 @@ def find_mode_comb(
     between modes (a second source, a ghost) means no comb is reported. The spacing is then the
     least-squares slope of centre against integer mode number, with its standard uncertainty
     from the residual scatter (``s²/Σ(m − m̄)²``, ``s²`` the residual variance on ``n − 2``
-    degrees of freedom; 0 for a perfect comb).
+    degrees of freedom; 0 for a perfect comb). When the centres' own standard uncertainties
+    are given, the slope's uncertainty propagated from them, ``√(Σ(m − m̄)² u_i²)/Σ(m − m̄)²``
+    (weak edge modes with large u weigh most), is used when it is the larger: a residual
+    scatter on a few degrees of freedom is a poor estimate, and it averages unequal u_i.
 
     The envelope FWHM is that of a Gaussian fitted to the intensities against wavenumber by
     weighted least squares of ``ln I`` on a parabola, with weights ``I²`` (Guo 2011), exact for
@@ -155,6 +159,8 @@ def find_mode_comb(
     rtol : float, optional
         Allowed deviation of a spacing from its multiple of the base spacing, relative to the
         base spacing.
+    u_centres_per_cm : array_like, optional
+        Standard uncertainties of the centres (same order as ``centres_per_cm``).
 
     Returns
     -------
@@ -194,10 +200,18 @@ def find_mode_comb(
         raise OptionError(f"rtol must lie in (0, 0.5), got {rtol!r}")
     if c.size == 0 or not np.max(a) > 0:
         raise AnalysisError("no line has a positive intensity")
+    uc = None
+    if u_centres_per_cm is not None:
+        uc = np.asarray(u_centres_per_cm, dtype=float)
+        if uc.shape != c.shape:
+            raise AnalysisError("u_centres_per_cm must match centres_per_cm")
+        uc = np.where(np.isfinite(uc) & (uc > 0), uc, 0.0)
     keep = a >= min_fraction * np.max(a)
     c, a = c[keep], a[keep]
     order = np.argsort(c)
     c, a = c[order], a[order]
+    if uc is not None:
+        uc = uc[keep][order]
     if c.size < 3:
         return None
     d = np.diff(c)
@@ -219,6 +233,8 @@ def find_mode_comb(
     resid = c - (c.mean() + slope * mm)
     s2 = float(np.sum(resid**2) / (n - 2)) if n > 2 else 0.0
     u_slope = float(np.sqrt(s2 / sxx))
+    if uc is not None:
+        u_slope = max(u_slope, float(np.sqrt(np.sum(mm**2 * uc**2)) / sxx))
 
     centroid = float(np.sum(a * c) / np.sum(a))
     nm_per_cm1 = 1e7 / centroid**2  # dλ/dσ at the centroid, nm per cm⁻¹

@@ -499,6 +499,7 @@ def _summary(spec, source_lines, strongest, sweep_spectra, ifgs, options, path, 
         comb = find_mode_comb(
             np.array([f.centre_per_cm for f in source_lines]),
             np.array([max(f.area, 0.0) for f in source_lines]),
+            u_centres_per_cm=np.array([f.u_centre_per_cm for f in source_lines]),
         )
         if comb is not None:
             kind = "multimode"
@@ -512,8 +513,17 @@ def _summary(spec, source_lines, strongest, sweep_spectra, ifgs, options, path, 
             by_sigma.get(round(c, 6)).u_centre_per_cm if round(c, 6) in by_sigma else 0.0
             for c in comb.centres_per_cm
         ])
+        # the intensity-weighted centroid c = Σ a_i σ_i / Σ a_i moves with the modes' areas as
+        # well as their centres: ∂c/∂a_i = (σ_i − c)/Σa (JCGM 100:2008 §5.1.2, uncorrelated)
+        ua = np.array([
+            by_sigma[round(c, 6)].u_area if round(c, 6) in by_sigma else 0.0
+            for c in comb.centres_per_cm
+        ])
+        ua = np.where(np.isfinite(ua), ua, 0.0)
+        lever = (np.asarray(comb.centres_per_cm) - comb.centroid_per_cm) / np.sum(comb.intensities)
+        u_centroid_cm = float(np.sqrt(np.sum((w * us) ** 2) + np.sum((lever * ua) ** 2)))
         centre_nm = comb.centroid_nm
-        u_fit_nm = _u_nm(comb.centroid_per_cm, float(np.sqrt(np.sum((w * us) ** 2))))
+        u_fit_nm = _u_nm(comb.centroid_per_cm, u_centroid_cm)
         s["modes"] = {
             "n_modes": int(comb.n_modes),
             "spacing_nm": _f(comb.spacing_nm),
