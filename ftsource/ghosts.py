@@ -69,6 +69,11 @@ IN_BAND_MARGIN = 10.0
 #: The flags :func:`flag_ghosts` can give (besides None, a source line).
 GHOST_FLAGS = ("reference-ghost", "harmonic", "intermodulation")
 
+#: A line at the reference wavenumber that is the strongest line is a source line when no line
+#: away from the reference reaches this fraction of its strength (common practice: crosstalk
+#: is weak beside the source it leaks into).
+REFERENCE_DOMINANCE = 0.1
+
 
 def flag_ghosts(
     centres_per_cm: Sequence[float],
@@ -124,7 +129,11 @@ def flag_ghosts(
 
     1. reference ghost: ``|σ_k − σ_ref| < tol_k``, or ``|σ_k − (σ_s ± σ_ref)| < tol_k`` with s
        the strongest line or the strongest line not at σ_ref (k ≠ s); independent of clipping
-       and of strengths, as a reference ghost can be strong;
+       and of strengths, as a reference ghost can be strong. One exception: the strongest
+       line at σ_ref is kept as a source line when no line away from σ_ref reaches
+       :data:`REFERENCE_DOMINANCE` of its strength, since a source at the reference's own
+       wavelength (a He-Ne, a 633 nm diode) is then far likelier than crosstalk with nothing
+       else to see (the caller warns and says how to tell);
     2. harmonic (clipped only): ``|σ_k − m·σ_i| < tol_k`` for a source line i stronger than k
        and m = 2 … ⌊band_edge/σ_i⌋;
     3. intermodulation (clipped only): ``|σ_k − |m·σ_i ± n·σ_j|| < tol_k`` for two source lines
@@ -163,15 +172,23 @@ def flag_ghosts(
     # and the strongest one not at the reference wavenumber when that is another
     strongest = int(np.argmax(amp))
     mains = [strongest]
+    source_at_reference = False
     if reference_per_cm is not None:
         off_ref = np.flatnonzero(np.abs(sig - reference_per_cm) >= tol)
         if off_ref.size:
             mains.append(int(off_ref[np.argmax(amp[off_ref])]))
+        source_at_reference = bool(
+            abs(sig[strongest] - reference_per_cm) < tol[strongest]
+            and (off_ref.size == 0
+                 or np.max(amp[off_ref]) < REFERENCE_DOMINANCE * amp[strongest])
+        )
     sources: list[int] = []  # lines kept as source lines so far (all stronger than the current)
     for k in map(int, np.argsort(-amp, kind="stable")):
         flag = None
         if ok[k]:
-            if reference_per_cm is not None and _is_reference_ghost(
+            if k == strongest and source_at_reference:
+                pass  # the source itself sits at the reference wavelength
+            elif reference_per_cm is not None and _is_reference_ghost(
                 k, mains, sig, tol[k], reference_per_cm
             ):
                 flag = "reference-ghost"

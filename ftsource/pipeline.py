@@ -681,6 +681,16 @@ def _flag_lines(found, lam_ref, sigma_alias, kind, record, notes):
         "alias" if fl is None and f.centre_per_cm > sigma_alias else fl
         for f, fl in zip(found, flags, strict=True)
     ]
+    if lam_ref and kind in ("quadrature", "single") and found:
+        main = max(found, key=lambda f: f.area)
+        kept = flags[found.index(main)] is None
+        if kept and abs(main.centre_per_cm - 1e7 / lam_ref) < 3 * main.instrument_fwhm_per_cm:
+            notes.add(
+                f"the main line lies at the reference laser's wavelength ({lam_ref:.3f} nm, "
+                "within three resolution elements): it is reported as the source, but it could "
+                "be reference light reaching the source detector; block the source beam and "
+                "record again: a line that stays is reference light"
+            )
     n_ghost = sum(fl is not None for fl in flags)
     if n_ghost:
         notes.add(

@@ -117,6 +117,18 @@ def test_a_reference_ghost_is_flagged_whatever_its_strength():
     assert f == {s_ref: "reference-ghost", S1: None, s_ref + S1: "reference-ghost"}
 
 
+def test_a_lone_strongest_line_at_the_reference_is_the_source():
+    # a He-Ne or 633 nm diode measured against a He-Ne reference: nothing else to see, or only
+    # lines below REFERENCE_DOMINANCE (10 %) of it away from the reference
+    s_ref = 1e7 / 632.991
+    assert _flags({s_ref + 0.5: 1.0}, reference_per_cm=s_ref) == {s_ref + 0.5: None}
+    f = _flags({s_ref: 1.0, S1: 0.05}, reference_per_cm=s_ref)
+    assert f == {s_ref: None, S1: None}
+    # at 10 % and above the other line is the source and the reference line a ghost
+    f = _flags({s_ref: 1.0, S1: 0.1}, reference_per_cm=s_ref)
+    assert f == {s_ref: "reference-ghost", S1: None}
+
+
 def test_ineligible_lines_are_never_flagged():
     c = [S1, S2, S1 + S2]
     f = flag_ghosts(c, [1.0, 0.6, 0.05], [TOL] * 3, clipped=True, eligible=[True, True, False])

@@ -158,3 +158,18 @@ def test_calibration_file_without_opd_scale_is_a_reference_calibration(tmp_path)
 
     with pytest.raises(OptionError, match="opd_scale"):
         load_calibration(path)
+
+
+def test_calibration_with_a_stabilised_hene_against_a_hene_reference(tmp_path):
+    # The usual bench check: a stabilised He-Ne (CIPM 2007, iodine-stabilised 633 nm:
+    # 632.99121258 nm, check-values §6) as the known source, seen by a rig whose reference is a
+    # free-running He-Ne. Its line sits at the reference wavenumber; alone in the spectrum it
+    # is the source, not reference light (a note says how to tell them apart).
+    known = 632.99121258
+    opts = AnalysisOptions(reference_wavelength_nm=NOMINAL, medium="vacuum")
+    cal, res = calibrate_rig(_record(known, 13), opts, known, 1e-8)
+    assert any("reference laser's wavelength" in w for w in res.warnings)
+    assert cal.effective_reference_wavelength_nm == pytest.approx(TRUE_REF, rel=1e-7)
+    s = analyze(_record(650.0, 14), AnalysisOptions(
+        reference_wavelength_nm=NOMINAL, medium="vacuum", calibration=cal)).summary
+    assert abs(s["centre_wavelength_nm"] - 650.0) <= s["expanded_uncertainty_nm"]
