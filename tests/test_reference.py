@@ -190,6 +190,85 @@ def test_hg_pencil_lamp_caution_is_recorded():
 
 
 # ---------------------------------------------------------------------------------------------
+# relative intensities
+# ---------------------------------------------------------------------------------------------
+def _intensity_ref(status: str) -> str | None:
+    """The references key of a status's "; int <code> (<key>)" part, or None without one."""
+    _, sep, tail = status.rpartition("; int ")
+    if not sep:
+        return None
+    code, _, key = tail.partition(" (")
+    assert code in ("V", "V2", "C", "M") and key.endswith(")"), status
+    return key[:-1]
+
+
+@pytest.mark.parametrize("name", LAMPS)
+def test_every_intensity_cites_a_reference(name):
+    t = load_line_list(name)
+    assert t.meta["intensity_scale"]
+    for value, status in zip(t["relative_intensity"], t["status"], strict=True):
+        key = _intensity_ref(str(status))
+        if math.isfinite(float(value)):
+            assert float(value) > 0
+            assert key is not None, f"{name}: {status!r} names no intensity source"
+            assert key in t.meta["references"]
+        else:  # no intensity, no intensity status
+            assert key is None, status
+
+
+# (list, NIST air value, Handbook intensity) as printed in the copy of the NIST Handbook
+# strong-line tables in astropy/specreduce, specreduce/datasets/line_lists/NIST/
+# NIST_combined.csv (commit 12908bca); Kr from nist_air_strong_lines_Kr.txt there (c4e65316).
+HANDBOOK_INTENSITIES = [
+    ("lamp_hg", 435.8328, 1000.0),
+    ("lamp_hg", 546.0735, 500.0),
+    ("lamp_hg", 614.9475, 250.0),  # Hg II
+    ("lamp_ar", 696.5431, 300.0),
+    ("lamp_ar", 811.5311, 1000.0),
+    ("lamp_he", 587.56148, 500.0),
+    ("lamp_he", 388.86456, 200.0),  # 0.00033 nm from the 388.86489 nm component (300)
+    ("lamp_he", 388.86489, 300.0),
+    ("lamp_ne", 640.2248, 200.0),
+    ("lamp_ne", 692.94673, 1000.0),
+    ("lamp_ne", 849.53595, 700.0),  # the copy prints 8495.3598 A
+    ("lamp_kr", 877.67505, 1000.0),
+]
+
+
+@pytest.mark.parametrize(("name", "air", "intensity"), HANDBOOK_INTENSITIES)
+def test_handbook_intensity_spot_checks(name, air, intensity):
+    t = load_line_list(name)
+    airs = np.asarray(t["wavelength_air_nm"], dtype=float)
+    i = int(np.argmin(np.abs(airs - air)))
+    assert airs[i] == pytest.approx(air, abs=1e-9)
+    assert float(t["relative_intensity"][i]) == intensity  # integers as printed
+    assert str(t["status"][i]).endswith("; int V2 (nist_hb_specreduce)") or name == "lamp_kr"
+
+
+# NIST ASD Ar I lines as listed in GeminiDRSoftware/F2Cookbook, source/calib/Ar_NIR_lowres.txt
+# (commit 87cbebb5): (air value of our row, ASD vacuum wavelength in A, ASD intensity)
+ASD_ARGON = [(763.5106, 7637.208, 25000), (912.2967, 9125.471, 35000), (866.7944, 8670.325, 4500)]
+
+
+@pytest.mark.parametrize(("air", "vac_angstrom", "intensity"), ASD_ARGON)
+def test_argon_asd_intensities_kept_apart(air, vac_angstrom, intensity):
+    t = load_line_list("lamp_ar")
+    asd = t.meta["asd_relative_intensity"]["values"]
+    assert asd[str(air)] == intensity  # keyed by the air value as written in the rows
+    assert "810.3693" not in asd  # labelled Ar_I+Ar_II in that copy
+    i = int(np.argmin(np.abs(np.asarray(t["wavelength_air_nm"], dtype=float) - air)))
+    # the ASD's own vacuum value (0.001 A digits) checks our Morton conversion of the air value
+    assert float(t["wavelength_vac_nm"][i]) == pytest.approx(vac_angstrom / 10, abs=6e-5)
+    assert float(t["relative_intensity"][i]) < 2000  # the column keeps the Handbook scale
+
+
+def test_sodium_intensities_are_missing_and_say_so():
+    t = load_line_list("lamp_na")
+    assert np.all(np.isnan(np.asarray(t["relative_intensity"], dtype=float)))
+    assert "not found" in t.meta["intensity_scale"]
+
+
+# ---------------------------------------------------------------------------------------------
 # standard air
 # ---------------------------------------------------------------------------------------------
 @pytest.mark.parametrize("name", LAMPS)
