@@ -390,15 +390,9 @@ def coherence_from_visibility(
     .. [2] J. W. Goodman, *Statistical Optics*, Wiley (1985), §5.2 (τ_c = ∫|γ(τ)|²dτ).
     .. [3] D. Gabor, 'Theory of communication', J. IEE 93 (1946) 429-457 (analytic signal).
     """
-    from .zpd import find_zpd, uniform_step_cm
+    from .zpd import find_zpd, interferogram_arrays
 
-    x = np.asarray(x_cm, dtype=float)
-    yy = np.asarray(y, dtype=float)
-    step = uniform_step_cm(x)
-    if yy.shape != x.shape:
-        raise RecordError(f"y has shape {yy.shape}, expected {x.shape} like x_cm")
-    if not np.all(np.isfinite(yy)):
-        raise RecordError("y must be finite (no NaN or inf samples)")
+    x, yy, step = interferogram_arrays(x_cm, y)
     if x.size < 16:
         raise RecordError(f"an interferogram needs at least 16 samples here, got {x.size}")
     if not (0.0 < floor < 0.5):

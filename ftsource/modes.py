@@ -374,20 +374,14 @@ def check_revivals(
     .. [2] A. E. Siegman, *Lasers*, University Science Books (1986), §11.3.
     .. [3] D. Gabor, 'Theory of communication', J. IEE 93 (1946) 429-457 (analytic signal).
     """
-    from .zpd import uniform_step_cm
+    from .zpd import interferogram_arrays
 
     P = revival_opd_cm(spacing_per_cm)
     if not (0.0 < tol < 0.5):
         raise OptionError(f"tol must lie in (0, 0.5), got {tol!r}")
     if not (np.isfinite(min_contrast) and min_contrast >= 1.0):
         raise OptionError(f"min_contrast must be a finite number >= 1, got {min_contrast!r}")
-    x = np.asarray(x_cm, dtype=float)
-    yy = np.asarray(y, dtype=float)
-    step = uniform_step_cm(x)
-    if yy.shape != x.shape:
-        raise RecordError(f"y has shape {yy.shape}, expected {x.shape} like x_cm")
-    if not np.all(np.isfinite(yy)):
-        raise RecordError("y must be finite (no NaN or inf samples)")
+    x, yy, step = interferogram_arrays(x_cm, y)
     if x.size < 16:
         raise RecordError(f"an interferogram needs at least 16 samples here, got {x.size}")
     if step < 0:

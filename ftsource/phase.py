@@ -28,8 +28,8 @@ from dataclasses import dataclass
 import numpy as np
 
 from .apodization import get_apodization, mertz_ramp
-from .errors import AnalysisError, FtsourceWarning, OptionError, RecordError
-from .zpd import DOUBLE_SIDED_RATIO, ZpdInfo, uniform_step_cm
+from .errors import AnalysisError, FtsourceWarning, OptionError
+from .zpd import DOUBLE_SIDED_RATIO, ZpdInfo, interferogram_arrays
 
 __all__ = ["PhasedSpectrum", "mertz", "forman", "magnitude", "low_resolution_phase"]
 
@@ -111,13 +111,7 @@ def _layout(x_cm, y, zpd: ZpdInfo) -> _Layout:
         raise OptionError(f"zpd must be a ZpdInfo from find_zpd, got {type(zpd).__name__}")
     if not zpd.found:
         raise AnalysisError(f"no ZPD to phase-correct about: {zpd.reason}")
-    x = np.asarray(x_cm, dtype=float)
-    yy = np.asarray(y, dtype=float)
-    step = uniform_step_cm(x)
-    if yy.shape != x.shape:
-        raise RecordError(f"y has shape {yy.shape}, expected {x.shape} like x_cm")
-    if not np.all(np.isfinite(yy)):
-        raise RecordError("y must be finite (no NaN or inf samples)")
+    x, yy, step = interferogram_arrays(x_cm, y)
     x_zpd = float(zpd.x_zpd_cm)
     if step < 0.0:
         x, yy, step = x[::-1], yy[::-1], -step

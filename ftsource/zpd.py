@@ -19,7 +19,7 @@ import numpy as np
 
 from .errors import OptionError, RecordError
 
-__all__ = ["ZpdInfo", "find_zpd", "uniform_step_cm"]
+__all__ = ["ZpdInfo", "find_zpd", "interferogram_arrays", "uniform_step_cm"]
 
 #: Short side at least this fraction of the long side counts as double-sided.
 DOUBLE_SIDED_RATIO = 0.8
@@ -62,6 +62,37 @@ class ZpdInfo:
         if self.short_side_cm >= DOUBLE_SIDED_RATIO * self.long_side_cm:
             return "double-sided"
         return "one-sided"
+
+
+def interferogram_arrays(x_cm, y) -> tuple[np.ndarray, np.ndarray, float]:
+    """An interferogram's OPD grid and samples as float arrays, checked, with the grid step.
+
+    Parameters
+    ----------
+    x_cm : array_like
+        OPD of the samples, cm: a uniform grid (:func:`uniform_step_cm`).
+    y : array_like
+        The samples, same shape, finite.
+
+    Returns
+    -------
+    x, y : numpy.ndarray
+    step : float
+        Signed grid step, cm.
+
+    Raises
+    ------
+    RecordError
+        If the grid is not uniform, the shapes differ or a sample is not finite.
+    """
+    x = np.asarray(x_cm, dtype=float)
+    yy = np.asarray(y, dtype=float)
+    step = uniform_step_cm(x)
+    if yy.shape != x.shape:
+        raise RecordError(f"y has shape {yy.shape}, expected {x.shape} like x_cm")
+    if not np.all(np.isfinite(yy)):
+        raise RecordError("y must be finite (no NaN or inf samples)")
+    return x, yy, step
 
 
 def uniform_step_cm(x_cm: np.ndarray, *, rtol: float = 1e-6) -> float:
@@ -158,13 +189,7 @@ def find_zpd(
         raise OptionError(f"min_prominence must be >= 1, got {min_prominence!r}")
     if not (0.0 < threshold < 1.0):
         raise OptionError(f"threshold must be between 0 and 1 (exclusive), got {threshold!r}")
-    x = np.asarray(x_cm, dtype=float)
-    yy = np.asarray(y, dtype=float)
-    step = uniform_step_cm(x)
-    if yy.shape != x.shape:
-        raise RecordError(f"y has shape {yy.shape}, expected {x.shape} like x_cm")
-    if not np.all(np.isfinite(yy)):
-        raise RecordError("y must be finite (no NaN or inf samples)")
+    x, yy, step = interferogram_arrays(x_cm, y)
     n = x.size
     if n < 8:
         raise RecordError(f"an interferogram needs at least 8 samples, got {n}")
