@@ -571,14 +571,16 @@ def _cmd_lines(args, out, err) -> int:
                   f"{max(u_index.values()) * 1e6:.2g} ppm (k = 1); not in the u column\n")
     if rows:
         out.write(f"  {'vacuum nm':>14}  {'air nm':>14}  {'u(vacuum) nm':>12}  "
-                  f"{'kind':<11}  species [list]\n")
+                  f"{'rel. int.':>9}  {'kind':<11}  species [list]\n")
     for r in rows:
         air_nm = r["wavelength_air_nm"]
         air_s = (f"{air_nm:.6f}" if r["air_convention"] == "given conditions" and air_nm
                  else stored(air_nm))
         u_s = "—" if r["u_vac_nm"] is None else f"{r['u_vac_nm']:.2g}"
+        ri = r["relative_intensity"]
+        ri_s = "—" if ri is None else f"{ri:g}"
         out.write(f"  {stored(r['wavelength_vac_nm']):>14}  {air_s:>14}  {u_s:>12}  "
-                  f"{r['kind']:<11}  {r['species']} [{r['list_name']}]\n")
+                  f"{ri_s:>9}  {r['kind']:<11}  {r['species']} [{r['list_name']}]\n")
     return 0
 
 

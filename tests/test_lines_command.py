@@ -313,3 +313,17 @@ def test_calibrate_takes_the_uncertainty_of_a_named_standard(tmp_path, capsys, i
     assert saved.known_wavelength_nm == I2_532_VAC
     # u_r = 8.9e-12 (check-values §6, from memory) -> 4.7e-9 nm as stored (two digits)
     assert saved.u_known_nm == pytest.approx(8.9e-12 * I2_532_VAC, rel=0.05)
+
+
+def test_text_output_shows_relative_intensities(capsys):
+    # Hg I 546.0735 nm (air): NIST Handbook mercurytable2 intensity 500, as quoted in the
+    # public copy named in reference_spectra/lamp_hg.ecsv (key nist_hb_specreduce); a row the
+    # list has no intensity for (Hg 407.783 nm) shows a dash
+    status, out, _ = _run(capsys, ["lines", "--element", "Hg", "--min", "400nm", "--max",
+                                   "550nm"])
+    assert status == 0
+    assert "rel. int." in out
+    row = next(ln for ln in out.splitlines() if "546.0735" in ln)
+    assert row.split()[3] == "500"
+    row = next(ln for ln in out.splitlines() if "407.783" in ln)
+    assert row.split()[3] == "—"
