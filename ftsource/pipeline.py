@@ -427,7 +427,8 @@ def analyze(record, options: AnalysisOptions | None = None, *, planner=None):
     sig_hi = min(1e7 / SEARCH_BAND_NM[0], 0.98 * limits.grid_nyquist_per_cm)
     sig_lo = 1e7 / SEARCH_BAND_NM[1]
     found = lines_mod.find_lines(spec, band_per_cm=(sig_lo, sig_hi))
-    outliers = _sweep_outliers(spec, sweep_specs, found, notes)
+    sweep_fits: dict = {}  # per-sweep fits of the main line, shared with Result.build
+    outliers = _sweep_outliers(spec, sweep_specs, found, notes, sweep_fits)
     if outliers:
         rejected += outliers
         bad = {i for i, _ in outliers}
@@ -471,6 +472,7 @@ def analyze(record, options: AnalysisOptions | None = None, *, planner=None):
         aliasing=aliasing,
         alias_band=alias_band,
         field_of_view_factor=fov,
+        sweep_fit_cache=sweep_fits,
     )
     for ln in source_lines:
         w = green_pointer_warning(ln.wavelength_nm)
@@ -558,9 +560,9 @@ def _aliasing(found, spec, sweep_specs, ifgs, path, fs, beta, sigma_app, factor,
         highs.append(float(v.max()))
         q25, q75 = np.quantile(v, [0.25, 0.75])
         spreads.append(float((q75 - q25) / (2 * med)))
-    if not medians:
-        return [], [_no_aliasing_verdict() for _ in found]
-    speeds = np.linspace(min(lows), max(max(highs), path.max_speed_cm_s), 33)
+    # no sweep with a measurable speed: the record's fastest speed still bounds the band
+    lo_v = min(lows) if lows else path.max_speed_cm_s
+    speeds = np.linspace(lo_v, max([*highs, path.max_speed_cm_s]), 33)
     band = band_at_risk(fs, speeds, beta, shortest_nm=SEARCH_BAND_NM[0])
     grid = (float(sigma_app[0]), float(sigma_app[-1]))
     band = [(max(a, grid[0]), min(b, grid[1])) for a, b in band if b > grid[0] and a < grid[1]]
@@ -570,7 +572,7 @@ def _aliasing(found, spec, sweep_specs, ifgs, path, fs, beta, sigma_app, factor,
     # but the check compares sweeps on their own axis)
     apparent = np.interp([f.centre_per_cm for f in found], sigma_app * factor, sigma_app)
     check = None
-    rtol = max(0.01, float(np.median(spreads)))
+    rtol = max(0.01, float(np.median(spreads))) if spreads else 0.01
     if band and len(medians) >= 2 and len(medians) == len(sweep_specs):
         mags = [(sigma_app, np.hypot(s.values, s.imag_residual)) for s in sweep_specs]
         check = aliasing_check(
@@ -584,36 +586,21 @@ def _aliasing(found, spec, sweep_specs, ifgs, path, fs, beta, sigma_app, factor,
     return band, verdicts
 
 
-def _no_aliasing_verdict():
-    from ftsource.aliasing import LineAliasing
-
-    return LineAliasing("cannot be excluded", "")
-
-
-def _sweep_outliers(spec, sweep_specs, found, notes):
+def _sweep_outliers(spec, sweep_specs, found, notes, fit_cache=None):
     """Sweeps whose own fit of the strongest narrow line is an outlier among the sweeps
     (leave-one-out, :func:`ftsource.sweeps.compare_sweeps`), with the reason for each."""
-    from ftsource.lines import fit_line
-    from ftsource.spectrum import coadd
-    from ftsource.sweeps import compare_sweeps
+    from ftsource.sweeps import compare_sweeps, sweep_line_centres
 
     if len(sweep_specs) < 4 or not found:
         return []
     main = max(found, key=lambda f: f.area)
     if main.resolved:
         return []
-    vals, us, dirs, idx = [], [], [], []
-    for sw in sweep_specs:
-        one = coadd([sw], spec.sigma_per_cm, spec.line_shape.apodization)
-        f = fit_line(one, main.centre_per_cm, profile="gaussian")
-        if f.success and np.isfinite(f.u_centre_per_cm) and f.u_centre_per_cm > 0:
-            vals.append(f.centre_per_cm)
-            us.append(f.u_centre_per_cm)
-            dirs.append(1)
-            idx.append(sw.sweep_index)
-    if len(vals) < 4:
+    fits = sweep_line_centres(spec, sweep_specs, main.centre_per_cm, cache=fit_cache)
+    if len(fits) < 4:
         return []
-    cmp = compare_sweeps(vals, us, dirs, label="centre")
+    idx, vals, us = (list(t) for t in zip(*fits, strict=True))
+    cmp = compare_sweeps(vals, us, [1] * len(vals), label="centre")
     out = [(i, r) for i, k, r in zip(idx, cmp.keep, cmp.reasons, strict=False) if not k]
     if out:
         notes.add(

@@ -101,6 +101,7 @@ class Result:
         aliasing=None,
         alias_band=None,
         field_of_view_factor=1.0,
+        sweep_fit_cache=None,
     ) -> Result:
         warnings = list(notes.items)
         spec = spectrum
@@ -238,7 +239,7 @@ class Result:
 
         summary, budget_dict = _summary(
             spec, source_lines, strongest, sweep_spectra, interferograms, options, path,
-            reference_wavelength_nm, warnings, to_air, field_of_view_factor,
+            reference_wavelength_nm, warnings, to_air, field_of_view_factor, sweep_fit_cache,
         )
         if strongest is not None and 1e7 / strongest.centre_per_cm < limits.min_wavelength_nm:
             warnings.append(
@@ -473,7 +474,7 @@ def _empty_summary():
 
 
 def _summary(spec, source_lines, strongest, sweep_spectra, ifgs, options, path, lam_ref,
-             warnings, to_air, field_of_view_factor=1.0):
+             warnings, to_air, field_of_view_factor=1.0, sweep_fit_cache=None):
     from ftsource import coherence as coh
     from ftsource.uncertainty import wavelength_budget
 
@@ -737,7 +738,7 @@ def _summary(spec, source_lines, strongest, sweep_spectra, ifgs, options, path, 
 
     # ---- consistency between sweeps (a check, not a budget component)
     if kind == "narrow" and len(sweep_spectra) >= 2:
-        _sweep_check(spec, sweep_spectra, sig0, warnings)
+        _sweep_check(spec, sweep_spectra, sig0, warnings, sweep_fit_cache)
 
     # ---- width, coherence
     s["resolved"] = bool(main.resolved) if kind != "multimode" else None
@@ -830,18 +831,13 @@ def _profile_coherence(fit):
     return ce
 
 
-def _sweep_check(spec, sweep_spectra, sig0, warnings):
-    from ftsource.lines import fit_line
-    from ftsource.spectrum import coadd
+def _sweep_check(spec, sweep_spectra, sig0, warnings, fit_cache=None):
+    from ftsource.sweeps import sweep_line_centres
     from ftsource.uncertainty import sweep_consistency
 
-    vals, us = [], []
-    for sw in sweep_spectra:
-        one = coadd([sw], spec.sigma_per_cm, spec.line_shape.apodization)
-        f = fit_line(one, sig0, profile="gaussian")
-        if f.success and np.isfinite(f.u_centre_per_cm) and f.u_centre_per_cm > 0:
-            vals.append(f.centre_per_cm)
-            us.append(f.u_centre_per_cm)
+    fits = sweep_line_centres(spec, sweep_spectra, sig0, cache=fit_cache)
+    vals = [c for _, c, _ in fits]
+    us = [u for _, _, u in fits]
     if len(vals) >= 2:
         c = sweep_consistency(vals, us)
         if not c.consistent:

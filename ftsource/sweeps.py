@@ -41,6 +41,7 @@ __all__ = [
     "shift_time_for_delay",
     "compare_sweeps",
     "aliasing_check",
+    "sweep_line_centres",
 ]
 
 #: A second delay candidate (phase method) is excluded when its χ² exceeds the best one's by
@@ -1061,3 +1062,46 @@ def aliasing_check(
         f"{100 * spread:.3g} %"
     )
     return AliasCheck(tuple(lines), crit, spread)
+
+
+def sweep_line_centres(spectrum, sweep_spectra, sigma_per_cm: float, *, cache=None):
+    """Each sweep's own fitted centre of the line near ``sigma_per_cm``.
+
+    Every sweep's spectrum alone (:func:`ftsource.spectrum.coadd` of that sweep, on
+    ``spectrum``'s axis and apodization) is fitted with a Gaussian profile convolved with its
+    line shape (:func:`ftsource.lines.fit_line`).
+
+    Parameters
+    ----------
+    spectrum : ftsource.spectrum.Spectrum
+        The co-added spectrum (gives the axis and apodization).
+    sweep_spectra : sequence of ftsource.spectrum.SweepSpectrum
+    sigma_per_cm : float
+        Where the line is.
+    cache : dict, optional
+        An explicit cache the caller owns, ``(sweep_index, sigma_per_cm) → (centre, u)``, so
+        two stages asking about the same line and sweeps fit each sweep once.
+
+    Returns
+    -------
+    list of (int, float, float)
+        ``(sweep_index, centre_per_cm, u_centre_per_cm)`` for the sweeps whose fit succeeded
+        with a finite positive uncertainty, in the order given.
+    """
+    from ftsource.lines import fit_line
+    from ftsource.spectrum import coadd
+
+    out = []
+    for sw in sweep_spectra:
+        key = (sw.sweep_index, float(sigma_per_cm))
+        hit = None if cache is None else cache.get(key)
+        if hit is None:
+            one = coadd([sw], spectrum.sigma_per_cm, spectrum.line_shape.apodization)
+            f = fit_line(one, sigma_per_cm, profile="gaussian")
+            ok = f.success and np.isfinite(f.u_centre_per_cm) and f.u_centre_per_cm > 0
+            hit = (f.centre_per_cm, f.u_centre_per_cm) if ok else (np.nan, np.nan)
+            if cache is not None:
+                cache[key] = hit
+        if np.isfinite(hit[1]):
+            out.append((sw.sweep_index, float(hit[0]), float(hit[1])))
+    return out
