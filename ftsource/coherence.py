@@ -29,6 +29,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from ._arrays import finite_pair
 from .errors import AnalysisError, OptionError, RecordError
 
 __all__ = [
@@ -208,15 +209,7 @@ def coherence_from_spectrum(
        McGraw-Hill (2000), ch. 6 (Rayleigh/Parseval theorem).
     .. [3] JCGM 100:2008 (GUM), §5.1 (law of propagation of uncertainty).
     """
-    s = np.asarray(sigma_per_cm, dtype=float)
-    S = np.asarray(density, dtype=float)
-    if s.ndim != 1 or S.shape != s.shape:
-        raise AnalysisError(
-            f"sigma_per_cm and density must be 1-D arrays of one length, got shapes {s.shape} "
-            f"and {S.shape}"
-        )
-    if not (np.all(np.isfinite(s)) and np.all(np.isfinite(S))):
-        raise AnalysisError("sigma_per_cm and density must be finite")
+    s, S = finite_pair(sigma_per_cm, density, "sigma_per_cm", "density")
     if noise is None:
         u = None
     else:

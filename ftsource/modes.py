@@ -20,6 +20,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from ._arrays import finite_pair
 from .coherence import C_CM_PER_S, _envelope
 from .errors import AnalysisError, OptionError, RecordError
 
@@ -183,15 +184,7 @@ def find_mode_comb(
        Mag. 28(5) (2011) 134-137.
     .. [3] JCGM 100:2008 (GUM), §H.3 (uncertainty of a least-squares straight line).
     """
-    c = np.asarray(centres_per_cm, dtype=float)
-    a = np.asarray(intensities, dtype=float)
-    if c.ndim != 1 or a.shape != c.shape:
-        raise AnalysisError(
-            f"centres_per_cm and intensities must be 1-D arrays of one length, got shapes "
-            f"{c.shape} and {a.shape}"
-        )
-    if not (np.all(np.isfinite(c)) and np.all(np.isfinite(a))):
-        raise AnalysisError("centres_per_cm and intensities must be finite")
+    c, a = finite_pair(centres_per_cm, intensities, "centres_per_cm", "intensities")
     if np.any(a < 0):
         raise AnalysisError("intensities must be >= 0")
     if not (0.0 <= min_fraction < 1.0):

@@ -767,7 +767,13 @@ def calibrate_response(
 # --------------------------------------------------------------------------------------------
 # correction
 # --------------------------------------------------------------------------------------------
-def _spectrum_inputs(sigma, density, noise):
+_NO_CURVE = object()
+
+
+def _spectrum_inputs(sigma, density, noise, curve=_NO_CURVE):
+    """A spectrum's arrays, checked; given ``curve``, also that it is a ResponseCurve."""
+    if curve is not _NO_CURVE and not isinstance(curve, ResponseCurve):
+        raise OptionError(f"curve is a ResponseCurve, not {type(curve).__name__}")
     s = _check_sigma(sigma, "sigma")
     try:
         d = np.asarray(density, dtype=float)
@@ -805,7 +811,7 @@ def power_outside_band(sigma, density, noise, curve: ResponseCurve, *, k_sigma: 
     ----------
     .. [1] Trapezoid rule (closed form); the k·σ signal criterion is common practice.
     """
-    s, d, n = _spectrum_inputs(sigma, density, noise)
+    s, d, n = _spectrum_inputs(sigma, density, noise, curve)
     order = np.argsort(s, kind="stable")
     s, d, n = s[order], d[order], n[order]
     sig = np.where(np.isfinite(d) & (d > k_sigma * n), d, 0.0)
@@ -847,9 +853,7 @@ def apply_response(sigma, density, noise, curve: ResponseCurve, *, warn_above: f
     ----------
     .. [1] JCGM 100:2008 (GUM), §5.1: propagation of uncertainty for a quotient.
     """
-    s, d, n = _spectrum_inputs(sigma, density, noise)
-    if not isinstance(curve, ResponseCurve):
-        raise OptionError(f"curve is a ResponseCurve, not {type(curve).__name__}")
+    s, d, n = _spectrum_inputs(sigma, density, noise, curve)
     r = curve.at(s)
     u = curve.u_at(s)
     cover = np.isfinite(r) & (r > 0)
@@ -909,9 +913,7 @@ def correct_band(sigma, density, noise, curve: ResponseCurve, *,
     ----------
     .. [1] JCGM 100:2008 (GUM), §5.1: propagation of uncertainty for a quotient.
     """
-    s, d, n = _spectrum_inputs(sigma, density, noise)
-    if not isinstance(curve, ResponseCurve):
-        raise OptionError(f"curve is a ResponseCurve, not {type(curve).__name__}")
+    s, d, n = _spectrum_inputs(sigma, density, noise, curve)
     limit = float(max_outside)
     if not (math.isfinite(limit) and 0.0 <= limit < 1.0):
         raise OptionError(f"max_outside = {max_outside!r} is a fraction in [0, 1)")
