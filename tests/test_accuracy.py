@@ -4,7 +4,10 @@ Single lines at invented wavelengths are simulated on noisy records with driftin
 an uneven mirror speed and analysed by ``ftsource.pipeline.analyze`` in vacuum. The truth is
 the simulated line's vacuum wavelength; the simulator's conventions are checked against closed
 forms in tests/test_simulate.py. Required: 0.2 ppm with a quadrature reference (unequal gains
-and offsets, 85° between the channels), 1 ppm with a single reference channel.
+and offsets, 85° between the channels), 1 ppm with a single reference channel (the issue's
+acceptance targets). The quadrature imperfections are those Heydemann's ellipse fit corrects
+(P. L. M. Heydemann, Appl. Opt. 20, 3382 (1981)); the 632.991 nm reference is the
+free-running He-Ne value of the CIPM 2007 recommendation (check-values §6).
 """
 
 from __future__ import annotations

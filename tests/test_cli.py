@@ -25,11 +25,11 @@ from pathlib import Path
 
 import numpy as np
 import pytest
+from cli_helpers import assert_clean_error, run, tree
 
 import ftsource
 from ftsource import report
 from ftsource import simulate as sim
-from ftsource.cli import main
 from ftsource.errors import OutputError
 from ftsource.records import write_record_csv, write_record_npz, write_record_wav
 
@@ -38,27 +38,7 @@ FS = 48_000.0
 ROOT = Path(ftsource.__file__).resolve().parents[1]
 
 
-def run(capsys, argv):
-    capsys.readouterr()
-    status = main([str(a) for a in argv])
-    out, err = capsys.readouterr()
-    return status, out, err
 
-
-def assert_clean_error(status, err, fragment=""):
-    assert status == 2, f"status {status}, stderr {err!r}"
-    assert err.startswith("error: ") and err.count("\n") == 1 and err.endswith("\n"), err
-    assert "Traceback" not in err and "internal error" not in err, err
-    assert fragment in err, f"{fragment!r} not in {err!r}"
-
-
-def tree(folder: Path) -> dict[str, bytes]:
-    out = {}
-    for root, _dirs, files in os.walk(folder):
-        for f in files:
-            p = Path(root, f)
-            out[str(p.relative_to(folder))] = p.read_bytes()
-    return out
 
 
 @pytest.fixture(scope="module")

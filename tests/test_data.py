@@ -1,4 +1,9 @@
-"""Tests of ftsource._data.data_path, the locator of files in ``reference_spectra``."""
+"""Tests of ftsource._data.data_path, the locator of files in ``reference_spectra``.
+
+No published value is involved: the oracle is the package layout itself (common practice for
+Python packages: data shipped inside the package, found with importlib.resources, PEP 302 /
+the importlib.resources documentation).
+"""
 
 from __future__ import annotations
 

@@ -28,9 +28,9 @@ from pathlib import Path
 
 import numpy as np
 import pytest
+from cli_helpers import assert_clean_error, run, tree
 
 from ftsource import simulate as sim
-from ftsource.cli import main
 from ftsource.records import write_record_csv, write_record_npz, write_record_wav
 
 REF = ["--reference-wavelength", "632.991nm"]
@@ -43,30 +43,7 @@ OLD_SPECTRUM = b"# earlier spectrum\n"
 # helpers
 
 
-def run(capsys, argv):
-    """Run the command line in-process; return (status, stdout, stderr)."""
-    capsys.readouterr()
-    status = main([str(a) for a in argv])
-    out, err = capsys.readouterr()
-    return status, out, err
 
-
-def assert_clean_error(status, err, fragment):
-    assert status == 2, f"status {status}, stderr {err!r}"
-    assert err.endswith("\n") and err.count("\n") == 1, f"not one line: {err!r}"
-    assert err.startswith("error: "), err
-    assert "Traceback" not in err and "internal error" not in err, err
-    assert fragment in err, f"{fragment!r} not in {err!r}"
-
-
-def tree(folder: Path) -> dict[str, bytes]:
-    """Every file under ``folder`` (hidden ones too) with its bytes."""
-    out = {}
-    for root, _dirs, files in os.walk(folder):
-        for f in files:
-            p = Path(root, f)
-            out[str(p.relative_to(folder))] = p.read_bytes()
-    return out
 
 
 def _scan(duration=0.5, **kw):

@@ -1,4 +1,9 @@
-"""The public names of ftsource are pinned (a change here is an API change)."""
+"""The public names of ftsource are pinned (a change here is an API change).
+
+No published value is involved: the oracles are Python's own list of standard-library modules
+(``sys.stdlib_module_names``, Python 3.10+) for the start-up imports, and common practice for
+a stable public API (an explicit, tested list of names).
+"""
 
 import subprocess
 import sys

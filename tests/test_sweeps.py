@@ -33,6 +33,17 @@ FS = 48_000.0
 # records
 
 
+def _through_resampling(sim):
+    """The stages before the transform: OPD from the quadrature reference, sampling limits,
+    sweeps on the uniform OPD grid."""
+    p = opd.opd_from_quadrature(
+        sim.record.columns["ref_i"], sim.record.columns["ref_q"], FS, REF_NM
+    )
+    lim = resample.sampling_limits(p, FS, REF_NM)
+    ifgs = resample.resample_sweeps(sim.record.columns["signal"], p, lim.dx_cm)
+    return sim, p, lim, ifgs
+
+
 @cache
 def led_record(delay_s: float, seed: int = 1):
     """Broad LED through ZPD (centre burst in every full sweep), quadrature reference."""
@@ -43,12 +54,7 @@ def led_record(delay_s: float, seed: int = 1):
         S.Detector(delay_s=delay_s),
         rng=seed,
     )
-    p = opd.opd_from_quadrature(
-        sim.record.columns["ref_i"], sim.record.columns["ref_q"], FS, REF_NM
-    )
-    lim = resample.sampling_limits(p, FS, REF_NM)
-    ifgs = resample.resample_sweeps(sim.record.columns["signal"], p, lim.dx_cm)
-    return sim, p, lim, ifgs
+    return _through_resampling(sim)
 
 
 @cache
@@ -61,12 +67,7 @@ def laser_record(delay_s: float, jitter: float = 0.05, seed: int = 1):
         S.Detector(delay_s=delay_s),
         rng=seed,
     )
-    p = opd.opd_from_quadrature(
-        sim.record.columns["ref_i"], sim.record.columns["ref_q"], FS, REF_NM
-    )
-    lim = resample.sampling_limits(p, FS, REF_NM)
-    ifgs = resample.resample_sweeps(sim.record.columns["signal"], p, lim.dx_cm)
-    return sim, p, lim, ifgs
+    return _through_resampling(sim)
 
 
 def zpds(ifgs):
