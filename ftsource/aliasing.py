@@ -178,6 +178,7 @@ def assess_lines(
     *,
     tolerance_per_cm: float,
     speed_step_percent: float = 5.0,
+    speed_rtol: float = 0.01,
     alias_free_limit_per_cm: float = np.inf,
     shortest_nm: float = SHORTEST_DETECTED_NM,
 ) -> list[LineAliasing]:
@@ -195,6 +196,9 @@ def assess_lines(
     tolerance_per_cm : float
         How far a line may be from a checked peak's centre in any sweep to take its verdict
         (a few resolution elements: the co-added line is an average over sweeps).
+    speed_rtol : float
+        Relative uncertainty of a sweep's effective speed: the wavenumber an alias folds from,
+        ``σ = m·F ∓ σ_app``, is known to about ``m·F·speed_rtol``, which the message states.
     speed_step_percent : float
         The speed difference between sweeps, in per cent, that the check needs to move an
         alias (:func:`speed_step_needed`); quoted in the advice.
@@ -226,10 +230,13 @@ def assess_lines(
         elif is_alias:
             true_nm = 1e7 / match.true_sigma_per_cm
             if true_nm >= shortest_nm:
+                # m·F ≤ σ_true + σ_app (first branch σ = mF − σ_app; the other is smaller)
+                u_nm = 1e7 * (match.true_sigma_per_cm + c) * speed_rtol / match.true_sigma_per_cm**2
                 what = (
                     f"as light at about {true_nm:.1f} nm (fold {match.fold}) folded by the time "
-                    f"sampling would; to measure that light, sample faster or move the mirror "
-                    f"more slowly"
+                    f"sampling would (that wavelength is known to about ±{u_nm:.2g} nm, from the "
+                    f"sweeps' speed uncertainty); to measure that light, sample faster or move "
+                    f"the mirror more slowly"
                 )
             else:
                 what = (

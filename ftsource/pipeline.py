@@ -581,7 +581,8 @@ def _aliasing(found, spec, sweep_specs, ifgs, path, fs, beta, sigma_app, factor,
         )
     verdicts = assess_lines(
         apparent, band, check, tolerance_per_cm=3 * spec.resolution_per_cm,
-        speed_step_percent=speed_step_needed(rtol), alias_free_limit_per_cm=sigma_alias,
+        speed_step_percent=speed_step_needed(rtol), speed_rtol=rtol,
+        alias_free_limit_per_cm=sigma_alias,
     )
     return band, verdicts
 

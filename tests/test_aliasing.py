@@ -132,6 +132,9 @@ def test_assess_lines_verdicts():
     ]
     assert got[0].message == "" and got[1].message == ""
     assert "about 400.0 nm (fold 1)" in got[2].message
+    # the fold's own uncertainty: m·F·rtol with m·F = σ_true + σ_app = 38 900.3 cm⁻¹ and the
+    # default 1 %, i.e. 389.0 cm⁻¹ = 6.2 nm at 400 nm (closed form)
+    assert "known to about ±6.2 nm" in got[2].message
     assert got[2].true_sigma_per_cm == 25_000.0
     assert "speeds too alike" in got[3].message and "11000" not in got[3].message
     assert "909.09 nm" in got[3].message  # 1e7 / 11 000
