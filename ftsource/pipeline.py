@@ -138,7 +138,7 @@ def _apply_calibration(kind, lam_ref, options, notes):
     if cal is None or kind is None:
         return lam_ref, options
     wanted = kind if kind in ("encoder", "constant-speed") else "reference"
-    made = getattr(cal, "opd_scale", "reference")
+    made = cal.opd_scale
     names = {"reference": "a reference laser", "encoder": "a position encoder",
              "constant-speed": "an assumed constant mirror speed"}
     if made != wanted:
