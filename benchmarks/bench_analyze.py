@@ -42,8 +42,8 @@ def main() -> None:
     n = 1 << args.log2n
 
     from ftsource import simulate as S
-    from ftsource.pipeline import AnalysisOptions, analyze
-    from ftsource.transform import FFTPlanner
+    from ftsource.analysis import AnalysisOptions, analyze
+    from ftsource.spectrum.transform import FFTPlanner
 
     fs = 192_000.0
     scan = S.Scan(sample_rate_hz=fs, duration_s=n / fs, opd_amplitude_cm=0.5,
@@ -62,8 +62,7 @@ def main() -> None:
     analyze(sim.record, opts, planner=planner)  # warm-up: imports, plans
     t_all, res = _best(lambda: analyze(sim.record, opts, planner=planner), args.repeat)
 
-    from ftsource import opd, resample
-
+    from ftsource.interferogram import opd, resample
     c = sim.record.columns
     t_opd, path = _best(lambda: opd.opd_from_quadrature(c["ref_i"], c["ref_q"], fs, 632.991), 1)
     lim = resample.sampling_limits(path, fs, 632.991)

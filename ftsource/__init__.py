@@ -37,13 +37,13 @@ __all__ = [
 ]
 
 _LAZY = {
-    "analyze": ("ftsource.pipeline", "analyze"),
-    "AnalysisOptions": ("ftsource.pipeline", "AnalysisOptions"),
-    "read_record": ("ftsource.records", "read_record"),
-    "Record": ("ftsource.records", "Record"),
+    "analyze": ("ftsource.analysis", "analyze"),
+    "AnalysisOptions": ("ftsource.analysis", "AnalysisOptions"),
+    "read_record": ("ftsource.io.records", "read_record"),
+    "Record": ("ftsource.io.records", "Record"),
     "Result": ("ftsource.result", "Result"),
-    "write_outputs": ("ftsource.report", "write_outputs"),
-    "FFTPlanner": ("ftsource.transform", "FFTPlanner"),
+    "write_outputs": ("ftsource.report.text", "write_outputs"),
+    "FFTPlanner": ("ftsource.spectrum.transform", "FFTPlanner"),
     "simulate": ("ftsource.simulate", None),
     "FtsourceError": ("ftsource.errors", "FtsourceError"),
     "FtsourceWarning": ("ftsource.errors", "FtsourceWarning"),

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from .errors import AnalysisError
+from ftsource.errors import AnalysisError
 
 __all__ = ["finite_pair"]
 

@@ -9,7 +9,7 @@ from __future__ import annotations
 import importlib.resources
 from pathlib import Path
 
-from .errors import FtsourceError
+from ftsource.errors import FtsourceError
 
 __all__ = ["data_folder", "data_path"]
 

@@ -226,8 +226,8 @@ def _reference_uncertainty_ppm(text, lam_nm):
 
 
 def _options(args):
-    from ftsource.air import AirConditions
-    from ftsource.pipeline import AnalysisOptions
+    from ftsource.analysis import AnalysisOptions
+    from ftsource.physics.air import AirConditions
 
     conds = ("temperature", "pressure", "humidity", "co2")
     given = {k: getattr(args, f"air_{k}") for k in conds
@@ -278,12 +278,12 @@ def _options(args):
 
     cal = None
     if args.calibration is not None:
-        from ftsource.calibration import load_calibration
+        from ftsource.calibrate.calibration import load_calibration
 
         cal = load_calibration(args.calibration)
     resp = None
     if args.response is not None:
-        from ftsource.response import ResponseCurve
+        from ftsource.calibrate.response import ResponseCurve
 
         resp = ResponseCurve.from_file(args.response)
     return AnalysisOptions(
@@ -326,10 +326,10 @@ def _no_reference_message(record) -> str:
 
 
 def _cmd_analyze(args, out, err) -> int:
+    from ftsource.analysis import analyze
     from ftsource.errors import AnalysisError, OptionError
-    from ftsource.pipeline import analyze
-    from ftsource.records import read_record
-    from ftsource.report import check_outputs, format_summary, result_json, write_outputs
+    from ftsource.io.records import read_record
+    from ftsource.report.text import check_outputs, format_summary, result_json, write_outputs
 
     # Cheap checks first: options, then the output directory, then the record.
     options = _options(args)
@@ -397,7 +397,7 @@ def _cmd_simulate(args, out, err) -> int:
 
     from ftsource import simulate as sim
     from ftsource.errors import OptionError, OutputError
-    from ftsource.records import write_record_csv, write_record_npz, write_record_wav
+    from ftsource.io.records import write_record_csv, write_record_npz, write_record_wav
 
     target = Path(args.out)
     suffix = target.suffix.lower()
@@ -459,7 +459,7 @@ def _cmd_demo(args, out, err) -> int:
     from pathlib import Path
 
     from ftsource.demo import demo_records, run_demo
-    from ftsource.report import check_outputs
+    from ftsource.report.text import check_outputs
 
     if args.out is not None:
         # refuse before the first record is analysed, not after some results are written
@@ -475,7 +475,7 @@ def _cmd_lines(args, out, err) -> int:
 
     import numpy as np
 
-    from ftsource.reference import search_lines
+    from ftsource.linelists import search_lines
 
     standard_air_text = (
         "standard air (dry, 15 °C, 101 325 Pa, 450 ppm CO2), the convention of NIST's tables: "
@@ -513,7 +513,7 @@ def _cmd_lines(args, out, err) -> int:
     air = lines_air()
     air_text, conditions, u_index = standard_air_text, None, {}
     if air is not None:
-        from ftsource.air import index_uncertainty, vacuum_to_air_nm
+        from ftsource.physics.air import index_uncertainty, vacuum_to_air_nm
 
         cond, model, given = air
         conditions = {"temperature_c": cond.temperature_c, "pressure_pa": cond.pressure_pa,
@@ -604,10 +604,10 @@ def _analysis_defaults(args):
 def _cmd_calibrate(args, out, err) -> int:
     from pathlib import Path
 
-    from ftsource.calibration import save_calibration
+    from ftsource.calibrate.calibration import save_calibration
+    from ftsource.calibrate.rig import calibrate_rig
     from ftsource.errors import OutputError
-    from ftsource.records import read_record
-    from ftsource.rig import calibrate_rig
+    from ftsource.io.records import read_record
 
     def known_line():
         """``(vacuum nm, standard uncertainty nm, description)`` of the known line, checked:
@@ -615,7 +615,7 @@ def _cmd_calibrate(args, out, err) -> int:
         import math
 
         from ftsource.errors import OptionError
-        from ftsource.reference import entries_with_value, line_list_names, pick_entry
+        from ftsource.linelists import entries_with_value, line_list_names, pick_entry
 
         u_given = None
         if args.known_uncertainty is not None:
@@ -703,10 +703,10 @@ def _cmd_calibrate(args, out, err) -> int:
 def _cmd_response(args, out, err) -> int:
     from pathlib import Path
 
+    from ftsource.analysis import analyze
+    from ftsource.calibrate.response import calibrate_response
     from ftsource.errors import OutputError
-    from ftsource.pipeline import analyze
-    from ftsource.records import read_record
-    from ftsource.response import calibrate_response
+    from ftsource.io.records import read_record
 
     target = Path(args.save)
     if target.exists() and not args.overwrite:
@@ -748,7 +748,6 @@ def main(argv=None) -> int:
         return e.code if isinstance(e.code, int) else (0 if e.code is None else 2)
     if args.version:
         from ftsource import __version__
-
         out.write(f"ftsource {__version__}\n")
         return 0
     if args.command is None:

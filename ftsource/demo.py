@@ -43,11 +43,11 @@ def demo_records() -> tuple[str, list[dict]]:
 
 def run_demo(out, *, out_dir=None, overwrite: bool = False) -> int:
     """Analyse every demo record and print a summary of each (and write files to ``out_dir``)."""
-    from ftsource.air import AirConditions
-    from ftsource.pipeline import AnalysisOptions, analyze
-    from ftsource.records import read_record
-    from ftsource.report import format_summary, write_outputs
-    from ftsource.transform import FFTPlanner
+    from ftsource.analysis import AnalysisOptions, analyze
+    from ftsource.io.records import read_record
+    from ftsource.physics.air import AirConditions
+    from ftsource.report.text import format_summary, write_outputs
+    from ftsource.spectrum.transform import FFTPlanner
 
     scenario, recs = demo_records()
     out.write(f"ftsource demo — {scenario}\n")

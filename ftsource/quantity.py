@@ -33,7 +33,7 @@ from numbers import Real
 import astropy.units as u
 from astropy.units.function.mixin import FunctionMixin
 
-from .errors import OptionError
+from ftsource.errors import OptionError
 
 __all__ = ["PHYSICAL_TYPES", "parse_quantity", "to_float", "ppm", "ppb"]
 

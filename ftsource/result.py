@@ -111,7 +111,7 @@ class Result:
         def to_air(wl):
             if air is None:
                 return None
-            from ftsource.air import vacuum_to_air_nm
+            from ftsource.physics.air import vacuum_to_air_nm
 
             if not 300.0 <= wl <= 1700.0:
                 return None
@@ -161,7 +161,7 @@ class Result:
             "zero_fill": int(options.zero_fill),
             "channel_delay_s": _f(channel_delay.delay_s) if channel_delay is not None else None,
         }
-        from ftsource.pipeline import _clipped_fraction
+        from ftsource.analysis import _clipped_fraction
 
         clipped = _clipped_fraction(record.columns["signal"])
         if clipped > 1e-3:
@@ -263,16 +263,16 @@ class Result:
 def _broadband_sweep_scatter(spec, sweep_spectra, mask, ok, response):
     """Standard errors of a band's peak, centroid and FWHM from their scatter over sweeps.
 
-    Each sweep's own spectrum (:func:`ftsource.spectrum.coadd` of that sweep alone) gives the
-    three figures (:func:`ftsource.broadband.broadband_metrics`, no Monte Carlo); their
+    Each sweep's own spectrum (:func:`ftsource.spectrum.spectrum.coadd` of that sweep alone) gives the
+    three figures (:func:`ftsource.measure.broadband.broadband_metrics`, no Monte Carlo); their
     standard error is ``std(ddof=1)/√n`` (Type A, JCGM 100:2008 §4.2), returned with ``n``.
     None with fewer than 3 sweeps whose figures could be taken.
     """
     import warnings as _w
 
-    from ftsource.broadband import broadband_metrics
     from ftsource.errors import FtsourceError, FtsourceWarning
-    from ftsource.spectrum import coadd
+    from ftsource.measure.broadband import broadband_metrics
+    from ftsource.spectrum.spectrum import coadd
 
     if len(sweep_spectra) < 3:
         return None
@@ -302,7 +302,7 @@ def _line_shape_corrected(bb, bb2, resolution_nm, warnings):
     """Peak and FWHM of a broad band with the instrument line shape's first-order bias removed.
 
     ``bb`` holds the figures of the measured band M = S∗K, ``bb2`` those of M∗K
-    (:func:`ftsource.spectrum.reconvolve`); each figure becomes ``2 f(M) − f(M∗K)``
+    (:func:`ftsource.spectrum.spectrum.reconvolve`); each figure becomes ``2 f(M) − f(M∗K)``
     (Richardson extrapolation). Its standard uncertainty adds a quarter of the correction in
     quadrature for the second-order remainder: on the simulated LEDs of the tests the
     remainder was at most 15 % of the correction (docs/measurements.md).
@@ -351,7 +351,7 @@ def _identify(wl_nm, u_fit_nm, lam_ref, options, *, source_line=True, tables=Non
     ``identification`` is the nearest
     of them within tolerance, or None ("no match"). The tolerance is k = 2 times the line's
     fit uncertainty combined with the reference laser's relative uncertainty and the entry's
-    own stated uncertainty (:func:`ftsource.reference.identify`), so a He-Ne-referenced
+    own stated uncertainty (:func:`ftsource.linelists.identify`), so a He-Ne-referenced
     measurement is not asked to be better than its own reference. Lines flagged as artefacts
     (``source_line`` False) and lines outside 200-3000 nm get no candidates.
 
@@ -359,7 +359,7 @@ def _identify(wl_nm, u_fit_nm, lam_ref, options, *, source_line=True, tables=Non
     ----------
     .. [1] JCGM 100:2008 (GUM), §6 (expanded uncertainty, k = 2).
     """
-    from ftsource.reference import identify
+    from ftsource.linelists import identify
 
     if not (source_line and np.isfinite(wl_nm) and 200.0 <= wl_nm <= 3000.0):
         return {"identification": None, "nearest_entries": []}
@@ -405,7 +405,7 @@ def _air_ratio_rel_u(options, path, lam_ref, wl) -> float:
     :func:`_air_range_warnings`)."""
     if options.medium == "vacuum":
         return 0.0
-    from ftsource.air import WAVELENGTH_RANGE_NM, index_ratio_uncertainty, index_uncertainty
+    from ftsource.physics.air import WAVELENGTH_RANGE_NM, index_ratio_uncertainty, index_uncertainty
 
     model = options.air_model
     wl_c = float(np.clip(wl, *WAVELENGTH_RANGE_NM))
@@ -421,7 +421,7 @@ def _air_range_warnings(source_lines, options, warnings) -> None:
     formula of Morton 2000 (eq. 8, valid 200–2000 nm)."""
     if options.medium != "air" or not source_lines:
         return
-    from ftsource.air import EDLEN_VERIFIED_RANGE_NM, WAVELENGTH_RANGE_NM
+    from ftsource.physics.air import EDLEN_VERIFIED_RANGE_NM, WAVELENGTH_RANGE_NM
 
     def n_std(wl):  # Morton 2000, eq. 8 (standard air)
         s2 = (1e3 / float(np.clip(wl, 200.0, 2000.0))) ** 2
@@ -475,8 +475,8 @@ def _empty_summary():
 
 def _summary(spec, source_lines, strongest, sweep_spectra, ifgs, options, path, lam_ref,
              warnings, to_air, field_of_view_factor=1.0, sweep_fit_cache=None):
-    from ftsource import coherence as coh
-    from ftsource.uncertainty import wavelength_budget
+    from ftsource.measure import coherence as coh
+    from ftsource.measure.uncertainty import wavelength_budget
 
     s = _empty_summary()
     s["detector_weighted"] = options.response is None
@@ -495,7 +495,7 @@ def _summary(spec, source_lines, strongest, sweep_spectra, ifgs, options, path, 
         kind = "broadband"
     comb = None
     if kind == "narrow" and len(source_lines) >= 3:
-        from ftsource.modes import find_mode_comb
+        from ftsource.measure.modes import find_mode_comb
 
         comb = find_mode_comb(
             np.array([f.centre_per_cm for f in source_lines]),
@@ -537,8 +537,8 @@ def _summary(spec, source_lines, strongest, sweep_spectra, ifgs, options, path, 
         }
 
     if kind == "broadband":
-        from ftsource.broadband import broadband_metrics
-        from ftsource.spectrum import reconvolve
+        from ftsource.measure.broadband import broadband_metrics
+        from ftsource.spectrum.spectrum import reconvolve
 
         lo = max(sig0 - 4 * main.fwhm_per_cm, 0.0)
         hi = sig0 + 4 * main.fwhm_per_cm
@@ -549,7 +549,7 @@ def _summary(spec, source_lines, strongest, sweep_spectra, ifgs, options, path, 
         # the response corrects the whole band or nothing (docs/response_and_calibration.md)
         weighted = True
         if options.response is not None:
-            from ftsource.response import correct_band
+            from ftsource.calibrate.response import correct_band
 
             dens_c, noise_c, applied, msgs = correct_band(sig_m, dens_s, noise_s,
                                                           options.response)
@@ -598,8 +598,8 @@ def _summary(spec, source_lines, strongest, sweep_spectra, ifgs, options, path, 
                 u_centroid, dof_bb = u_ct, float(n_used - 1)
         if not weighted:
             # the response's shape error is correlated across the band: a separate term
+            from ftsource.calibrate.response import response_shape_uncertainty
             from ftsource.errors import AnalysisError
-            from ftsource.response import response_shape_uncertainty
 
             def figures(sg, d):
                 b = broadband_metrics(1e7 / sg, d * sg**2 / 1e7, None, n_monte_carlo=0)
@@ -629,7 +629,7 @@ def _summary(spec, source_lines, strongest, sweep_spectra, ifgs, options, path, 
         )
         centre_nm, u_fit_nm, dof_fit = bb.centroid_nm, u_centroid, dof_bb
         s["u_fwhm_nm"] = _f(u_fwhm)
-        from ftsource.colour import chromaticity_xy, dominant_wavelength_nm
+        from ftsource.measure.colour import chromaticity_xy, dominant_wavelength_nm
 
         xy = chromaticity_xy(wl, np.clip(dens, 0, None))
         if xy is not None:
@@ -650,7 +650,7 @@ def _summary(spec, source_lines, strongest, sweep_spectra, ifgs, options, path, 
 
     # ---- budget for the centre wavelength
     wl_for_air = centre_nm
-    from ftsource.uncertainty import Component
+    from ftsource.measure.uncertainty import Component
 
     _air_range_warnings(source_lines, options, warnings)
     opd_scale = path.kind if path.kind in ("encoder", "constant-speed") else "reference"
@@ -820,8 +820,7 @@ def _profile_coherence(fit):
     holds < 0.04 % of the area)."""
     from scipy.special import voigt_profile
 
-    from ftsource import coherence as coh
-
+    from ftsource.measure import coherence as coh
     g, lw = fit.gauss_fwhm_per_cm, fit.lorentz_fwhm_per_cm
     w = max(fit.fwhm_per_cm, 1e-12)
     reach = 2000 * w if lw > 0 else 8 * w
@@ -832,8 +831,8 @@ def _profile_coherence(fit):
 
 
 def _sweep_check(spec, sweep_spectra, sig0, warnings, fit_cache=None):
-    from ftsource.sweeps import sweep_line_centres
-    from ftsource.uncertainty import sweep_consistency
+    from ftsource.lines.sweeps import sweep_line_centres
+    from ftsource.measure.uncertainty import sweep_consistency
 
     fits = sweep_line_centres(spec, sweep_spectra, sig0, cache=fit_cache)
     vals = [c for _, c, _ in fits]
@@ -850,7 +849,7 @@ def _sweep_check(spec, sweep_spectra, sig0, warnings, fit_cache=None):
 
 
 def _visibility(ifgs, sweep_spectra):
-    from ftsource.coherence import coherence_from_visibility
+    from ftsource.measure.coherence import coherence_from_visibility
 
     for ig, sw in zip(ifgs, sweep_spectra, strict=False):
         if sw.zpd_found:
@@ -862,7 +861,7 @@ def _visibility(ifgs, sweep_spectra):
 
 
 def _revivals(ifgs, comb, sweep_spectra):
-    from ftsource.modes import check_revivals
+    from ftsource.measure.modes import check_revivals
 
     for ig, sw in zip(ifgs, sweep_spectra, strict=False):
         if sw.zpd_found:

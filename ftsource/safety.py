@@ -17,7 +17,7 @@ from __future__ import annotations
 
 import math
 
-from .errors import OptionError
+from ftsource.errors import OptionError
 
 __all__ = [
     "LASER_NOTICE",

@@ -12,7 +12,7 @@ written from closed forms only and tested against them in ``tests/test_simulate.
   geometric path difference ``d`` (mirror travel ``d/2``: one fringe per ``λ/2`` of mirror
   travel, common practice);
 * in air every wavelength sees its own index ``n(λ)`` (Ciddor 1996) through
-  :mod:`ftsource.air`.
+  :mod:`ftsource.physics.air`.
 
 Everything is evaluated at the sample instants (point sampling), so content above the Nyquist
 frequency aliases exactly as it would on an ADC without an anti-alias filter.
@@ -346,7 +346,7 @@ def mirror_trajectory(scan: Scan, t: np.ndarray, rng: np.random.Generator) -> np
 def _index(medium: str, air, wavelength_nm):
     if medium == "vacuum":
         return np.ones_like(np.asarray(wavelength_nm, dtype=float))
-    from ftsource.air import ciddor_index
+    from ftsource.physics.air import ciddor_index
 
     return ciddor_index(
         np.asarray(wavelength_nm, dtype=float),
@@ -400,7 +400,7 @@ def simulate(
     scan, reference, detector : optional
         Mirror motion and sampling; reference detector; source detector.
     medium : {"vacuum", "air"}
-        In air, ``air`` (an :class:`ftsource.air.AirConditions`) sets the index at every
+        In air, ``air`` (an :class:`ftsource.physics.air.AirConditions`) sets the index at every
         wavelength (Ciddor 1996).
     rng : numpy Generator or seed
         Source of all randomness (noise, wobble).
@@ -408,10 +408,10 @@ def simulate(
     Returns
     -------
     Simulation
-        ``record`` is a :class:`ftsource.records.Record` with columns ``time``, ``signal`` and
+        ``record`` is a :class:`ftsource.io.records.Record` with columns ``time``, ``signal`` and
         ``ref_i``/``ref_q``, ``ref`` or ``position`` per ``reference.kind``.
     """
-    from ftsource.records import Record
+    from ftsource.io.records import Record
 
     scan = scan or Scan()
     reference = reference or ReferenceChannel()
@@ -420,7 +420,7 @@ def simulate(
     if medium not in ("vacuum", "air"):
         raise ValueError("medium must be 'vacuum' or 'air'")
     if medium == "air" and air is None:
-        from ftsource.air import AirConditions
+        from ftsource.physics.air import AirConditions
 
         air = AirConditions()
 

@@ -17,8 +17,8 @@ from pathlib import Path
 import numpy as np
 
 from ftsource import simulate as S
-from ftsource.air import AirConditions
-from ftsource.records import write_record_wav
+from ftsource.io.records import write_record_wav
+from ftsource.physics.air import AirConditions
 
 OUT = Path(__file__).resolve().parent.parent / "ftsource" / "demo_data"
 AIR = AirConditions.measured(21.5, 99_100.0, 38.0)

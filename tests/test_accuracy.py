@@ -1,7 +1,7 @@
 """End-to-end accuracy of the centre wavelength (the acceptance test of the wavelength issue).
 
 Single lines at invented wavelengths are simulated on noisy records with drifting levels and
-an uneven mirror speed and analysed by ``ftsource.pipeline.analyze`` in vacuum. The truth is
+an uneven mirror speed and analysed by ``ftsource.analysis.analyze`` in vacuum. The truth is
 the simulated line's vacuum wavelength; the simulator's conventions are checked against closed
 forms in tests/test_simulate.py. Required: 0.2 ppm with a quadrature reference (unequal gains
 and offsets, 85° between the channels), 1 ppm with a single reference channel (the issue's
@@ -15,7 +15,7 @@ from __future__ import annotations
 import pytest
 
 from ftsource import simulate as S
-from ftsource.pipeline import AnalysisOptions, analyze
+from ftsource.analysis import AnalysisOptions, analyze
 
 REF_NM = 632.991
 WAVELENGTHS = [450.0, 532.0, 650.0, 850.0]

@@ -1,4 +1,4 @@
-"""Tests of ftsource.air: refractive index of air, air/vacuum wavelengths, dispersion.
+"""Tests of ftsource.physics.air: refractive index of air, air/vacuum wavelengths, dispersion.
 
 Sources (named again beside each check):
 - NIST: J. A. Stone and J. H. Zimmerman, "Index of Refraction of Air", NIST Refractive Index
@@ -26,7 +26,8 @@ import ref_index
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from ftsource.air import (
+from ftsource.errors import OptionError
+from ftsource.physics.air import (
     MEASURED_UNCERTAINTY,
     MODEL_STANDARD_UNCERTAINTY,
     UNMEASURED_UNCERTAINTY,
@@ -44,7 +45,6 @@ from ftsource.air import (
     vacuum_to_air_nm,
     vacuum_to_standard_air_nm,
 )
-from ftsource.errors import OptionError
 
 # NIST prints n to 9 decimals (rounding ±5e-10); an independent implementation of Appendix A
 # reproduces them to ≤ 6e-10 (check-values §5, C). 2e-9 leaves room for both.

@@ -1,6 +1,6 @@
 """Lines in air measured against a 633 nm reference (the dispersion correction end to end).
 
-Oracle: the simulator in air (its index comes from ftsource.air.ciddor_index, tested against
+Oracle: the simulator in air (its index comes from ftsource.physics.air.ciddor_index, tested against
 the NIST worked values of Stone & Zimmerman in test_air.py); check-values §4 gives the size of
 the error when dispersion is ignored (−1.65 ppm at 532 nm at 20 °C, 101.325 kPa, 50 % RH, a
 value computed from Ciddor 1996).
@@ -9,8 +9,8 @@ value computed from Ciddor 1996).
 import pytest
 
 from ftsource import simulate as S
-from ftsource.air import AirConditions
-from ftsource.pipeline import AnalysisOptions, analyze
+from ftsource.analysis import AnalysisOptions, analyze
+from ftsource.physics.air import AirConditions
 
 LAB = AirConditions.measured(20.0, 101_325.0, 50.0)
 

@@ -24,11 +24,11 @@ import ref_index
 from scipy import stats
 
 from ftsource import simulate as S
-from ftsource.air import AirConditions
 from ftsource.cli import _options as cli_options
 from ftsource.cli import build_parser, main
-from ftsource.records import write_record_npz
-from ftsource.uncertainty import DOF_AS_INFINITE, Budget, Component
+from ftsource.io.records import write_record_npz
+from ftsource.measure.uncertainty import DOF_AS_INFINITE, Budget, Component
+from ftsource.physics.air import AirConditions
 
 LAB = AirConditions.measured(20.0, 101_325.0, 50.0)
 AIR = ["--air-temperature", "20degC", "--air-pressure", "101325Pa", "--air-humidity", "50%"]

@@ -16,15 +16,15 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from ftsource import simulate as S
-from ftsource.aliasing import (
+from ftsource.analysis import AnalysisOptions, analyze
+from ftsource.lines.aliasing import (
     SHORTEST_DETECTED_NM,
     assess_lines,
     band_at_risk,
     folded_band,
     speed_step_needed,
 )
-from ftsource.pipeline import AnalysisOptions, analyze
-from ftsource.sweeps import AliasCheck, LineVerdict
+from ftsource.lines.sweeps import AliasCheck, LineVerdict
 
 
 def _brute_force_image(lo, hi, F, n=200_001):

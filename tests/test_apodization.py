@@ -1,4 +1,4 @@
-"""Tests of ftsource.apodization.
+"""Tests of ftsource.spectrum.apodization.
 
 Oracles:
 * Table values: /work/shared/reference/check-values.md section 1 ("continuous case": the
@@ -25,7 +25,8 @@ from hypothesis import strategies as st
 from scipy import integrate, optimize, special
 from scipy.signal import windows
 
-from ftsource.apodization import (
+from ftsource.errors import OptionError
+from ftsource.spectrum.apodization import (
     Apodization,
     apodization_names,
     apodize,
@@ -34,7 +35,6 @@ from ftsource.apodization import (
     instrument_line_shape,
     mertz_ramp,
 )
-from ftsource.errors import OptionError
 
 # name: (FWHM x 1/(2L), largest sidelobe in percent, signed, source).
 # check-values.md section 1, continuous case; status codes as given there.

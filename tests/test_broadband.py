@@ -1,4 +1,4 @@
-"""Tests of ftsource.broadband: LED figures on the density per unit wavelength.
+"""Tests of ftsource.measure.broadband: LED figures on the density per unit wavelength.
 
 Sources:
 - check-values §8 (C): a band Gaussian in λ (λ_p = 525 nm, FWHM 30 nm) has its S_σ peak at
@@ -22,12 +22,12 @@ import numpy as np
 import pytest
 from scipy import integrate, optimize, stats
 
-from ftsource.broadband import (
+from ftsource.errors import AnalysisError, FtsourceWarning, OptionError
+from ftsource.measure.broadband import (
     broadband_metrics,
     density_per_nm,
     wavenumber_centroid_per_cm,
 )
-from ftsource.errors import AnalysisError, FtsourceWarning, OptionError
 
 LN2 = math.log(2.0)
 FWHM_PER_S = 2.0 * math.sqrt(2.0 * LN2)

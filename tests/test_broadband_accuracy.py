@@ -1,7 +1,7 @@
 """Broad sources through the whole pipeline (issue: interferogram processing done properly).
 
 Oracle: the simulator's closed-form source density (SourceModel.density, tested in
-test_simulate.py); the truth figures are computed from it with ftsource.broadband (CIE 127 /
+test_simulate.py); the truth figures are computed from it with ftsource.measure.broadband (CIE 127 /
 IES definitions on the density per unit wavelength, tested against check-values §8), so
 estimator and truth share definitions and differ only by the measurement.
 """
@@ -10,8 +10,8 @@ import numpy as np
 import pytest
 
 from ftsource import simulate as S
-from ftsource.broadband import broadband_metrics
-from ftsource.pipeline import AnalysisOptions, analyze
+from ftsource.analysis import AnalysisOptions, analyze
+from ftsource.measure.broadband import broadband_metrics
 
 
 def _truth(src, centre_nm, fwhm_nm):

@@ -1,4 +1,4 @@
-"""Tests of ftsource.calibration: the rig's effective reference wavelength from a known line.
+"""Tests of ftsource.calibrate.calibration: the rig's effective reference wavelength from a known line.
 
 Sources:
 * closed form: the rig's OPD is counted in reference fringes, so λ_measured = λ_ref·N and
@@ -22,7 +22,7 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from ftsource.calibration import (
+from ftsource.calibrate.calibration import (
     FILE_KIND,
     RigCalibration,
     calibrate_reference,

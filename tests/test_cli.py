@@ -28,10 +28,10 @@ import pytest
 from cli_helpers import assert_clean_error, run, tree
 
 import ftsource
-from ftsource import report
 from ftsource import simulate as sim
 from ftsource.errors import OutputError
-from ftsource.records import write_record_csv, write_record_npz, write_record_wav
+from ftsource.io.records import write_record_csv, write_record_npz, write_record_wav
+from ftsource.report import text as report
 
 REF = ["--reference-wavelength", "632.991nm"]
 FS = 48_000.0
@@ -518,8 +518,8 @@ def test_demo_refuses_before_analysing_when_a_result_exists(capsys, tmp_path):
 def test_write_without_hard_links(record_file, tmp_path, monkeypatch):
     """On a file system without hard links (FAT on a USB stick) results are still written,
     and --overwrite still restores earlier files when the second write fails."""
-    from ftsource.pipeline import AnalysisOptions, analyze
-    from ftsource.records import read_record
+    from ftsource.analysis import AnalysisOptions, analyze
+    from ftsource.io.records import read_record
 
     result = analyze(read_record(record_file), AnalysisOptions(reference_wavelength_nm=632.991))
 

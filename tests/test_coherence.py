@@ -1,4 +1,4 @@
-"""Tests of ftsource.coherence.
+"""Tests of ftsource.measure.coherence.
 
 Sources of the expected values:
 * Goodman, *Statistical Optics* (Wiley 1985), §5.2: L_c = ∫|γ(x)|² dx. Closed forms for a line of
@@ -24,7 +24,8 @@ from scipy.integrate import quad
 from scipy.optimize import brentq
 from scipy.special import voigt_profile
 
-from ftsource.coherence import (
+from ftsource.errors import AnalysisError, OptionError, RecordError
+from ftsource.measure.coherence import (
     GOODMAN_DEFINITION,
     CoherenceEstimate,
     agree,
@@ -32,7 +33,6 @@ from ftsource.coherence import (
     coherence_from_visibility,
     coherence_lower_bound_cm,
 )
-from ftsource.errors import AnalysisError, OptionError, RecordError
 
 LN2 = np.log(2.0)
 S0 = 15000.0  # cm^-1, invented line centre

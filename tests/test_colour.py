@@ -1,4 +1,4 @@
-"""Tests of ftsource.colour: CIE 1931 chromaticity and dominant wavelength.
+"""Tests of ftsource.measure.colour: CIE 1931 chromaticity and dominant wavelength.
 
 Reference library: colour-science (PyPI ``colour-science``), used through
 ``colour.sd_to_XYZ`` / ``colour.XYZ_to_xy`` and ``colour.dominant_wavelength``; facts about its
@@ -17,9 +17,9 @@ from hypothesis import strategies as st
 from hypothesis.extra.numpy import arrays
 from scipy.spatial import ConvexHull
 
-from ftsource import colour as ftc
 from ftsource._data import data_path
 from ftsource.errors import FtsourceError, OptionError
+from ftsource.measure import colour as ftc
 
 CMFS_REF = colour.MSDS_CMFS["CIE 1931 2 Degree Standard Observer"]
 E_WHITE = np.array([1.0 / 3.0, 1.0 / 3.0])

@@ -1,7 +1,7 @@
 """The calibrate and response commands end to end (in-process ``main``).
 
 Oracles: the simulator (tested against closed forms in test_simulate.py); Planck's law
-(M. Planck, Ann. Phys. 309, 553 (1901)) through ftsource.response.planck_density_per_cm (tested
+(M. Planck, Ann. Phys. 309, 553 (1901)) through ftsource.calibrate.response.planck_density_per_cm (tested
 against astropy's BlackBody in test_response.py); the 532.245 nm known line is the
 iodine-stabilised frequency-doubled Nd:YAG value (check-values §6, CIPM recommendation).
 """
@@ -10,9 +10,9 @@ import numpy as np
 import pytest
 
 from ftsource import simulate as S
+from ftsource.calibrate.response import ResponseCurve, planck_density_per_cm
 from ftsource.cli import main
-from ftsource.records import write_record_npz
-from ftsource.response import ResponseCurve, planck_density_per_cm
+from ftsource.io.records import write_record_npz
 
 
 def _write(path, source, scan, seed):

@@ -31,7 +31,7 @@ import pytest
 from cli_helpers import assert_clean_error, run, tree
 
 from ftsource import simulate as sim
-from ftsource.records import write_record_csv, write_record_npz, write_record_wav
+from ftsource.io.records import write_record_csv, write_record_npz, write_record_wav
 
 REF = ["--reference-wavelength", "632.991nm"]
 FS = 48_000.0
@@ -653,8 +653,7 @@ def test_python_tags_in_a_response_file_are_not_run(tmp_path, capsys, base):
 def test_npz_that_unpacks_beyond_memory_is_refused(tmp_path, capsys, base, monkeypatch):
     """A zip archive declares each member's unpacked size (PKWARE APPNOTE 4.4.9); an archive
     that would unpack beyond the memory limit is refused before anything is unpacked."""
-    from ftsource import records
-
+    from ftsource.io import records
     write_record_npz(tmp_path / "big.npz", base, compress=True)
     monkeypatch.setattr(records, "_memory_limit", lambda: 1 << 16)
     status, _out, err = run(capsys, ["analyze", tmp_path / "big.npz", *REF])

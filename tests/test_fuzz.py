@@ -31,7 +31,7 @@ from hypothesis import strategies as st
 from ftsource import simulate as sim
 from ftsource.cli import main
 from ftsource.errors import FtsourceError
-from ftsource.records import (
+from ftsource.io.records import (
     MIN_SAMPLES,
     Record,
     read_record,

@@ -1,4 +1,4 @@
-"""Ghost lines (ftsource.ghosts and the flags of ``analyze``): reference light, harmonics and
+"""Ghost lines (ftsource.lines.ghosts and the flags of ``analyze``): reference light, harmonics and
 intermodulation products of a clipped detector.
 
 Oracles:
@@ -28,8 +28,8 @@ import numpy as np
 import pytest
 
 from ftsource import simulate as sim
-from ftsource.ghosts import IN_BAND_MARGIN, MAX_INTERMOD_ORDER, flag_ghosts
-from ftsource.pipeline import AnalysisOptions, _clipped_fraction, analyze
+from ftsource.analysis import AnalysisOptions, _clipped_fraction, analyze
+from ftsource.lines.ghosts import IN_BAND_MARGIN, MAX_INTERMOD_ORDER, flag_ghosts
 
 S1, S2 = 9000.0, 7000.0  # two source lines, cm⁻¹ (invented)
 TOL = 5.0  # cm⁻¹
@@ -151,7 +151,7 @@ def test_mismatched_inputs_raise():
 def test_the_modes_of_a_clipped_gaussian_comb_are_not_flagged(fwhm_modes):
     # closed-form comb: mode k at σ0 + kΔ with strength exp(−4 ln 2 k²/F²) (as
     # ftsource.simulate.multimode lays it out); modes above 5 % of the strongest (the
-    # fraction ftsource.modes counts). Mode k+1 = 2σ_k − σ_(k−1) exactly, weaker than both.
+    # fraction ftsource.measure.modes counts). Mode k+1 = 2σ_k − σ_(k−1) exactly, weaker than both.
     s0, d = 15_000.0, 20.0
     k = np.arange(-12, 13)
     a = np.exp(-4 * np.log(2) * k**2 / fwhm_modes**2)

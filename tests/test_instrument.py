@@ -1,4 +1,4 @@
-"""Tests of ftsource.instrument: field-of-view (Jacquinot) formulas and encoder OPD.
+"""Tests of ftsource.physics.instrument: field-of-view (Jacquinot) formulas and encoder OPD.
 
 Independent check: the centroid and width of a line seen through a cone of rays, computed here
 by direct numerical integration of σ cos θ over the solid angle with scipy.integrate.quad
@@ -16,9 +16,9 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 from scipy.integrate import quad
 
-from ftsource.air import AirConditions
 from ftsource.errors import OptionError
-from ftsource.instrument import (
+from ftsource.physics.air import AirConditions
+from ftsource.physics.instrument import (
     encoder_opd_cm,
     field_of_view_broadening,
     field_of_view_correction,
@@ -153,7 +153,7 @@ D_STOP, F_COLL = 0.010, 0.050  # m: Ω = 0.0314 sr, Ω/4π = 2.5e-3 (a large, vi
 
 def _fov_analysis(source, **opts):
     from ftsource import simulate as S
-    from ftsource.pipeline import AnalysisOptions, analyze
+    from ftsource.analysis import AnalysisOptions, analyze
 
     sim = S.simulate(source, S.Scan(sample_rate_hz=100_000, duration_s=0.5, opd_centre_cm=0.0,
                                     opd_amplitude_cm=0.02, sweep_rate_hz=4.0),
@@ -164,7 +164,7 @@ def _fov_analysis(source, **opts):
 
 def test_led_through_a_field_stop_is_corrected():
     from ftsource import simulate as S
-    from ftsource.broadband import broadband_metrics
+    from ftsource.measure.broadband import broadband_metrics
 
     eps = 1 - 1 / field_of_view_correction(1.0, field_solid_angle(D_STOP, F_COLL))
     # the exact cone, Ω = 2π(1 − cos θ) with tan θ = d/2f (≈ π d²/4f² for a small stop)
@@ -191,7 +191,6 @@ def test_led_through_a_field_stop_is_corrected():
 
 def test_laser_through_a_field_stop_is_not_corrected():
     from ftsource import simulate as S
-
     d = _fov_analysis(S.laser(650.0), aperture_diameter_m=D_STOP, focal_length_m=F_COLL)
     assert any("not to a laser beam" in w for w in d["warnings"])
     assert d["summary"]["centre_wavelength_nm"] == pytest.approx(650.0, abs=1e-3)

@@ -1,10 +1,10 @@
-"""Tests of ftsource.lines: fitting and finding lines in spectra of known sources.
+"""Tests of ftsource.lines.fitting: fitting and finding lines in spectra of known sources.
 
 The spectra are made here from closed-form interferograms on a uniform OPD grid (a line of
 integrated strength s and coherence function γ contributes s·γ(x)·cos(2πσ₀x); Wiener–Khinchin,
 e.g. Goodman, *Statistical Optics*, ch. 5; γ(x) = exp(−(πgx)²/(4 ln 2)) for a Gaussian of FWHM
 g and exp(−πl|x|) for a Lorentzian of FWHM l, closed forms of the Fourier transforms) plus
-white Gaussian noise from a seeded generator, transformed by ftsource.spectrum.sweep_spectrum
+white Gaussian noise from a seeded generator, transformed by ftsource.spectrum.spectrum.sweep_spectrum
 (the transform itself is tested against closed forms in tests/test_spectrum.py). No simulator is
 involved, so the truth (centre, width, area) is exact.
 
@@ -20,11 +20,11 @@ import pytest
 from scipy import special
 from scipy.fft import next_fast_len
 
-from ftsource.apodization import get_apodization
-from ftsource.lines import DETECTION_SNR, find_lines, fit_line, voigt_fwhm
-from ftsource.opd import Sweep
-from ftsource.resample import Interferogram
-from ftsource.spectrum import coadd, sweep_spectrum
+from ftsource.interferogram.opd import Sweep
+from ftsource.interferogram.resample import Interferogram
+from ftsource.lines.fitting import DETECTION_SNR, find_lines, fit_line, voigt_fwhm
+from ftsource.spectrum.apodization import get_apodization
+from ftsource.spectrum.spectrum import coadd, sweep_spectrum
 
 LN2 = np.log(2.0)
 DX = 632.991e-7 / 8  # cm; a He–Ne reference wavelength over 8

@@ -4,7 +4,7 @@ the input checks of ``ftsource calibrate`` (in-process ``main``).
 Oracles:
 
 * ``ref-index`` (PyPI ``ref_index``, an independent implementation of the NIST Appendix A
-  Ciddor equation; see tests/test_air.py and check-values.md §5) and ``ftsource.air``:
+  Ciddor equation; see tests/test_air.py and check-values.md §5) and ``ftsource.physics.air``:
   λ_air = λ_vac / n(λ_vac) (NIST Refractive Index of Air Calculator, eq. 1).
 * check-values.md §6: vacuum and standard-air line values (Ne I 640.2248 nm air → 640.40178 nm
   vacuum, V2/C; Ar I 696.5431 nm air → 696.73523 nm vacuum, V2/C; Na D2 588.9950 nm air, V);
@@ -27,12 +27,12 @@ import pytest
 import ref_index
 
 from ftsource import simulate as sim
-from ftsource.air import ciddor_index
-from ftsource.calibration import load_calibration
+from ftsource.calibrate.calibration import load_calibration
 from ftsource.cli import main
 from ftsource.errors import OptionError
-from ftsource.records import write_record_npz
-from ftsource.reference import entries_with_value, pick_entry, search_lines
+from ftsource.io.records import write_record_npz
+from ftsource.linelists import entries_with_value, pick_entry, search_lines
+from ftsource.physics.air import ciddor_index
 
 NE_640_VAC = 640.40178  # check-values §6 (V2 air / C vacuum)
 AR_697_VAC = 696.73523  # check-values §6 (V2 air / C vacuum)
@@ -70,7 +70,7 @@ def test_air_wavelength_at_given_conditions_is_vacuum_over_ciddor_index(capsys, 
     # the list's vacuum value (check-values §6, C) to its printed digits
     assert r["wavelength_vac_nm"] == pytest.approx(vac, abs=1e-5)
     wl = r["wavelength_vac_nm"]
-    # λ_air = λ_vac / n (NIST calculator eq. 1), n from ftsource.air and from ref-index
+    # λ_air = λ_vac / n (NIST calculator eq. 1), n from ftsource.physics.air and from ref-index
     assert r["wavelength_air_nm"] == pytest.approx(wl / ciddor_index(wl, 25.0, 95e3, 30.0),
                                                    rel=1e-13)
     assert r["wavelength_air_nm"] == pytest.approx(wl / ref_index.ciddor(wl, 25.0, 95e3, 30.0),
@@ -78,7 +78,7 @@ def test_air_wavelength_at_given_conditions_is_vacuum_over_ciddor_index(capsys, 
     assert r["air_convention"] == "given conditions"
     assert r["air_conditions"] == {"temperature_c": 25.0, "pressure_pa": 95000.0,
                                    "humidity_percent": 30.0, "co2_ppm": 450.0}
-    # u(n) from sensor-class uncertainties of the given values: a few 1e-7 (ftsource.air)
+    # u(n) from sensor-class uncertainties of the given values: a few 1e-7 (ftsource.physics.air)
     assert 1e-8 < r["u_air_index"] < 2e-6
 
 

@@ -23,8 +23,8 @@ import pytest
 from test_lines import DX, closed_form_spectrum  # closed-form spectra, see tests/test_lines.py
 
 from ftsource import simulate as sim
-from ftsource.lines import fit_line
-from ftsource.pipeline import AnalysisOptions, analyze
+from ftsource.analysis import AnalysisOptions, analyze
+from ftsource.lines.fitting import fit_line
 
 LN2 = np.log(2.0)
 GOODMAN_GAUSSIAN = np.sqrt(2 * LN2 / np.pi)  # 0.66428, check-values §7

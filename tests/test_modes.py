@@ -1,4 +1,4 @@
-"""Tests of ftsource.modes.
+"""Tests of ftsource.measure.modes.
 
 Sources of the expected values:
 * A Fabry–Pérot comb (Siegman, *Lasers*, 1986, §11.3): modes at σ_k = σ₀ + kΔσ, equally spaced
@@ -19,7 +19,7 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from ftsource.errors import AnalysisError, OptionError, RecordError
-from ftsource.modes import ModeComb, check_revivals, find_mode_comb, revival_opd_cm
+from ftsource.measure.modes import ModeComb, check_revivals, find_mode_comb, revival_opd_cm
 from ftsource.simulate import multimode
 
 LN2 = np.log(2.0)

@@ -1,4 +1,4 @@
-"""Tests of ftsource.opd.
+"""Tests of ftsource.interferogram.opd.
 
 Oracles:
 * closed-form ellipses ``I = p + a cos φ``, ``Q = q + b sin(φ + α)`` (Heydemann 1981, Appl.
@@ -21,9 +21,9 @@ from functools import cache
 import numpy as np
 import pytest
 
-from ftsource import opd
 from ftsource import simulate as S
 from ftsource.errors import AnalysisError
+from ftsource.interferogram import opd
 
 REF_NM = 632.991
 LAM_CM = REF_NM * 1e-7

@@ -20,8 +20,8 @@ import pytest
 from astropy.table import Table
 
 from ftsource import simulate as S
-from ftsource.broadband import broadband_metrics
 from ftsource.cli import main
+from ftsource.measure.broadband import broadband_metrics
 
 
 def _schema():

@@ -1,4 +1,4 @@
-"""Tests of ftsource.phase.
+"""Tests of ftsource.spectrum.phase.
 
 Oracles, all made here (no dependence on the project's simulator):
 * The spectrum B(s) = exp(-(s - s0)^2 / (2 w^2)), s0 = 15000 cm^-1, FWHM 500 cm^-1, with a
@@ -21,10 +21,10 @@ import numpy as np
 import pytest
 from scipy import integrate, optimize
 
-from ftsource.apodization import get_apodization
 from ftsource.errors import AnalysisError, FtsourceWarning, OptionError
-from ftsource.phase import PhasedSpectrum, forman, low_resolution_phase, magnitude, mertz
-from ftsource.zpd import ZpdInfo, find_zpd
+from ftsource.interferogram.zpd import ZpdInfo, find_zpd
+from ftsource.spectrum.apodization import get_apodization
+from ftsource.spectrum.phase import PhasedSpectrum, forman, low_resolution_phase, magnitude, mertz
 
 DX = 2.5e-5  # cm; invented 250 nm OPD step, folding wavenumber 20000 cm^-1
 S0 = 15000.0

@@ -1,4 +1,4 @@
-"""Tests of ftsource.records: reading and writing record files.
+"""Tests of ftsource.io.records: reading and writing record files.
 
 Sources (named again beside each check):
 - WAV spec: IBM and Microsoft, "Multimedia Programming Interface and Data Specifications 1.0"
@@ -30,9 +30,9 @@ import scipy.io.wavfile as wavfile
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
-from ftsource import records
 from ftsource.errors import OptionError, OutputError, RecordError
-from ftsource.records import (
+from ftsource.io import records
+from ftsource.io.records import (
     MIN_SAMPLES,
     Record,
     parse_column_map,

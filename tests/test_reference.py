@@ -1,4 +1,4 @@
-"""Tests of ftsource.reference and the shipped line lists in reference_spectra/.
+"""Tests of ftsource.linelists and the shipped line lists in reference_spectra/.
 
 Sources of the expected values (status codes as in check-values.md: V = seen in a retrieved
 text, V2 = seen in a secondary text quoting the primary, C = independent calculation):
@@ -26,9 +26,9 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from ftsource import reference
+from ftsource import linelists as reference
 from ftsource.errors import FtsourceError, OptionError
-from ftsource.reference import (
+from ftsource.linelists import (
     Candidate,
     identify,
     line_list_names,
@@ -122,7 +122,6 @@ def test_data_folder_is_package_resource_or_source_tree():
 def _fake_layout(monkeypatch, tmp_path, *, packaged: bool, source: bool) -> tuple[Path, Path]:
     """Point the data locator at a fake installed package and a fake source tree."""
     from ftsource import _data
-
     pkg = tmp_path / "site" / "ftsource" / "reference_spectra"
     src = tmp_path / "checkout" / "reference_spectra"
     for folder, wanted in ((pkg, packaged), (src, source)):
@@ -415,7 +414,7 @@ def test_search_air_with_callable():
 
 
 def test_search_air_with_conditions_uses_air_module(monkeypatch):
-    fake = types.ModuleType("ftsource.air")
+    fake = types.ModuleType("ftsource.physics.air")
     calls = []
 
     def vacuum_to_air_nm(wl, conditions):
@@ -423,14 +422,14 @@ def test_search_air_with_conditions_uses_air_module(monkeypatch):
         return np.asarray(wl) * 0.5
 
     fake.vacuum_to_air_nm = vacuum_to_air_nm
-    monkeypatch.setitem(sys.modules, "ftsource.air", fake)
+    monkeypatch.setitem(sys.modules, "ftsource.physics.air", fake)
     t = search_lines(element="He", medium="air", conditions="lab")
     assert calls and calls[0] == "lab"
     np.testing.assert_allclose(t["wavelength_nm"], t["wavelength_vac_nm"] * 0.5)
 
 
 def test_search_air_conditions_without_air_module(monkeypatch):
-    monkeypatch.setitem(sys.modules, "ftsource.air", None)  # import fails
+    monkeypatch.setitem(sys.modules, "ftsource.physics.air", None)  # import fails
     with pytest.raises(OptionError, match="to_air"):
         search_lines(medium="air", conditions="lab")
 

@@ -1,4 +1,4 @@
-"""Tests of ftsource.resample.
+"""Tests of ftsource.interferogram.resample.
 
 Oracles:
 * closed forms: λ_min = v_max/(β f_s) (a fringe frequency v/λ below β f_s), grid steps
@@ -20,11 +20,11 @@ from functools import cache
 import numpy as np
 import pytest
 
-from ftsource import opd
-from ftsource import resample as R
 from ftsource import simulate as S
 from ftsource.errors import AnalysisError
-from ftsource.opd import OpticalPath, Sweep
+from ftsource.interferogram import opd
+from ftsource.interferogram import resample as R
+from ftsource.interferogram.opd import OpticalPath, Sweep
 
 REF_NM = 632.991
 LAM_REF_CM = REF_NM * 1e-7

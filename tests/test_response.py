@@ -1,4 +1,4 @@
-"""Tests of ftsource.response: Planck shape, response calibration and correction.
+"""Tests of ftsource.calibrate.response: Planck shape, response calibration and correction.
 
 Sources:
 * Planck's law per frequency from astropy (PyPI ``astropy``,
@@ -22,7 +22,7 @@ import pytest
 from astropy import constants as const
 from astropy.modeling.physical_models import BlackBody
 
-from ftsource import response as R
+from ftsource.calibrate import response as R
 from ftsource.errors import AnalysisError, FtsourceWarning, OptionError, OutputError
 
 T_A = 2856.0  # CIE illuminant A's temperature, K (CIE 15:2018)

@@ -4,13 +4,13 @@ Oracles:
 * the simulator's closed-form source density (SourceModel.density, tested in test_simulate.py):
   a record is simulated from the source *times a known detector response* (each component of
   the LED comb scaled by the response at its wavenumber), so the true, unweighted spectrum is
-  known exactly; its figures come from ftsource.broadband (CIE 127 / IES definitions);
-* the detector response is the typical silicon shape of ftsource.response (common practice /
+  known exactly; its figures come from ftsource.measure.broadband (CIE 127 / IES definitions);
+* the detector response is the typical silicon shape of ftsource.calibrate.response (common practice /
   from memory; here it is only an invented but known truth, shared by the simulation and the
   response curve given to analyze);
 * moments of a truncated normal distribution (closed form) for the response's correlated
   uncertainty;
-* colour: ftsource.colour on the true spectrum (tested in test_colour.py against CIE data) and
+* colour: ftsource.measure.colour on the true spectrum (tested in test_colour.py against CIE data) and
   the general-purpose colour-science library (PyPI ``colour-science``: ``colour.sd_to_XYZ``,
   ``colour.XYZ_to_xy``, ``colour.dominant_wavelength``, whose dominant wavelength is a
   whole-nanometre table value, so ±0.5 nm).
@@ -28,12 +28,12 @@ import pytest
 from astropy.table import Table
 from scipy.stats import norm
 
-from ftsource import colour as ftc
 from ftsource import simulate as S
-from ftsource.broadband import broadband_metrics
-from ftsource.pipeline import AnalysisOptions, analyze
-from ftsource.report import format_summary, write_outputs
-from ftsource.response import ResponseCurve, silicon_photodiode_response
+from ftsource.analysis import AnalysisOptions, analyze
+from ftsource.calibrate.response import ResponseCurve, silicon_photodiode_response
+from ftsource.measure import colour as ftc
+from ftsource.measure.broadband import broadband_metrics
+from ftsource.report.text import format_summary, write_outputs
 
 SCAN = S.Scan(sample_rate_hz=48_000, duration_s=0.5, opd_centre_cm=0.0, opd_amplitude_cm=0.02,
               sweep_rate_hz=4.0)

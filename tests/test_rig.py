@@ -1,4 +1,4 @@
-"""Rig calibration from a record of a known line (ftsource.rig).
+"""Rig calibration from a record of a known line (ftsource.calibrate.rig).
 
 Oracle: the simulator (itself tested against closed forms in test_simulate.py) with a reference
 laser whose true vacuum wavelength differs from the nominal value the analysis is told, as an
@@ -9,10 +9,10 @@ import numpy as np
 import pytest
 
 from ftsource import simulate as S
-from ftsource.calibration import load_calibration, save_calibration
+from ftsource.analysis import AnalysisOptions, analyze
+from ftsource.calibrate.calibration import load_calibration, save_calibration
+from ftsource.calibrate.rig import calibrate_rig
 from ftsource.errors import AnalysisError
-from ftsource.pipeline import AnalysisOptions, analyze
-from ftsource.rig import calibrate_rig
 
 NOMINAL = 632.991
 TRUE_REF = 632.99185  # 1.34 ppm longer than nominal: the bias a calibration must remove
@@ -46,7 +46,7 @@ def test_calibration_then_second_record_within_its_uncertainty(tmp_path):
     cal, res = calibrate_rig(_record(KNOWN, 2), opts, KNOWN, 0.0)
     # the effective reference absorbs the reference's true wavelength (closed form)
     assert cal.effective_reference_wavelength_nm == pytest.approx(TRUE_REF, rel=1e-7)
-    # deviation_ppm = (λ_ref,eff/λ_ref − 1)·10⁶ (ftsource.calibration's definition)
+    # deviation_ppm = (λ_ref,eff/λ_ref − 1)·10⁶ (ftsource.calibrate.calibration's definition)
     assert cal.deviation_ppm == pytest.approx((TRUE_REF / NOMINAL - 1) * 1e6, abs=0.1)
     path = tmp_path / "rig.json"
     save_calibration(path, cal)
@@ -144,7 +144,7 @@ def test_calibration_of_another_kind_of_rig_is_refused():
 def test_calibration_file_without_opd_scale_is_a_reference_calibration(tmp_path):
     import json
 
-    from ftsource.calibration import calibrate_reference
+    from ftsource.calibrate.calibration import calibrate_reference
 
     cal = calibrate_reference(650.0001, 1e-5, 650.0, 1e-6, NOMINAL, 1.5e-6)
     doc = cal.to_dict()

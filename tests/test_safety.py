@@ -106,7 +106,7 @@ def test_bad_wavelength_raises(bad):
 
 def _green_result(ir_strength):
     from ftsource import simulate as S
-    from ftsource.pipeline import AnalysisOptions, analyze
+    from ftsource.analysis import AnalysisOptions, analyze
 
     lines = [S.SpectralLine(1e7 / 532.0, 1.0)]
     if ir_strength:

@@ -11,7 +11,7 @@ encodes is checked here against something outside it:
 * a line's coherence function is the Fourier transform of its normalised profile
   (Wiener–Khinchin theorem), checked by numerical integration with scipy.integrate.quad and by
   numpy.fft of a simulated interferogram;
-* the air index at each wavelength from ftsource.air.ciddor_index (Ciddor 1996, Appl. Opt.
+* the air index at each wavelength from ftsource.physics.air.ciddor_index (Ciddor 1996, Appl. Opt.
   35:1566; that function is tested in tests/test_air.py).
 """
 
@@ -22,7 +22,7 @@ import pytest
 from scipy import integrate
 
 from ftsource import simulate as S
-from ftsource.air import AirConditions, ciddor_index
+from ftsource.physics.air import AirConditions, ciddor_index
 
 REF_NM = 632.991
 FS = 48_000.0
@@ -96,7 +96,7 @@ def test_quadrature_phase_is_two_pi_opd_over_wavelength(quadrature_deg):
 
 def test_air_medium_uses_ciddor_index_at_each_wavelength():
     # In air the reference sees n(λ_ref) and the source n(λ_source), both from
-    # ftsource.air.ciddor_index (Ciddor 1996). Closed form as above with φ = 2π n d/λ.
+    # ftsource.physics.air.ciddor_index (Ciddor 1996). Closed form as above with φ = 2π n d/λ.
     air = AirConditions()
     src_nm = 532.0
     ref = S.ReferenceChannel(offsets=(0.0, 0.0), gains=(1.0, 1.0), noise_rms=0.0)

@@ -1,4 +1,4 @@
-"""Tests of ftsource.spectrum: the line shape, densities per wavenumber and per wavelength,
+"""Tests of ftsource.spectrum.spectrum: the line shape, densities per wavenumber and per wavelength,
 one sweep's transform and co-adding with its noise estimate.
 
 Oracles (named again beside each check):
@@ -19,10 +19,10 @@ import numpy as np
 import pytest
 from scipy import integrate, special
 
-from ftsource.apodization import get_apodization, instrument_line_shape
-from ftsource.opd import Sweep
-from ftsource.resample import Interferogram
-from ftsource.spectrum import LineShape, Spectrum, coadd, sweep_spectrum
+from ftsource.interferogram.opd import Sweep
+from ftsource.interferogram.resample import Interferogram
+from ftsource.spectrum.apodization import get_apodization, instrument_line_shape
+from ftsource.spectrum.spectrum import LineShape, Spectrum, coadd, sweep_spectrum
 
 LN2 = np.log(2.0)
 DX = 632.991e-7 / 8  # OPD step, cm: a He–Ne reference wavelength over 8 (any uniform step works)
@@ -441,7 +441,7 @@ def test_reconvolve_of_a_monochromatic_line_is_the_transform_of_the_squared_apod
     # Convolution theorem: the line shape K is the transform of A(|x|/L) over [−L, L], so
     # K∗K is the transform of A², 2∫₀ᴸ A(x/L)² cos(2πδx) dx, evaluated here by adaptive
     # quadrature (scipy.integrate.quad), independently of LineShape.
-    from ftsource.spectrum import reconvolve
+    from ftsource.spectrum.spectrum import reconvolve
 
     L = 0.05
     shape = LineShape(name, (L,), (1.0,))

@@ -1,4 +1,4 @@
-"""Tests of ftsource.sweeps (channel delay, outlier sweeps, aliases).
+"""Tests of ftsource.lines.sweeps (channel delay, outlier sweeps, aliases).
 
 Oracles:
 * closed forms written here: a Gaussian centre burst displaced by ``d·|v|·τ`` (the first-order
@@ -17,13 +17,14 @@ from functools import cache
 import numpy as np
 import pytest
 
-from ftsource import opd, resample, spectrum
 from ftsource import simulate as S
-from ftsource import sweeps as W
 from ftsource.errors import OptionError
-from ftsource.opd import Sweep
-from ftsource.resample import Interferogram
-from ftsource.zpd import find_zpd
+from ftsource.interferogram import opd, resample
+from ftsource.interferogram.opd import Sweep
+from ftsource.interferogram.resample import Interferogram
+from ftsource.interferogram.zpd import find_zpd
+from ftsource.lines import sweeps as W
+from ftsource.spectrum import spectrum
 
 REF_NM = 632.991
 FS = 48_000.0

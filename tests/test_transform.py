@@ -1,4 +1,4 @@
-"""Tests of ftsource.transform against numpy.fft (a general-purpose library)."""
+"""Tests of ftsource.spectrum.transform against numpy.fft (a general-purpose library)."""
 
 from __future__ import annotations
 
@@ -6,7 +6,7 @@ import numpy as np
 import pytest
 
 from ftsource.errors import OptionError
-from ftsource.transform import FFTPlanner, next_fft_length
+from ftsource.spectrum.transform import FFTPlanner, next_fft_length
 
 LENGTHS = [1, 2, 3, 7, 64, 1000, 1025, 4096, 10007]
 

@@ -1,4 +1,4 @@
-"""Tests of ftsource.uncertainty: the JCGM 100 budget.
+"""Tests of ftsource.measure.uncertainty: the JCGM 100 budget.
 
 Sources:
 - JCGM 100:2008 (GUM): a/√3 for a rectangle (4.3.7), law of propagation (5.1.2, 5.2.2),
@@ -22,7 +22,7 @@ import pytest
 from scipy import stats
 
 from ftsource.errors import FtsourceError, OptionError
-from ftsource.uncertainty import (
+from ftsource.measure.uncertainty import (
     Budget,
     Component,
     one_sided_rectangular,

@@ -1,4 +1,4 @@
-"""Tests of ftsource.zpd.
+"""Tests of ftsource.interferogram.zpd.
 
 Oracles are closed-form interferograms made here, not the project's simulator:
 * A Gaussian spectrum B(s) = exp(-(s - s0)^2 / (2 w^2)) has the interferogram
@@ -19,7 +19,7 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from ftsource.errors import OptionError, RecordError
-from ftsource.zpd import ZpdInfo, find_zpd, uniform_step_cm
+from ftsource.interferogram.zpd import ZpdInfo, find_zpd, uniform_step_cm
 
 DX = 2.5e-5  # cm; invented sampling step (250 nm of OPD), folding wavenumber 20000 cm^-1
 S0 = 15000.0  # cm^-1

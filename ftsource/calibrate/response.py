@@ -20,7 +20,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .errors import AnalysisError, FtsourceWarning, OptionError
+from ftsource.errors import AnalysisError, FtsourceWarning, OptionError
 
 __all__ = [
     "ResponseCurve",
@@ -58,7 +58,7 @@ _EMISSIVITY_NOTE = (
 # Planck
 # --------------------------------------------------------------------------------------------
 def _check_temperature(temperature_k, name="temperature_k") -> float:
-    from .instrument import _positive
+    from ftsource.physics.instrument import _positive
 
     t = _positive(name, temperature_k)
     if t.ndim != 0:
@@ -67,7 +67,7 @@ def _check_temperature(temperature_k, name="temperature_k") -> float:
 
 
 def _check_sigma(sigma_per_cm, name="sigma_per_cm") -> np.ndarray:
-    from .instrument import _positive
+    from ftsource.physics.instrument import _positive
 
     return _positive(name, sigma_per_cm, allow_zero=True)
 
@@ -303,7 +303,7 @@ class ResponseCurve:
         """
         from astropy.table import Table
 
-        from .records import _atomic_write
+        from ftsource.io.records import _atomic_write
 
         t = Table()
         t["sigma_per_cm"] = np.asarray(self.sigma_per_cm)

@@ -2,7 +2,7 @@
 
 Every sweep is transformed on one common wavenumber grid (same OPD step, same transform
 length), so co-adding is a plain mean. A sweep that holds the centre burst (ZPD) is
-phase-corrected (:mod:`ftsource.phase`) and gives a real spectrum whose line shape is known
+phase-corrected (:mod:`ftsource.spectrum.phase`) and gives a real spectrum whose line shape is known
 exactly; a sweep without ZPD — typical for a narrow laser line scanned away from equal arms —
 gives the magnitude of the transform of the apodized sweep about its own centre, so its
 resolution is set by half the transformed span, never more.
@@ -19,9 +19,9 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from ftsource.apodization import get_apodization
 from ftsource.errors import AnalysisError
-from ftsource.resample import Interferogram
+from ftsource.interferogram.resample import Interferogram
+from ftsource.spectrum.apodization import get_apodization
 
 __all__ = ["LineShape", "Spectrum", "SweepSpectrum", "sweep_spectrum", "coadd", "reconvolve"]
 
@@ -271,8 +271,8 @@ def sweep_spectrum(
     the sweep's centre otherwise; ``mertz``/``forman`` require ZPD in the sweep (else the
     magnitude is used and the method says so); ``magnitude`` always uses the magnitude.
     """
-    from ftsource import phase
-    from ftsource.zpd import ZpdInfo, find_zpd
+    from ftsource.interferogram.zpd import ZpdInfo, find_zpd
+    from ftsource.spectrum import phase
 
     x = ifg.x_cm
     zpd = find_zpd(x, ifg.y) if phase_correction != "magnitude" else None

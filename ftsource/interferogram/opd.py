@@ -11,7 +11,7 @@ Three sources of optical path are supported:
 * a **position encoder**: OPD = 2 × mirror position (the air index is applied later).
 
 The OPD is the reference phase / 2π × the reference's *vacuum* wavelength; in air the source
-wavenumbers are corrected afterwards for the index ratio (:mod:`ftsource.air`).
+wavenumbers are corrected afterwards for the index ratio (:mod:`ftsource.physics.air`).
 
 Kernel units: OPD in cm, time in s.
 """
@@ -590,7 +590,7 @@ def opd_from_position(
 ) -> OpticalPath:
     """Geometric OPD = 2 × mirror position (cm) from an encoder column in metres.
 
-    The index of air is applied later (:func:`ftsource.air.correct_dispersion` with a unit
+    The index of air is applied later (:func:`ftsource.physics.air.correct_dispersion` with a unit
     reference index).
     """
     p = np.asarray(position_m, float)

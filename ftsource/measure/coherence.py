@@ -29,8 +29,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from ._arrays import finite_pair
-from .errors import AnalysisError, OptionError, RecordError
+from ftsource._arrays import finite_pair
+from ftsource.errors import AnalysisError, OptionError, RecordError
 
 __all__ = [
     "GOODMAN_DEFINITION",
@@ -339,7 +339,7 @@ def coherence_from_visibility(
     y : array_like
         Interferogram samples on that grid.
     zpd_x_cm : float, optional
-        OPD of ZPD, cm. By default :func:`ftsource.zpd.find_zpd` locates the centre burst.
+        OPD of ZPD, cm. By default :func:`ftsource.interferogram.zpd.find_zpd` locates the centre burst.
         Give it when the record starts or ends at ZPD (a one-sided record) or when the
         envelope is flat (a narrow line), where the burst cannot be found.
     floor : float, optional
@@ -364,7 +364,7 @@ def coherence_from_visibility(
         not cover detector noise, which raises ``∫V²`` by about ``(noise/V(0))²`` per cm
         integrated, nor sidelobes of ``|γ|`` beyond the first fall below ``floor`` (a
         sharp-edged spectrum's ``sinc`` lobes: 10 % of ``L_c`` for a rectangle), nor revivals
-        of a multimode laser (see :mod:`ftsource.modes`): the spectrum route includes both.
+        of a multimode laser (see :mod:`ftsource.measure.modes`): the spectrum route includes both.
         ``half_visibility_opd_cm`` is the mean over the sides that reach ``V = ½``
         (linear interpolation between samples); noise makes the first fall to ½ early, by
         about the noise envelope divided by ``|dV/dx|`` there.
@@ -383,7 +383,7 @@ def coherence_from_visibility(
     .. [2] J. W. Goodman, *Statistical Optics*, Wiley (1985), §5.2 (τ_c = ∫|γ(τ)|²dτ).
     .. [3] D. Gabor, 'Theory of communication', J. IEE 93 (1946) 429-457 (analytic signal).
     """
-    from .zpd import find_zpd, interferogram_arrays
+    from ftsource.interferogram.zpd import find_zpd, interferogram_arrays
 
     x, yy, step = interferogram_arrays(x_cm, y)
     if x.size < 16:

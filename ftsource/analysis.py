@@ -40,7 +40,7 @@ class AnalysisOptions:
     """Everything the analysis needs besides the record.
 
     Wavelengths are vacuum values in nm; ratios (uncertainty, allowance) in ppm.
-    ``air`` is an :class:`ftsource.air.AirConditions` (default: an unmeasured lab, with its
+    ``air`` is an :class:`ftsource.physics.air.AirConditions` (default: an unmeasured lab, with its
     wide default uncertainties). ``air_given`` names the conditions the caller stated
     (``"temperature"``, ``"pressure"``, ``"humidity"``); a condition not named there and left
     at its nominal value is taken from the record's ``air_temperature``, ``air_pressure`` or
@@ -104,7 +104,7 @@ class AnalysisOptions:
             raise OptionError("--encoder-scale-uncertainty must be a finite value ≥ 0")
         if self.zero_fill < 1:
             raise OptionError("zero_fill must be at least 1")
-        from ftsource.apodization import get_apodization
+        from ftsource.spectrum.apodization import get_apodization
 
         get_apodization(self.apodization)
 
@@ -166,8 +166,7 @@ def _apply_calibration(kind, lam_ref, options, notes):
 
 
 def _optical_path(record, options, fs, lam_ref, notes):
-    from ftsource import opd
-
+    from ftsource.interferogram import opd
     kind = record.opd_source()
     cols = record.columns
     if kind == "quadrature":
@@ -220,17 +219,17 @@ _AIR_KEYS = (  # condition, metadata key, physical type, AirConditions field
 
 def _air_conditions(record, options, notes):
     """``options`` with the air of the analysis: the caller's stated conditions, else the
-    record's ``air_*`` metadata, else the nominal laboratory (:class:`ftsource.air.AirConditions`).
+    record's ``air_*`` metadata, else the nominal laboratory (:class:`ftsource.physics.air.AirConditions`).
 
     A value from metadata gets the caller's stated uncertainty for it, or else
-    :data:`ftsource.air.MEASURED_UNCERTAINTY`; it then counts as given (``air_given``).
+    :data:`ftsource.physics.air.MEASURED_UNCERTAINTY`; it then counts as given (``air_given``).
     """
     if options.medium != "air":
         return options
     import astropy.units as u
 
-    from ftsource.air import MEASURED_UNCERTAINTY, UNMEASURED_UNCERTAINTY, AirConditions
     from ftsource.errors import RecordError
+    from ftsource.physics.air import MEASURED_UNCERTAINTY, UNMEASURED_UNCERTAINTY, AirConditions
 
     air = options.air or AirConditions()
     nominal = AirConditions()
@@ -275,14 +274,14 @@ def _air_conditions(record, options, notes):
 def _index_factor(sigma, lam_ref, options, kind):
     """σ_vac/σ_apparent = n_scale/n(σ) for the medium (1 in vacuum), by ``options.air_model``.
 
-    The air equations hold for 300–1700 nm (:data:`ftsource.air.WAVELENGTH_RANGE_NM`); beyond,
+    The air equations hold for 300–1700 nm (:data:`ftsource.physics.air.WAVELENGTH_RANGE_NM`); beyond,
     the index at
     the nearer end is used. The axis covers far more than the lines, so this is silent
     here: :mod:`ftsource.result` warns for each reported line outside the range.
     """
     if options.medium == "vacuum":
         return np.ones_like(sigma)
-    from ftsource.air import WAVELENGTH_RANGE_NM, air_index
+    from ftsource.physics.air import WAVELENGTH_RANGE_NM, air_index
 
     model = options.air_model
     wl = np.clip(1e7 / np.maximum(sigma, 1.0), *WAVELENGTH_RANGE_NM)
@@ -301,10 +300,10 @@ def analyze(record, options: AnalysisOptions | None = None, *, planner=None):
 
     Parameters
     ----------
-    record : ftsource.records.Record
+    record : ftsource.io.records.Record
         Samples with ``signal`` and a reference (``ref_i``/``ref_q``, ``ref`` or ``position``).
     options : AnalysisOptions, optional
-    planner : ftsource.transform.FFTPlanner, optional
+    planner : ftsource.spectrum.transform.FFTPlanner, optional
         Reuse FFT plans across calls (e.g. over several records).
 
     Returns
@@ -318,11 +317,12 @@ def analyze(record, options: AnalysisOptions | None = None, *, planner=None):
     OptionError
         For missing or inconsistent options (e.g. no reference wavelength).
     """
-    from ftsource import lines as lines_mod
-    from ftsource import resample, spectrum
+    from ftsource.interferogram import resample
+    from ftsource.lines import fitting as lines_mod
     from ftsource.result import Result
     from ftsource.safety import green_pointer_warning
-    from ftsource.transform import FFTPlanner, next_fft_length
+    from ftsource.spectrum import spectrum
+    from ftsource.spectrum.transform import FFTPlanner, next_fft_length
 
     options = options or AnalysisOptions()
     notes = Notes()
@@ -372,7 +372,7 @@ def analyze(record, options: AnalysisOptions | None = None, *, planner=None):
     ifgs = resample.resample_sweeps(signal, path, limits.dx_cm)
     delay = _channel_delay(ifgs, path, fs, kind, notes)
     if delay is not None:
-        from ftsource.sweeps import shift_time_for_delay
+        from ftsource.lines.sweeps import shift_time_for_delay
 
         ifgs = resample.resample_sweeps(
             shift_time_for_delay(signal, delay.delay_s, fs), path, limits.dx_cm
@@ -512,7 +512,7 @@ def _field_of_view_factor(source_lines, options) -> float:
     fwhm_nm = 1e7 * main.fwhm_per_cm / main.centre_per_cm**2
     if not (main.resolved and fwhm_nm > BROADBAND_FWHM_NM):
         return 1.0
-    from ftsource.instrument import field_of_view_correction, field_solid_angle
+    from ftsource.physics.instrument import field_of_view_correction, field_solid_angle
 
     omega = field_solid_angle(options.aperture_diameter_m, options.focal_length_m)
     return float(field_of_view_correction(1.0, omega))
@@ -540,9 +540,9 @@ def _rescale_line(fit, factor: float):
 
 def _aliasing(found, spec, sweep_specs, ifgs, path, fs, beta, sigma_app, factor, sigma_alias):
     """The band where aliases of detectable light may land, and each line's verdict from it
-    and from the sweeps' speed diversity (:mod:`ftsource.aliasing`)."""
-    from ftsource.aliasing import assess_lines, band_at_risk, speed_step_needed
-    from ftsource.sweeps import aliasing_check, sweep_speed_at
+    and from the sweeps' speed diversity (:mod:`ftsource.lines.aliasing`)."""
+    from ftsource.lines.aliasing import assess_lines, band_at_risk, speed_step_needed
+    from ftsource.lines.sweeps import aliasing_check, sweep_speed_at
 
     by_index = {ig.sweep.index: ig for ig in ifgs}
     medians, lows, highs, spreads = [], [], [], []
@@ -589,8 +589,8 @@ def _aliasing(found, spec, sweep_specs, ifgs, path, fs, beta, sigma_app, factor,
 
 def _sweep_outliers(spec, sweep_specs, found, notes, fit_cache=None):
     """Sweeps whose own fit of the strongest narrow line is an outlier among the sweeps
-    (leave-one-out, :func:`ftsource.sweeps.compare_sweeps`), with the reason for each."""
-    from ftsource.sweeps import compare_sweeps, sweep_line_centres
+    (leave-one-out, :func:`ftsource.lines.sweeps.compare_sweeps`), with the reason for each."""
+    from ftsource.lines.sweeps import compare_sweeps, sweep_line_centres
 
     if len(sweep_specs) < 4 or not found:
         return []
@@ -614,7 +614,7 @@ def _sweep_outliers(spec, sweep_specs, found, notes, fit_cache=None):
 def _channel_delay(ifgs, path, fs, kind, notes):
     """Estimate the signal channel's delay from forward/backward disagreement; return it
     when it is significant (then the caller corrects it), else None."""
-    from ftsource.sweeps import estimate_channel_delay
+    from ftsource.lines.sweeps import estimate_channel_delay
 
     directions = {ig.sweep.direction for ig in ifgs}
     if kind not in ("quadrature", "encoder") or directions != {-1, 1}:
@@ -651,9 +651,9 @@ def _channel_delay(ifgs, path, fs, kind, notes):
 
 def _flag_lines(found, lam_ref, sigma_alias, kind, record, notes):
     """Why each line is not a source line (None when it is): a ghost (reference light,
-    harmonic or intermodulation product of a clipped detector; :mod:`ftsource.ghosts`) or a
+    harmonic or intermodulation product of a clipped detector; :mod:`ftsource.lines.ghosts`) or a
     line beyond the alias-free limit."""
-    from ftsource.ghosts import flag_ghosts
+    from ftsource.lines.ghosts import flag_ghosts
 
     flags = flag_ghosts(
         [f.centre_per_cm for f in found],

@@ -53,7 +53,7 @@ from types import MappingProxyType
 
 import numpy as np
 
-from .errors import OptionError
+from ftsource.errors import OptionError
 
 __all__ = [
     "MODELS",

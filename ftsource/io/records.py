@@ -32,7 +32,7 @@ from typing import Any
 
 import numpy as np
 
-from .errors import FtsourceError, OptionError, OutputError, RecordError
+from ftsource.errors import FtsourceError, OptionError, OutputError, RecordError
 
 __all__ = [
     "Record",
@@ -299,7 +299,7 @@ class Record:
         RecordError
             If the value is present but not a valid quantity of that type.
         """
-        from .quantity import parse_quantity
+        from ftsource.quantity import parse_quantity
 
         k = _norm_key(key)
         if k not in self.metadata:
@@ -366,7 +366,7 @@ def _check_rate(rate: Any, *, where: str, name: str) -> float:
 
 
 def _position_scale(unit_text: str, *, where: str) -> float:
-    from .quantity import parse_quantity
+    from ftsource.quantity import parse_quantity
 
     try:
         q = parse_quantity(f"1 {unit_text}", physical_type="length", name="position_unit")
@@ -595,7 +595,7 @@ def read_record(
 
 
 def _rate_argument(sample_rate: Any) -> float:
-    from .quantity import to_float
+    from ftsource.quantity import to_float
 
     if _is_number(sample_rate):
         value = float(sample_rate)
@@ -616,7 +616,7 @@ def _is_number(x: Any) -> bool:
 def _metadata_rate(meta: dict[str, str], where: str) -> float | None:
     if "sample_rate" not in meta:
         return None
-    from .quantity import parse_quantity
+    from ftsource.quantity import parse_quantity
 
     try:
         q = parse_quantity(

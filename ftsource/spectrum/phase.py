@@ -16,7 +16,7 @@ are densities per cm^-1 in the units of the samples times cm, scaled so that an 
 instrument line shape of unit area.
 
 One-sided interferograms (short side under 0.8 of the long side, see
-:class:`ftsource.zpd.ZpdInfo`) are weighted by the Mertz ramp so that the double-sided part
+:class:`ftsource.interferogram.zpd.ZpdInfo`) are weighted by the Mertz ramp so that the double-sided part
 is not counted twice; double-sided ones use the symmetric part ``+-l`` (``l`` the shorter side).
 """
 
@@ -27,9 +27,9 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .apodization import get_apodization, mertz_ramp
-from .errors import AnalysisError, FtsourceWarning, OptionError
-from .zpd import DOUBLE_SIDED_RATIO, ZpdInfo, interferogram_arrays
+from ftsource.errors import AnalysisError, FtsourceWarning, OptionError
+from ftsource.interferogram.zpd import DOUBLE_SIDED_RATIO, ZpdInfo, interferogram_arrays
+from ftsource.spectrum.apodization import get_apodization, mertz_ramp
 
 __all__ = ["PhasedSpectrum", "mertz", "forman", "magnitude", "low_resolution_phase"]
 
@@ -215,7 +215,7 @@ def low_resolution_phase(
     x_cm, y : array_like
         The interferogram on a uniform OPD grid, cm.
     zpd : ZpdInfo
-        From :func:`ftsource.zpd.find_zpd`.
+        From :func:`ftsource.interferogram.zpd.find_zpd`.
     sigma_per_cm : array_like
         Where to evaluate the phase, cm^-1.
     double_sided_cm : float, optional
@@ -284,9 +284,9 @@ def mertz(
     y : array_like
         Interferogram samples; the mean is subtracted.
     zpd : ZpdInfo
-        From :func:`ftsource.zpd.find_zpd` (``found`` must be true).
+        From :func:`ftsource.interferogram.zpd.find_zpd` (``found`` must be true).
     apodization : str, optional
-        See :func:`ftsource.apodization.apodization_names`.
+        See :func:`ftsource.spectrum.apodization.apodization_names`.
     n_fft : int, optional
         Transform length (zero-filling); default the next fast length of twice the long side,
         which samples the spectrum every ``1/(2L)`` or finer.

@@ -20,9 +20,9 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from ._arrays import finite_pair
-from .coherence import C_CM_PER_S, _envelope
-from .errors import AnalysisError, OptionError, RecordError
+from ftsource._arrays import finite_pair
+from ftsource.errors import AnalysisError, OptionError, RecordError
+from ftsource.measure.coherence import C_CM_PER_S, _envelope
 
 __all__ = [
     "ModeComb",
@@ -325,7 +325,7 @@ def check_revivals(
     central burst (to where it falls below half its ZPD value); the first revival is the
     highest envelope maximum between there and ``1.5/Δσ``, accepted when it stands at least
     ``min_contrast`` times above the lowest envelope before it. Its position (the centroid of
-    the peak, as for ZPD in :mod:`ftsource.zpd`) and those of further revivals near its
+    the peak, as for ZPD in :mod:`ftsource.interferogram.zpd`) and those of further revivals near its
     multiples within the scan give the measured period ``Σk·x_k/Σk²``. Before the centroids
     are taken the envelope is divided by the exponential fitted (least squares in ``ln``)
     through its ZPD value and the revival heights: modes of finite width make revivals
@@ -367,7 +367,7 @@ def check_revivals(
     .. [2] A. E. Siegman, *Lasers*, University Science Books (1986), §11.3.
     .. [3] D. Gabor, 'Theory of communication', J. IEE 93 (1946) 429-457 (analytic signal).
     """
-    from .zpd import interferogram_arrays
+    from ftsource.interferogram.zpd import interferogram_arrays
 
     P = revival_opd_cm(spacing_per_cm)
     if not (0.0 < tol < 0.5):

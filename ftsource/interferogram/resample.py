@@ -18,7 +18,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from ftsource.errors import AnalysisError
-from ftsource.opd import OpticalPath, Sweep
+from ftsource.interferogram.opd import OpticalPath, Sweep
 
 __all__ = [
     "Interferogram",

@@ -4,7 +4,7 @@ A fringe of wavenumber σ recorded at OPD speed v has the frequency σv. Sampled
 frequency above f_s/2 folds back: the line appears at the apparent wavenumber
 ``|σ − m·F|`` with ``F = f_s/v`` and the fold number m that brings it into ``[0, F/2]``. One
 spectrum at one speed cannot tell a folded line from a real one; sweeps at different speeds
-can (:func:`ftsource.sweeps.aliasing_check`). This module gives
+can (:func:`ftsource.lines.sweeps.aliasing_check`). This module gives
 
 * :func:`folded_band` / :func:`band_at_risk`: the apparent wavenumbers onto which light the
   detector can see but the sampling cannot support would fold at the recorded speeds;
@@ -190,7 +190,7 @@ def assess_lines(
         Apparent line centres (on the axis the sweep spectra use), cm⁻¹.
     band : sequence of (float, float)
         The band at risk (:func:`band_at_risk`).
-    check : ftsource.sweeps.AliasCheck, optional
+    check : ftsource.lines.sweeps.AliasCheck, optional
         The speed-diversity check of the record's sweeps; None when there was none (one
         sweep).
     tolerance_per_cm : float

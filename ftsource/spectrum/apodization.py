@@ -26,7 +26,7 @@ from math import factorial
 
 import numpy as np
 
-from .errors import OptionError
+from ftsource.errors import OptionError
 
 __all__ = [
     "Apodization",

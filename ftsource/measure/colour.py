@@ -27,8 +27,8 @@ import math
 
 import numpy as np
 
-from ._data import data_path
-from .errors import FtsourceError, OptionError
+from ftsource._data import data_path
+from ftsource.errors import FtsourceError, OptionError
 
 __all__ = [
     "CMF_FILE",

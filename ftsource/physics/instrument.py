@@ -24,8 +24,8 @@ import math
 
 import numpy as np
 
-from .air import air_index
-from .errors import OptionError
+from ftsource.errors import OptionError
+from ftsource.physics.air import air_index
 
 __all__ = [
     "field_solid_angle",

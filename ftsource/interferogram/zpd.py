@@ -17,7 +17,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .errors import OptionError, RecordError
+from ftsource.errors import OptionError, RecordError
 
 __all__ = ["ZpdInfo", "find_zpd", "interferogram_arrays", "uniform_step_cm"]
 

@@ -15,7 +15,7 @@ signal that is *late* (``τ > 0``, the convention of ``simulate.Detector.delay_s
 * the phase of a line of wavenumber ``σ`` at a common OPD origin is ``ψ₀ − 2πσ·v·τ``, so
   forward minus backward is ``−2πσ(|v_f| + |v_b|)τ`` (mod 2π).
 
-Functions here are pure: they take resampled sweeps (:class:`ftsource.resample.Interferogram`)
+Functions here are pure: they take resampled sweeps (:class:`ftsource.interferogram.resample.Interferogram`)
 or per-sweep results and return small frozen dataclasses.
 
 Kernel units: OPD in cm, wavenumber in cm⁻¹, time in s, speed in cm/s of OPD.
@@ -28,7 +28,7 @@ from dataclasses import dataclass, replace
 import numpy as np
 
 from ftsource.errors import OptionError
-from ftsource.resample import Interferogram
+from ftsource.interferogram.resample import Interferogram
 
 __all__ = [
     "DelayEstimate",
@@ -192,13 +192,13 @@ def sweep_speed_at(path, sweep, sample_rate_hz: float, x_cm, *, smooth_s: float 
 
     The speed is the gradient of the sweep's own OPD (``path.opd_cm[sweep.start:sweep.stop]``)
     times the sample rate, smoothed by a running mean of ``smooth_s`` (1 ms by default, the
-    window :mod:`ftsource.opd` uses to find sweeps), and interpolated linearly in OPD.
+    window :mod:`ftsource.interferogram.opd` uses to find sweeps), and interpolated linearly in OPD.
 
     Parameters
     ----------
-    path : ftsource.opd.OpticalPath
+    path : ftsource.interferogram.opd.OpticalPath
         The OPD of the whole record.
-    sweep : ftsource.opd.Sweep
+    sweep : ftsource.interferogram.opd.Sweep
         The sweep (its ``start``/``stop``/``direction``).
     sample_rate_hz : float
         Sample rate of the record.
@@ -267,17 +267,17 @@ def estimate_channel_delay(
     Parameters
     ----------
     sweeps : sequence
-        Resampled sweeps: :class:`~ftsource.resample.Interferogram` items (direction and mean
+        Resampled sweeps: :class:`~ftsource.interferogram.resample.Interferogram` items (direction and mean
         speed taken from ``ifg.sweep``) or tuples ``(Interferogram, direction,
         mean_speed_cm_s)``. Sweeps of the same ``ifg.sweep.segment`` share their OPD origin;
         each segment gets its own origin in the fit.
     method : {"zpd", "phase"}
         ``zpd`` for broad sources with a centre burst: the ZPD of every sweep
-        (:func:`ftsource.zpd.find_zpd`) is fitted by linear least squares with
+        (:func:`ftsource.interferogram.zpd.find_zpd`) is fitted by linear least squares with
         ``x_zpd,i = x₀(segment) + dᵢ·|vᵢ|·τ``. ``phase`` for narrow lines: the phase ``ψᵢ`` of
         the strongest line at a common OPD origin of each segment is fitted with
         ``ψᵢ = ψ₀(segment) − 2πσ₀·dᵢ·|vᵢ|·τ (mod 2π)``.
-    path : ftsource.opd.OpticalPath, optional
+    path : ftsource.interferogram.opd.OpticalPath, optional
         With ``sample_rate_hz``: each sweep's speed is taken where it was measured (at its ZPD,
         or averaged over the phase window) from the sweep's own OPD against time
         (:func:`sweep_speed_at`). Without it, the sweep's mean speed is used, which includes
@@ -344,7 +344,7 @@ def _usable_segments(seg, d):
 
 
 def _delay_from_zpd(items, path, fs, speed):
-    from ftsource.zpd import find_zpd
+    from ftsource.interferogram.zpd import find_zpd
 
     rows = []
     for ifg, d, v in items:
@@ -612,7 +612,7 @@ def correct_channel_delay(
 def shift_time_for_delay(signal, delay_s: float, sample_rate_hz: float) -> np.ndarray:
     """The source signal moved earlier by ``delay_s``: its value at ``t + τ`` for every sample.
 
-    Feed the result to :func:`ftsource.resample.resample_sweeps` in place of the signal: every
+    Feed the result to :func:`ftsource.interferogram.resample.resample_sweeps` in place of the signal: every
     sample then belongs to the mirror position of its own instant, whatever the speed. The
     value between samples comes from the cubic B-spline that the resampling uses (Unser 1999),
     on coefficients with mirror boundaries; the last ``⌈τ·f_s⌉ + 2`` samples (the first, for a
@@ -638,7 +638,7 @@ def shift_time_for_delay(signal, delay_s: float, sample_rate_hz: float) -> np.nd
     """
     from scipy.ndimage import map_coordinates
 
-    from ftsource.resample import _spline_coefficients
+    from ftsource.interferogram.resample import _spline_coefficients
 
     if not (sample_rate_hz > 0):
         raise OptionError(f"sample_rate_hz must be positive, got {sample_rate_hz!r}")
@@ -918,7 +918,7 @@ def aliasing_check(
     ----------
     per_sweep_spectra : sequence
         Per sweep: a ``(sigma_per_cm, values)`` pair, or values (an array or an object with
-        ``.values`` such as :class:`ftsource.spectrum.SweepSpectrum`) on ``sigma_per_cm``.
+        ``.values`` such as :class:`ftsource.spectrum.spectrum.SweepSpectrum`) on ``sigma_per_cm``.
     speeds_cm_s : array_like
         The OPD speed of each sweep, cm/s (where the line's fringes were recorded; the mean
         over the sweep's central part is best).
@@ -1067,15 +1067,15 @@ def aliasing_check(
 def sweep_line_centres(spectrum, sweep_spectra, sigma_per_cm: float, *, cache=None):
     """Each sweep's own fitted centre of the line near ``sigma_per_cm``.
 
-    Every sweep's spectrum alone (:func:`ftsource.spectrum.coadd` of that sweep, on
+    Every sweep's spectrum alone (:func:`ftsource.spectrum.spectrum.coadd` of that sweep, on
     ``spectrum``'s axis and apodization) is fitted with a Gaussian profile convolved with its
-    line shape (:func:`ftsource.lines.fit_line`).
+    line shape (:func:`ftsource.lines.fitting.fit_line`).
 
     Parameters
     ----------
-    spectrum : ftsource.spectrum.Spectrum
+    spectrum : ftsource.spectrum.spectrum.Spectrum
         The co-added spectrum (gives the axis and apodization).
-    sweep_spectra : sequence of ftsource.spectrum.SweepSpectrum
+    sweep_spectra : sequence of ftsource.spectrum.spectrum.SweepSpectrum
     sigma_per_cm : float
         Where the line is.
     cache : dict, optional
@@ -1088,8 +1088,8 @@ def sweep_line_centres(spectrum, sweep_spectra, sigma_per_cm: float, *, cache=No
         ``(sweep_index, centre_per_cm, u_centre_per_cm)`` for the sweeps whose fit succeeded
         with a finite positive uncertainty, in the order given.
     """
-    from ftsource.lines import fit_line
-    from ftsource.spectrum import coadd
+    from ftsource.lines.fitting import fit_line
+    from ftsource.spectrum.spectrum import coadd
 
     out = []
     for sw in sweep_spectra:

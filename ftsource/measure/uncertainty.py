@@ -427,7 +427,7 @@ def wavelength_budget(
         error belongs in the encoder's scale uncertainty instead.
     ``extra``
         Further components already in nm (for example the field-of-view residual after the
-        Jacquinot correction of :mod:`ftsource.instrument`, or the encoder's scale), appended
+        Jacquinot correction of :mod:`ftsource.physics.instrument`, or the encoder's scale), appended
         as given.
 
     Components whose uncertainty is zero are left out of the budget (air index in vacuum),

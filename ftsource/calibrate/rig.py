@@ -3,7 +3,7 @@
 The measured wavelength of every line scales with the OPD scale the analysis assumed (the
 reference laser's wavelength, an encoder's scale or an assumed mirror speed). A record of a
 line of known wavelength fixes that scale: :func:`calibrate_rig` analyses it with the scale's
-own uncertainty set to zero (it cancels, see :func:`ftsource.calibration.calibrate_reference`)
+own uncertainty set to zero (it cancels, see :func:`ftsource.calibrate.calibration.calibrate_reference`)
 and returns the rig calibration, whose effective reference wavelength later analyses use
 (``AnalysisOptions(calibration=...)``), with its uncertainty carried into their budgets.
 """
@@ -22,8 +22,8 @@ def calibrate_rig(record, options, known_wavelength_nm: float, u_known_nm: float
 
     Parameters
     ----------
-    record : ftsource.records.Record
-    options : ftsource.pipeline.AnalysisOptions
+    record : ftsource.io.records.Record
+    options : ftsource.analysis.AnalysisOptions
         As for the rig's normal analyses (reference wavelength, air...).
     known_wavelength_nm : float
         Vacuum wavelength of the known line (e.g. a stabilised laser or a lamp line).
@@ -34,9 +34,9 @@ def calibrate_rig(record, options, known_wavelength_nm: float, u_known_nm: float
     ----------
     .. [1] JCGM 100:2008 (GUM), §5.1 (propagation for a ratio of measured quantities).
     """
-    from ftsource.calibration import calibrate_reference
+    from ftsource.analysis import analyze
+    from ftsource.calibrate.calibration import calibrate_reference
     from ftsource.errors import AnalysisError
-    from ftsource.pipeline import analyze
 
     nominal_u = options.reference_uncertainty_ppm
     # what the calibration determines is left out of the measured line's uncertainty: the

@@ -31,8 +31,8 @@ from typing import Any
 
 import numpy as np
 
-from ._data import data_folder
-from .errors import FtsourceError, OptionError
+from ftsource._data import data_folder
+from ftsource.errors import FtsourceError, OptionError
 
 __all__ = [
     "Candidate",
@@ -77,16 +77,16 @@ _MORTON_E = 38.9
 # --------------------------------------------------------------------------------------------
 def standard_vacuum_to_air_nm(wl_vac_nm: float | np.ndarray) -> float | np.ndarray:
     """Vacuum to standard-air wavelength (IAU/Morton 2000); one implementation, in
-    :func:`ftsource.air.vacuum_to_standard_air_nm`."""
-    from ftsource.air import vacuum_to_standard_air_nm
+    :func:`ftsource.physics.air.vacuum_to_standard_air_nm`."""
+    from ftsource.physics.air import vacuum_to_standard_air_nm
 
     return vacuum_to_standard_air_nm(wl_vac_nm)
 
 
 def standard_air_to_vacuum_nm(wl_air_nm: float | np.ndarray) -> float | np.ndarray:
     """Standard-air to vacuum wavelength (IAU/Morton 2000); one implementation, in
-    :func:`ftsource.air.standard_air_to_vacuum_nm`."""
-    from ftsource.air import standard_air_to_vacuum_nm as _to_vac
+    :func:`ftsource.physics.air.standard_air_to_vacuum_nm`."""
+    from ftsource.physics.air import standard_air_to_vacuum_nm as _to_vac
 
     return _to_vac(wl_air_nm)
 
@@ -232,7 +232,7 @@ def search_lines(
         Air conditions for the ``wavelength_air_nm`` column (and for ``wavelength_nm`` when
         ``medium="air"``). Without it the standard-air values stored in the files are used.
         With it, air wavelengths are computed from the vacuum ones by ``to_air(wl_vac_nm)``
-        if given, else by ``ftsource.air.vacuum_to_air_nm(wl_vac_nm,
+        if given, else by ``ftsource.physics.air.vacuum_to_air_nm(wl_vac_nm,
         conditions)`` (Ciddor 1996). Nominal laser labels are never converted.
     to_air : callable, optional
         ``to_air(wl_vac_nm) -> wl_air_nm`` for non-standard air (takes precedence).
@@ -282,10 +282,12 @@ def search_lines(
             converter = to_air
         else:
             try:
-                from .air import vacuum_to_air_nm  # written in parallel; optional here
+                from ftsource.physics.air import (
+                    vacuum_to_air_nm,  # written in parallel; optional here
+                )
             except ImportError as exc:
                 raise OptionError(
-                    "conditions were given but ftsource.air.vacuum_to_air_nm is not available:"
+                    "conditions were given but ftsource.physics.air.vacuum_to_air_nm is not available:"
                     " pass to_air=callable, or leave conditions out for standard air"
                 ) from exc
 

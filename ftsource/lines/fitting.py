@@ -1,7 +1,7 @@
 """Finding and fitting spectral lines.
 
 A line is fitted with its profile *convolved with the instrument line shape* of the spectrum
-(:class:`ftsource.spectrum.LineShape`), so a line near the resolution limit is not reported
+(:class:`ftsource.spectrum.spectrum.LineShape`), so a line near the resolution limit is not reported
 wider than it is. Profiles: Gaussian, Lorentzian and Voigt, chosen by Akaike's information
 criterion on the effective number of independent points (zero-filling and apodization make
 neighbouring points correlated), and claimed only when the line spans at least
@@ -20,7 +20,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from ftsource.spectrum import Spectrum
+from ftsource.spectrum.spectrum import Spectrum
 
 __all__ = [
     "LineFit",
@@ -119,7 +119,7 @@ def _observed_fwhm(sig, y, i0):
 
 def _model_factory(spec: Spectrum, profile: str):
     """Model ``h·K(σ−c; widths)/K(0) + b`` with signed width parameters (see
-    :meth:`ftsource.spectrum.LineShape.kernel_signed`): ``[h, c, b, q]`` for a Gaussian
+    :meth:`ftsource.spectrum.spectrum.LineShape.kernel_signed`): ``[h, c, b, q]`` for a Gaussian
     (q = FWHM²), ``[h, c, b, l]`` for a Lorentzian, ``[h, c, b, q, l]`` for a Voigt."""
     shape = spec.line_shape
     k00 = shape.kernel(np.zeros(1))[0]

@@ -12,7 +12,7 @@ that is not parallel to the mirror's travel (the reference then counts ``cos θ`
 per unit of travel, so ``λ_ref,eff = λ_ref / cos θ``).
 
 Conventions: wavelengths in nm, vacuum (the source line already corrected for the air of the
-rig by :mod:`ftsource.air`). See ``docs/response_and_calibration.md``.
+rig by :mod:`ftsource.physics.air`). See ``docs/response_and_calibration.md``.
 """
 
 from __future__ import annotations
@@ -24,7 +24,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .errors import AnalysisError, OptionError
+from ftsource.errors import AnalysisError, OptionError
 
 __all__ = ["RigCalibration", "calibrate_reference", "save_calibration", "load_calibration"]
 
@@ -372,7 +372,7 @@ def save_calibration(path, cal: RigCalibration, *, overwrite: bool = False) -> N
     ----------
     .. [1] RFC 8259, The JavaScript Object Notation (JSON) Data Interchange Format.
     """
-    from .records import _atomic_write
+    from ftsource.io.records import _atomic_write
 
     if not isinstance(cal, RigCalibration):
         raise OptionError(f"cal is a RigCalibration, not {type(cal).__name__}")

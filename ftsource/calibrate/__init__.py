@@ -1,0 +1,1 @@
+"""Rig calibration from a known line, and the instrument response."""

@@ -1,0 +1,1 @@
+"""From a record to interferograms: optical path from the reference, uniform-OPD resampling, ZPD."""

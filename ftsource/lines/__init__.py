@@ -1,0 +1,1 @@
+"""Lines in a spectrum: finding and fitting, ghosts, aliasing, sweep comparison."""

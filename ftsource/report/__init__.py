@@ -1,0 +1,1 @@
+"""What the user reads: the text summary and the written outputs."""

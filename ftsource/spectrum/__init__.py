@@ -1,0 +1,1 @@
+"""From interferograms to a spectrum: apodization, phase correction, FFT, the Spectrum object."""
