@@ -3,7 +3,7 @@
 :meth:`Result.build` turns the stages' outputs into the figures users came for — the source
 kind, the centre wavelength with its JCGM 100 budget, width or its bound, coherence length,
 modes, LED figures and colour — and collects every warning. The JSON keys are those of
-``docs/contract.md`` (schema ``ftsource/schema/result-1.json``).
+``docs/contract.md`` (schema ``ftsource/schema/result-2.json``).
 """
 
 from __future__ import annotations
@@ -18,8 +18,8 @@ from ftsource import __version__
 
 __all__ = ["Result", "SCHEMA_ID", "SCHEMA_VERSION"]
 
-SCHEMA_VERSION = "1.0"
-SCHEMA_ID = "https://ftsource.invalid/schema/result-1.json"
+SCHEMA_VERSION = "2.0"
+SCHEMA_ID = "https://ftsource.invalid/schema/result-2.json"
 C_M_S = 299_792_458.0
 
 

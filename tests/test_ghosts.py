@@ -13,7 +13,7 @@ Oracles:
 * records of ``ftsource.simulate`` (closed-form fringes, tested in tests/test_simulate.py) with
   a detector clipping at ``Detector.clip_level`` (``np.minimum(signal, clip_level)``), and
   reference-laser fringes added to the source channel by hand;
-* the project's JSON schema (ftsource/schema/result-1.json) checked with ``jsonschema``.
+* the project's JSON schema (ftsource/schema/result-2.json) checked with ``jsonschema``.
 """
 
 from __future__ import annotations
@@ -215,7 +215,7 @@ L1, L2 = 1100.0, 1300.0  # nm, invented
 
 
 def _line_schema():
-    text = (importlib.resources.files("ftsource") / "schema" / "result-1.json").read_text("utf-8")
+    text = (importlib.resources.files("ftsource") / "schema" / "result-2.json").read_text("utf-8")
     return json.loads(text)["properties"]["lines"]["items"]
 
 

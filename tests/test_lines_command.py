@@ -12,7 +12,7 @@ Oracles:
   101 325 Pa, 50 % RH (C); CIPM 2007 Rec. 2: unstabilised He–Ne u_r = 1.5×10⁻⁶ (V).
 * records from ftsource.simulate (closed-form forward model, tests/test_simulate.py): the
   truth is the simulated line.
-* the JSON schema shipped as ftsource/schema/result-1.json, checked with ``jsonschema``.
+* the JSON schema shipped as ftsource/schema/result-2.json, checked with ``jsonschema``.
 """
 
 from __future__ import annotations
@@ -168,7 +168,7 @@ def _record(path, wl_nm, seed=1):
 
 @pytest.fixture(scope="module")
 def schema():
-    text = resources.files("ftsource").joinpath("schema/result-1.json").read_text("utf-8")
+    text = resources.files("ftsource").joinpath("schema/result-2.json").read_text("utf-8")
     return json.loads(text)
 
 

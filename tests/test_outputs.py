@@ -3,7 +3,7 @@
 Oracles: the truths the demo records were simulated from (scripts/make_demo_data.py: a
 532.18 nm green line, a multimode red laser centred at 650.4 nm, an LED whose figures are
 computed from the simulator's closed-form density); the project's own JSON schema
-(ftsource/schema/result-1.json, Draft 2020-12) checked with the general-purpose `jsonschema`
+(ftsource/schema/result-2.json, Draft 2020-12) checked with the general-purpose `jsonschema`
 validator; astropy's ECSV reader; S_λ = S_σ·σ²/10⁷ (CIE 127's density per unit wavelength).
 """
 
@@ -28,7 +28,7 @@ def _schema():
     import importlib.resources
 
     return json.loads(
-        (importlib.resources.files("ftsource") / "schema" / "result-1.json").read_text("utf-8")
+        (importlib.resources.files("ftsource") / "schema" / "result-2.json").read_text("utf-8")
     )
 
 
