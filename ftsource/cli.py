@@ -19,18 +19,73 @@ SAFETY_LINE = (
 )
 
 
+# Names of ftsource.spectrum.apodization's registry, in its order. Kept here as text so that
+# --help imports only the standard library; tests/test_help.py checks they are the registry's.
+APODIZATION_NAMES = (
+    "boxcar", "triangular", "happ-genzel", "hann", "blackman-harris-3", "blackman-harris-4",
+    "norton-beer-weak", "norton-beer-medium", "norton-beer-strong",
+)
+
+_HELP_EPILOG = (
+    "QTY is a number with its unit, written as one word (632.991nm, 48kHz, 0.5mm/s, 21.5degC) "
+    "or quoted ('632.991 nm'). " + SAFETY_LINE
+)
+
+
 class UsageError(Exception):
     """A command line that argparse refuses (unknown option, missing value, bad choice)."""
+
+
+class _HelpFormatter(argparse.HelpFormatter):
+    """argparse's help layout, but never breaking a line inside a hyphenated name
+    (``norton-beer-weak``, ``--air-temperature``)."""
+
+    def _split_lines(self, text, width):
+        import textwrap
+
+        return textwrap.wrap(" ".join(text.split()), width, break_on_hyphens=False)
 
 
 class _Parser(argparse.ArgumentParser):
     """argparse, but a refused command line raises :class:`UsageError` instead of printing the
     usage block and calling ``sys.exit``: ``main`` turns it into one ``error:`` line."""
 
+    def __init__(self, *args, **kwargs):
+        kwargs.setdefault("formatter_class", _HelpFormatter)
+        super().__init__(*args, **kwargs)
+
     def error(self, message):  # noqa: D102 - argparse API
         if "expected one argument" in message:
             message += " (a value that starts with '-' is written as --option=VALUE)"
         raise UsageError(f"{self.prog}: {message}; see '{self.prog} --help'")
+
+
+def _split_value_hint(argv) -> str:
+    """A hint when the shell split a quantity such as ``633 nm`` into two words.
+
+    Looks for an option's value that is a bare number followed by a word that starts like a
+    unit (``--reference-wavelength 633 nm``, ``--sample-rate=48 kHz``); returns
+    ``"; ... write 633nm or quote it"`` or ``""``.
+    """
+    import re
+
+    number = re.compile(r"[+-]?(?:\d+\.?\d*|\.\d+)(?:[eE][+-]?\d+)?")
+    unit = re.compile(r"[A-Za-zµμ°Å%][A-Za-z0-9µμ°Å%/^*.-]*")
+    words = [str(w) for w in argv]
+    for i, (word, nxt) in enumerate(zip(words, words[1:], strict=False)):
+        option, eq, value = word.partition("=")
+        if eq and option.startswith("--"):
+            pass
+        elif i > 0 and words[i - 1].startswith("--") and "=" not in words[i - 1]:
+            option, value = words[i - 1], word
+        else:
+            continue
+        if number.fullmatch(value) and unit.fullmatch(nxt):
+            return (
+                f"; the shell split {option}'s value '{value} {nxt}' at the space: write it "
+                f"as one word ({option} {value}{nxt}) or quote it ({option} '{value} {nxt}')"
+            )
+    return ""
 
 
 def build_parser() -> argparse.ArgumentParser:
@@ -46,77 +101,143 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--version", action="store_true", help="print the version and exit")
     sub = p.add_subparsers(dest="command", metavar="COMMAND")
 
-    a = sub.add_parser("analyze", help="analyse a recorded scan", epilog=SAFETY_LINE)
+    a = sub.add_parser("analyze", help="analyse a recorded scan", epilog=_HELP_EPILOG,
+                       description="Analyse a recorded scan: spectrum, centre wavelength, "
+                                   "linewidth, coherence length, modes, with uncertainties.")
     a.add_argument("record", help="record file: .csv/.tsv/.txt/.dat, .npz or .wav")
     _add_analysis_options(a)
-    a.add_argument("--json", action="store_true", help="print the result JSON")
-    a.add_argument("--out", metavar="DIR", help="write result.json and spectrum.ecsv into DIR")
-    a.add_argument("--overwrite", action="store_true", help="replace files in --out")
+    a.add_argument("--json", action="store_true",
+                   help="print the result JSON instead of the text summary (default: text)")
+    a.add_argument("--out", metavar="DIR",
+                   help="also write result.json and spectrum.ecsv into DIR (default: write "
+                        "nothing)")
+    a.add_argument("--overwrite", action="store_true",
+                   help="replace result files already in --out (default: refuse)")
 
-    s = sub.add_parser("simulate", help="make a record of a known source (planning, testing)")
-    s.add_argument("out", help="output record: .csv, .npz or .wav")
+    s = sub.add_parser("simulate", help="make a record of a known source (planning, testing)",
+                       epilog="Every record it writes is invented data. " + _HELP_EPILOG,
+                       description="Make a record of a known, invented source through a "
+                                   "simulated interferometer (for planning and testing).")
+    s.add_argument("out", help="record file to write: .csv/.tsv/.txt/.dat, .npz or .wav "
+                               "(a WAV file holds the channels scaled to full scale, 24 bit)")
     s.add_argument("--source", action="append", metavar="SPEC",
-                   help="laser:WL[:FWHM], led:WL:FWHM, multimode:WL:SPACING:ENVELOPE "
-                        "(repeatable; default laser:650nm)")
+                   help="the light: laser:WL[:FWHM], led:WL:FWHM or "
+                        "multimode:WL:SPACING:ENVELOPE, lengths with units (e.g. laser:532nm, "
+                        "led:590nm:15nm, multimode:650nm:0.08nm:1nm); repeat to add sources "
+                        "(default: laser:650nm)")
     s.add_argument("--reference", default="quadrature",
-                   choices=("quadrature", "single", "encoder", "none"))
-    s.add_argument("--reference-wavelength", default="632.991nm", metavar="QTY")
-    s.add_argument("--sample-rate", default="48kHz", metavar="QTY")
-    s.add_argument("--duration", default="2s", metavar="QTY")
+                   choices=("quadrature", "single", "encoder", "none"),
+                   help="what records the optical path: quadrature (two reference-laser "
+                        "channels ref_i, ref_q), single (one channel ref), encoder (a mirror "
+                        "position column) or none (default: %(default)s)")
+    s.add_argument("--reference-wavelength", default="632.991nm", metavar="QTY",
+                   help="vacuum wavelength of the simulated reference laser (default: "
+                        "%(default)s, a He-Ne laser)")
+    s.add_argument("--sample-rate", default="48kHz", metavar="QTY",
+                   help="samples per second (default: %(default)s, a sound card)")
+    s.add_argument("--duration", default="2s", metavar="QTY",
+                   help="length of the recording (default: %(default)s)")
     s.add_argument("--opd-centre", default="0mm", metavar="QTY",
-                   help="optical path difference at the centre of the travel")
+                   help="optical path difference at the centre of the travel; 0mm puts zero "
+                        "path difference in every sweep (default: %(default)s)")
     s.add_argument("--opd-amplitude", default="1mm", metavar="QTY",
-                   help="half the OPD travel (the mirror moves half of it)")
-    s.add_argument("--sweep-rate", default="1Hz", metavar="QTY")
-    s.add_argument("--noise", type=float, default=0.002, help="detector noise (full scale 1)")
-    s.add_argument("--medium", choices=("air", "vacuum"), default="vacuum")
-    s.add_argument("--seed", type=int, default=0)
-    s.add_argument("--overwrite", action="store_true")
+                   help="half the OPD travel (the mirror moves half of it) (default: "
+                        "%(default)s)")
+    s.add_argument("--sweep-rate", default="1Hz", metavar="QTY",
+                   help="full back-and-forth mirror cycles per second (default: %(default)s)")
+    s.add_argument("--noise", type=float, default=0.002, metavar="RATIO",
+                   help="r.m.s. white noise of the source detector as a bare ratio of its mean "
+                        "light level (the fringes swing by 1 about a mean of 1): 0.002 is "
+                        "0.2 %% (default: %(default)s)")
+    s.add_argument("--medium", choices=("air", "vacuum"), default="vacuum",
+                   help="what the beams travel through: vacuum, or air at 20 °C, 101.325 kPa, "
+                        "50 %% RH, 450 ppm CO2 (Ciddor 1996) (default: %(default)s)")
+    s.add_argument("--seed", type=int, default=0, metavar="N",
+                   help="seed of the random noise and speed wobble, a whole number >= 0; the "
+                        "same seed gives the same record (default: %(default)s)")
+    s.add_argument("--overwrite", action="store_true",
+                   help="replace an existing file (default: refuse)")
 
-    d = sub.add_parser("demo", help="analyse the bundled demo records (an invented scenario)")
-    d.add_argument("--out", metavar="DIR", help="also write each result into DIR/<record>/")
-    d.add_argument("--overwrite", action="store_true")
+    d = sub.add_parser("demo", help="analyse the bundled demo records (an invented scenario)",
+                       epilog=SAFETY_LINE,
+                       description="Analyse the three bundled demo records of an invented "
+                                   "scenario and print each summary.")
+    d.add_argument("--out", metavar="DIR",
+                   help="also write each result into DIR/<record>/ (default: write nothing)")
+    d.add_argument("--overwrite", action="store_true",
+                   help="replace result files already in DIR (default: refuse)")
 
-    ln = sub.add_parser("lines", help="list and search the bundled reference line lists")
-    ln.add_argument("--element", help="e.g. Ne, Hg")
-    ln.add_argument("--min", dest="min_wl", metavar="QTY", help="shortest wavelength")
-    ln.add_argument("--max", dest="max_wl", metavar="QTY", help="longest wavelength")
-    ln.add_argument("--near", metavar="QTY", help="closest lines to this wavelength")
-    ln.add_argument("--tolerance", metavar="QTY", default="1nm")
+    ln = sub.add_parser("lines", help="list and search the bundled reference line lists",
+                        epilog=_HELP_EPILOG,
+                        description="List and search the bundled reference lines (lamp "
+                                    "lines, laser standards, nominal laser labels).")
+    ln.add_argument("--element", metavar="SYMBOL",
+                    help="only lines of this element, e.g. Ne, Hg (case-insensitive; laser "
+                         "entries have none) (default: every list and element)")
+    ln.add_argument("--min", dest="min_wl", metavar="QTY",
+                    help="shortest wavelength, e.g. 400nm (default: no lower limit)")
+    ln.add_argument("--max", dest="max_wl", metavar="QTY",
+                    help="longest wavelength, e.g. 700nm (default: no upper limit)")
+    ln.add_argument("--near", metavar="QTY",
+                    help="only lines within --tolerance of this wavelength (default: off)")
+    ln.add_argument("--tolerance", metavar="QTY", default="1nm",
+                    help="half-width of the --near window (default: %(default)s)")
     ln.add_argument("--medium", choices=("vacuum", "air"), default="vacuum",
-                    help="which wavelength --min/--max/--near refer to and the list is sorted by")
+                    help="vacuum or air: which wavelength --min/--max/--near refer to and the "
+                         "list is sorted by (default: %(default)s)")
     ln.add_argument("--air-temperature", metavar="QTY",
                     help="with any --air-* option the air column is computed for that air "
-                         "(Ciddor 1996); without, it is standard air as NIST quotes it")
-    ln.add_argument("--air-pressure", metavar="QTY")
-    ln.add_argument("--air-humidity", metavar="QTY")
-    ln.add_argument("--json", action="store_true")
+                         "(Ciddor 1996), values left out taking analyze's defaults (default: "
+                         "standard air as NIST quotes it: dry, 15 °C, 101 325 Pa)")
+    ln.add_argument("--air-pressure", metavar="QTY",
+                    help="air pressure for the air column, e.g. 1013hPa (default: standard "
+                         "air, see --air-temperature)")
+    ln.add_argument("--air-humidity", metavar="QTY",
+                    help="relative humidity for the air column, e.g. 45%% (default: standard "
+                         "air, see --air-temperature)")
+    ln.add_argument("--json", action="store_true",
+                    help="print a JSON list of rows instead of the table (default: table)")
 
     c = sub.add_parser("calibrate", help="calibrate the rig with a record of a known line",
-                       epilog=SAFETY_LINE)
+                       epilog=_HELP_EPILOG,
+                       description="Measure a record of a line of known wavelength and save "
+                                   "the rig's correction (its effective reference wavelength).")
     c.add_argument("record", help="record of a source of known wavelength")
     known = c.add_mutually_exclusive_group(required=True)
     known.add_argument("--known-wavelength", metavar="QTY",
                        help="its vacuum wavelength, e.g. 532.24503610nm; needs "
-                            "--known-uncertainty unless it is a bundled standard's value")
+                            "--known-uncertainty unless it is a bundled standard's value "
+                            "(required: this or --known-line)")
     known.add_argument("--known-line", metavar="LIST:QTY",
                        help="a bundled entry named by list and wavelength (vacuum or standard "
                             "air), e.g. laser_standards:632.99121258nm or lamp_ne:640.2248nm; "
-                            "see 'ftsource lines'. Nominal laser labels are refused")
+                            "see 'ftsource lines'. Nominal laser labels are refused (required: "
+                            "this or --known-wavelength)")
     c.add_argument("--known-uncertainty", metavar="QTY",
-                   help="standard uncertainty of the known wavelength (length); required unless "
-                        "the entry states one (laser standards do, lamp lines do not)")
-    c.add_argument("--save", metavar="FILE", required=True, help="calibration file to write")
-    c.add_argument("--overwrite", action="store_true", help="replace an existing FILE")
+                   help="standard uncertainty of the known wavelength (a length, e.g. "
+                        "0.0001nm) (default: the entry's stated one; required when it states "
+                        "none, as lamp lines do, and with --known-wavelength)")
+    c.add_argument("--save", metavar="FILE", required=True,
+                   help="calibration file to write (required)")
+    c.add_argument("--overwrite", action="store_true",
+                   help="replace an existing FILE (default: refuse)")
     _add_analysis_options(c)
 
-    r = sub.add_parser("response", help="instrument response from a record of a known lamp")
+    r = sub.add_parser("response", help="instrument response from a record of a known lamp",
+                       epilog=_HELP_EPILOG,
+                       description="Measure the relative spectral response of the rig from a "
+                                   "record of a lamp of known temperature (blackbody "
+                                   "approximation).")
     r.add_argument("record", help="record of a lamp of known spectral distribution")
     r.add_argument("--lamp-temperature", metavar="QTY", required=True,
-                   help="distribution temperature (blackbody approximation), e.g. 2856K")
-    r.add_argument("--lamp-temperature-uncertainty", metavar="QTY", default="30K")
-    r.add_argument("--save", metavar="FILE", required=True, help="response file (ECSV) to write")
-    r.add_argument("--overwrite", action="store_true", help="replace an existing FILE")
+                   help="distribution temperature (blackbody approximation), e.g. 2856K "
+                        "(required)")
+    r.add_argument("--lamp-temperature-uncertainty", metavar="QTY", default="30K",
+                   help="standard uncertainty of the lamp temperature (default: %(default)s)")
+    r.add_argument("--save", metavar="FILE", required=True,
+                   help="response file (ECSV) to write (required)")
+    r.add_argument("--overwrite", action="store_true",
+                   help="replace an existing FILE (default: refuse)")
     _add_analysis_options(r)
     return p
 
@@ -124,50 +245,83 @@ def build_parser() -> argparse.ArgumentParser:
 def _add_analysis_options(a) -> None:
     """Options shared by analyze, calibrate and response."""
     a.add_argument("--reference-wavelength", metavar="QTY",
-                   help="vacuum wavelength of the reference laser, e.g. 632.991nm")
+                   help="vacuum wavelength of the reference laser, e.g. 632.991nm (default: the "
+                        "record's reference_wavelength metadata; without either, an error)")
     a.add_argument("--reference-uncertainty", metavar="QTY", default="1.5ppm",
-                   help="its standard uncertainty, as a length or ppm (default 1.5ppm, an "
+                   help="its standard uncertainty, as a length or ppm (default: %(default)s, an "
                         "unstabilised He-Ne laser)")
     a.add_argument("--alignment-allowance", metavar="QTY", default="0ppm",
                    help="cosine-error allowance a (ratio): the result may be too long by up to a "
-                        "(negative: too short); corrected by a/2, u = |a|/sqrt(12)")
-    a.add_argument("--medium", choices=("air", "vacuum"), default="air")
+                        "(negative: too short); corrected by a/2, u = |a|/sqrt(12) (default: "
+                        "%(default)s)")
+    a.add_argument("--medium", choices=("air", "vacuum"), default="air",
+                   help="what the interferometer's beams travel through: air (the wavelength "
+                        "scale is corrected for the air's dispersion and the air enters the "
+                        "uncertainty) or vacuum (default: %(default)s)")
     a.add_argument("--air-temperature", metavar="QTY",
-                   help="air temperature in the arms, e.g. 21.5degC (default 20 °C ± 2 K)")
+                   help="air temperature in the arms, e.g. 21.5degC (default: metadata "
+                        "air_temperature, else 20 °C ± 2 K)")
     a.add_argument("--air-pressure", metavar="QTY",
-                   help="air pressure, e.g. 1013hPa (default 101.325 kPa ± 2 kPa)")
+                   help="air pressure, e.g. 1013hPa (default: metadata air_pressure, else "
+                        "101.325 kPa ± 2 kPa)")
     a.add_argument("--air-humidity", metavar="QTY",
-                   help="relative humidity, e.g. 45%% (default 50 %% ± 20 %%)")
+                   help="relative humidity, e.g. 45%% (default: metadata air_humidity, else "
+                        "50 %% ± 20 %%)")
     a.add_argument("--air-co2", metavar="QTY",
-                   help="CO2 mole fraction, e.g. 420ppm (default 450 ppm ± 150 ppm)")
+                   help="CO2 mole fraction, e.g. 420ppm (default: 450 ppm ± 150 ppm)")
     a.add_argument("--air-temperature-uncertainty", metavar="QTY",
-                   help="standard uncertainty of the air temperature, e.g. 0.2K (default "
-                        "0.3 K when --air-temperature is given)")
+                   help="standard uncertainty of the air temperature, e.g. 0.2K (default: "
+                        "0.3 K when the temperature is given)")
     a.add_argument("--air-pressure-uncertainty", metavar="QTY",
-                   help="standard uncertainty of the pressure, e.g. 50Pa (default 120 Pa)")
+                   help="standard uncertainty of the pressure, e.g. 50Pa (default: 120 Pa when "
+                        "the pressure is given)")
     a.add_argument("--air-humidity-uncertainty", metavar="QTY",
-                   help="standard uncertainty of the humidity, e.g. 3%% (default 3 %%)")
+                   help="standard uncertainty of the humidity, e.g. 3%% (default: 3 %% when the "
+                        "humidity is given)")
     a.add_argument("--air-co2-uncertainty", metavar="QTY",
-                   help="standard uncertainty of the CO2 fraction, e.g. 50ppm (default 30 ppm "
+                   help="standard uncertainty of the CO2 fraction, e.g. 50ppm (default: 30 ppm "
                         "when --air-co2 is given)")
     a.add_argument("--air-model", choices=("ciddor", "edlen"), default="ciddor",
-                   help="equation for the index of air: ciddor (Ciddor 1996, 300-1700 nm; "
-                        "default) or edlen (Birch & Downs, verified in the visible)")
+                   help="equation for the index of air: ciddor (Ciddor 1996, 300-1700 nm) or "
+                        "edlen (Birch & Downs, verified in the visible) (default: %(default)s)")
     a.add_argument("--encoder-scale-uncertainty", metavar="QTY",
-                   help="relative standard uncertainty of a position encoder's scale, e.g. 5ppm")
-    a.add_argument("--sample-rate", metavar="QTY")
-    a.add_argument("--columns", metavar="MAP", help="column mapping, e.g. signal=PD1,ref=PD2")
+                   help="relative standard uncertainty of a position encoder's scale, e.g. 5ppm "
+                        "(default: none; a warning says the budget lacks it)")
+    a.add_argument("--sample-rate", metavar="QTY",
+                   help="samples per second, e.g. 48kHz; overrides the record's sample_rate "
+                        "metadata or WAV header and must agree with a time column to 0.1 %% "
+                        "(default: from the time column, metadata or WAV header)")
+    a.add_argument("--columns", metavar="MAP",
+                   help="which column is which, NAME=COLUMN pairs for signal, ref, ref_i, ref_q, "
+                        "position, time: e.g. signal=PD1,ref=PD2, or signal=1,ref=0 for WAV "
+                        "channels (default: by column name; WAV: 2 channels signal,ref; 3 "
+                        "channels signal,ref_i,ref_q)")
     a.add_argument("--mirror-speed", metavar="QTY",
-                   help="no reference: assume this constant mirror speed (loudly uncalibrated)")
-    a.add_argument("--apodization", default="happ-genzel", metavar="NAME")
+                   help="no reference: assume this constant mirror speed, e.g. 0.5mm/s (the "
+                        "path changes at twice it; loudly uncalibrated) (default: off)")
+    a.add_argument("--apodization", default="happ-genzel", metavar="NAME",
+                   help="weighting of the interferogram before the transform, one of: "
+                        + ", ".join(APODIZATION_NAMES) + " (default: %(default)s)")
     a.add_argument("--phase-correction", default="auto",
-                   choices=("auto", "mertz", "forman", "magnitude"))
-    a.add_argument("--fft-planning", default="estimate", choices=("estimate", "measure"))
-    a.add_argument("--calibration", metavar="FILE", help="rig calibration saved by 'calibrate'")
-    a.add_argument("--response", metavar="FILE", help="instrument response curve (ECSV)")
+                   choices=("auto", "mertz", "forman", "magnitude"),
+                   help="how the spectrum is made real: auto (Mertz where a sweep holds zero "
+                        "path difference, else the magnitude), mertz (Mertz 1965), forman "
+                        "(Forman, Steel & Vanasse 1966) or magnitude (|B|, needs no phase but "
+                        "biased by noise) (default: %(default)s)")
+    a.add_argument("--fft-planning", default="estimate", choices=("estimate", "measure"),
+                   help="FFTW planning effort: estimate plans in milliseconds; measure can take "
+                        "a minute for long records and then transforms faster (default: "
+                        "%(default)s)")
+    a.add_argument("--calibration", metavar="FILE",
+                   help="rig calibration saved by 'ftsource calibrate' (default: none)")
+    a.add_argument("--response", metavar="FILE",
+                   help="instrument response curve (ECSV) saved by 'ftsource response' "
+                        "(default: none; spectra are as detected)")
     a.add_argument("--aperture-diameter", metavar="QTY",
-                   help="field stop diameter (extended sources only)")
-    a.add_argument("--focal-length", metavar="QTY", help="collimator focal length")
+                   help="field stop diameter, e.g. 10mm, for the field-of-view correction of an "
+                        "extended source; needs --focal-length (default: no correction)")
+    a.add_argument("--focal-length", metavar="QTY",
+                   help="collimator focal length, e.g. 50mm (default: no correction)")
 
 
 def _qty(text, unit, name, *, physical_type=None, positive=False):
@@ -739,10 +893,11 @@ def main(argv=None) -> int:
     """
     out, err = sys.stdout, sys.stderr
     parser = build_parser()
+    argv = sys.argv[1:] if argv is None else list(argv)
     try:
         args = parser.parse_args(argv)
     except UsageError as e:
-        err.write(f"error: {_one_line(e)}\n")
+        err.write(f"error: {_one_line(str(e) + _split_value_hint(argv))}\n")
         return 2
     except SystemExit as e:  # --help prints and exits through argparse
         return e.code if isinstance(e.code, int) else (0 if e.code is None else 2)
