@@ -843,15 +843,29 @@ def _cmd_calibrate(args, out, err) -> int:
     record = read_record(args.record, columns=args.columns, sample_rate=options.sample_rate_hz)
     cal, _ = calibrate_rig(record, options, known, u_known, label=Path(args.record).name)
     save_calibration(target, cal, overwrite=args.overwrite)
-    out.write(
+    out.write(_calibration_text(cal, what, target))
+    return 0
+
+
+def _calibration_text(cal, what: str, target) -> str:
+    """What ``calibrate`` prints: the numbers of the saved file, under the file's own key
+    names and with its signs, each rounded to its uncertainty (JCGM 100:2008 §7.2.6)."""
+    from ftsource.report.numbers import format_with_uncertainty, round_to_uncertainty
+
+    measured, u_measured = round_to_uncertainty(cal.measured_wavelength_nm, cal.u_measured_nm)
+    deviation = format_with_uncertainty(cal.deviation_ppm, cal.u_deviation_ppm, "ppm",
+                                        sign=True)
+    eff = cal.effective_reference_wavelength_nm
+    effective = format_with_uncertainty(eff, cal.u_effective_rel * eff, "nm")
+    reads = "long" if cal.deviation_ppm < 0 else "short"
+    return (
         f"known line: {what}\n"
-        f"measured {cal.measured_wavelength_nm:.6f} nm for the known {known:.6f} nm: the rig "
-        f"reads {-cal.deviation_ppm:+.3f} ppm (± {cal.u_deviation_ppm:.3f} ppm)\n"
-        f"effective reference wavelength {cal.effective_reference_wavelength_nm:.6f} nm "
-        f"(u = {cal.u_effective_rel * 1e6:.3f} ppm); saved to {target}\n"
+        f"measured {measured} nm (u = {u_measured} nm)\n"
+        f"deviation_ppm: {deviation} (effective reference wavelength / nominal - 1); "
+        f"uncorrected, the rig reads {reads} by that much\n"
+        f"effective reference wavelength: {effective}; saved to {target}\n"
         "use it with: ftsource analyze RECORD --calibration " + str(target) + "\n"
     )
-    return 0
 
 
 def _cmd_response(args, out, err) -> int:

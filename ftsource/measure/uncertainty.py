@@ -342,7 +342,8 @@ class Budget:
         ``unit`` field; a suffix such as ``"_nm"`` gives ``u_nm``, ``combined_nm``,
         ``expanded_nm`` and no ``unit`` field (the result JSON's ``uncertainty`` object).
         An infinite ``dof`` or ``effective_dof`` is written as ``None`` (JSON ``null``),
-        since JSON has no infinity.
+        since JSON has no infinity; so is an ``effective_dof`` above
+        :data:`DOF_AS_INFINITE`, which the coverage factor already takes as infinite.
         """
         sfx = "" if suffix is None else str(suffix)
 
@@ -362,7 +363,10 @@ class Budget:
                 for c in self.components
             ],
             f"combined{sfx}": float(self.combined),
-            "effective_dof": dof(self.effective_dof),
+            # above DOF_AS_INFINITE the coverage factor treats ν_eff as infinite: so does the
+            # JSON (a Welch–Satterthwaite figure such as 2.5e13 only says "no finite limit")
+            "effective_dof": (None if self.effective_dof > DOF_AS_INFINITE
+                              else dof(self.effective_dof)),
             "coverage_factor": float(self.coverage_factor),
             f"expanded{sfx}": float(self.expanded),
             "coverage": float(self.coverage),

@@ -21,6 +21,11 @@ from pathlib import Path
 import numpy as np
 
 from ftsource.errors import OutputError
+from ftsource.report.numbers import (
+    format_significant,
+    format_with_uncertainty,
+    round_to_uncertainty,
+)
 
 __all__ = ["result_json", "format_summary", "write_outputs", "check_outputs", "OUTPUT_FILES"]
 
@@ -81,30 +86,58 @@ def _weighting(summary) -> str:
     return "detector-weighted" if summary.get("detector_weighted", True) else "response-corrected"
 
 
+def _coherence_length(mm, u_mm=None) -> str:
+    """A coherence length in mm, or in µm below 1 mm, to the digits its uncertainty allows."""
+    if mm is not None and abs(mm) < 1.0:
+        return _with_u(mm * 1e3, None if u_mm is None else u_mm * 1e3, "µm")
+    return _with_u(mm, u_mm, "mm")
+
+
+def _with_u(value, u, unit) -> str:
+    """``value unit (u = u unit)``, rounded as JCGM 100:2008 §7.2.6 asks; a value without a
+    standard uncertainty is given to 3 significant digits."""
+    if value is None:
+        return "—"
+    if u is None or not u > 0:
+        return format_significant(value, 3, unit)
+    v, uu = round_to_uncertainty(value, u)
+    return f"{v} {unit} (u = {uu} {unit})"
+
+
 def format_summary(result) -> str:
     """A short human-readable summary of a result (one printable line per item: control
-    characters from the record are shown as '?')."""
+    characters from the record are shown as '?').
+
+    Every measured number is rounded to its uncertainty (:mod:`ftsource.report.numbers`,
+    JCGM 100:2008 §7.2.6): the centre wavelength to its expanded uncertainty, the other
+    figures to their standard uncertainty ``u``; bounds to 2 significant digits.
+    """
     d = result.to_dict()
     s, ins, inp = d["summary"], d["instrument"], d["input"]
     out = [f"record: {inp['record']}  ({inp['n_samples']} samples, OPD from {inp['opd_source']})"]
     out.append(f"source kind: {s['kind']}")
     if s.get("centre_wavelength_nm") is not None:
+        big_u = s.get("expanded_uncertainty_nm")
         out.append(
-            f"centre wavelength (vacuum): {_fmt(s['centre_wavelength_nm'], ' nm', 5)}"
-            f"  ± {_fmt(s.get('expanded_uncertainty_nm'), ' nm', 5)} "
+            f"centre wavelength (vacuum): "
+            f"{format_with_uncertainty(s['centre_wavelength_nm'], big_u, 'nm')} "
             f"(k = {_fmt(s.get('coverage_factor'), '', 2)})"
         )
         if s.get("centre_wavelength_air_nm") is not None:
-            out.append(
-                f"centre wavelength (air):    {_fmt(s['centre_wavelength_air_nm'], ' nm', 5)}"
-            )
-        out.append(f"frequency: {_fmt(s.get('frequency_thz'), ' THz', 4)}")
+            air, _ = round_to_uncertainty(s["centre_wavelength_air_nm"], big_u)
+            out.append(f"centre wavelength (air):    {air} nm")
+        f_thz = s.get("frequency_thz")
+        if f_thz is not None and big_u is not None:
+            big_u_f = f_thz * big_u / s["centre_wavelength_nm"]
+            out.append(f"frequency: {format_with_uncertainty(f_thz, big_u_f, 'THz')}")
+        else:
+            out.append(f"frequency: {format_significant(f_thz, 7, 'THz')}")
     if s["kind"] == "broadband":
-        out.append(
-            f"peak {_fmt(s.get('peak_wavelength_nm'), ' nm', 2)}, centroid "
-            f"{_fmt(s.get('centroid_wavelength_nm'), ' nm', 2)}, FWHM "
-            f"{_fmt(s.get('fwhm_nm'), ' nm', 2)} ({_weighting(s)})"
-        )
+        peak = _with_u(s.get("peak_wavelength_nm"), s.get("u_peak_wavelength_nm"), "nm")
+        centroid = _with_u(s.get("centroid_wavelength_nm"), s.get("u_centroid_wavelength_nm"),
+                           "nm")
+        fwhm = _with_u(s.get("fwhm_nm"), s.get("u_fwhm_nm"), "nm")
+        out.append(f"peak {peak}, centroid {centroid}, FWHM {fwhm} ({_weighting(s)})")
         if s.get("dominant_wavelength_nm") is not None and s.get("chromaticity_xy"):
             x, y = s["chromaticity_xy"]
             out.append(
@@ -112,21 +145,27 @@ def format_summary(result) -> str:
                 f"{_fmt(s['dominant_wavelength_nm'], ' nm', 1)}"
             )
     elif s.get("resolved"):
-        out.append(f"linewidth (FWHM): {_fmt(s.get('fwhm_nm'), ' nm', 4)}")
+        out.append(f"linewidth (FWHM): {_with_u(s.get('fwhm_nm'), s.get('u_fwhm_nm'), 'nm')}")
     elif s.get("fwhm_upper_bound_nm") is not None:
-        out.append(
-            f"linewidth: not resolved, below {_fmt(s['fwhm_upper_bound_nm'], ' nm', 4)}; "
-            f"coherence length above {_fmt(s.get('coherence_length_lower_bound_mm'), ' mm', 2)}"
-        )
+        bound = format_significant(s["fwhm_upper_bound_nm"], 2, "nm")
+        lower = format_significant(s.get("coherence_length_lower_bound_mm"), 2, "mm")
+        out.append(f"linewidth: not resolved, below {bound}; coherence length above {lower}")
     if s.get("coherence_length_mm") is not None:
-        out.append(f"coherence length: {_fmt(s['coherence_length_mm'], ' mm', 3)}")
+        out.append(
+            "coherence length: "
+            f"{_coherence_length(s['coherence_length_mm'], s.get('u_coherence_length_mm'))}"
+        )
     if s.get("modes"):
         m = s["modes"]
-        out.append(
-            f"modes: {m.get('n_modes')} spaced {_fmt(m.get('spacing_nm'), ' nm', 4)} "
-            f"({_fmt(m.get('spacing_ghz'), ' GHz', 2)}), cavity optical length "
-            f"{_fmt(m.get('cavity_optical_length_mm'), ' mm', 3)}"
-        )
+        spacing = _with_u(m.get("spacing_nm"), m.get("u_spacing_nm"), "nm")
+        spacing_f = _with_u(m.get("spacing_ghz"), m.get("u_spacing_ghz"), "GHz")
+        cavity_mm = m.get("cavity_optical_length_mm")
+        u_cavity = None  # L = c/(2 Δν): the spacing's relative uncertainty carries over
+        if cavity_mm is not None and m.get("u_spacing_ghz") and m.get("spacing_ghz"):
+            u_cavity = cavity_mm * m["u_spacing_ghz"] / m["spacing_ghz"]
+        cavity = _with_u(cavity_mm, u_cavity, "mm")
+        out.append(f"modes: {m.get('n_modes')} spaced {spacing}, {spacing_f}; cavity optical "
+                   f"length {cavity}")
     n_src = sum(1 for ln in d["lines"] if ln["flag"] is None)
     out.append(f"lines: {n_src} from the source, {len(d['lines']) - n_src} flagged")
     out.append(
