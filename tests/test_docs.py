@@ -259,6 +259,7 @@ def _run_python(block: Block, namespace: dict, doc: str) -> None:
             )
             report = []
             runner.run(test, out=report.append, clear_globs=False)
+            namespace.update(test.globs)  # DocTest works on a copy: keep what it defined
             assert runner.failures == 0, "".join(report)
         else:
             code = compile(block.text, where, "exec")
@@ -345,6 +346,17 @@ def test_a_wrong_doc_output_fails(tmp_path):
     block = fenced_blocks("```console\n$ ftsource analyze missing.csv\n```\n")[0]
     with pytest.raises(AssertionError, match="exited with 2"):
         _run_console(block, tmp_path, "page.md")
+
+
+def test_python_blocks_share_a_namespace_and_doctests_compare():
+    namespace: dict = {}
+    page = "```python\nx = 41\n```\n\n```python\n>>> x + 1\n42\n>>> y = x\n```\n"
+    for block in fenced_blocks(page):
+        _run_python(block, namespace, "page.md")
+    assert namespace["y"] == 41
+    wrong = fenced_blocks("```python\n>>> 1 + 1\n3\n```\n")[0]
+    with pytest.raises(AssertionError, match="Expected"):
+        _run_python(wrong, namespace, "page.md")
 
 
 @pytest.mark.parametrize(
