@@ -6,9 +6,9 @@ a guide can make a record in one block and analyse it in the next:
 - ```` ```console ````: lines starting with ``$ `` are commands; the lines after one, up to
   the next command, are its expected output. Each expected line must appear in the output
   (standard output, then standard error), in order; other output lines may come between them
-  (the docs show the lines that matter). An indented line continues the line above (a long
-  warning wrapped for the page). A line ending in ``...`` matches any output line that
-  starts with the text before it; a line that is only ``...`` stands for elided lines. A
+  (the docs show the lines that matter). Whitespace runs count as one space and leading
+  whitespace is ignored. A line ending in ``...`` matches any output line that starts with
+  the text before it (a long warning is shortened this way, never wrapped); a line that is only ``...`` stands for elided lines. A
   command exits with status 0 unless one of its expected lines starts with ``error:``.
 - ```` ```bash ````: every command must exit with status 0; its output is not compared.
 - ```` ```python ````: run in one namespace per file (blocks build on each other). A block
@@ -88,8 +88,8 @@ class Command:
 
 
 def console_commands(block: Block) -> list[Command]:
-    """The ``$ `` commands of a console block, each with its logical expected lines
-    (continuation lines joined, whitespace runs made one space)."""
+    """The ``$ `` commands of a console block, each with its expected lines (whitespace runs
+    made one space, leading whitespace dropped)."""
     commands: list[list] = []
     for k, raw in enumerate(block.text.splitlines()):
         if raw.startswith("$ "):
@@ -97,8 +97,6 @@ def console_commands(block: Block) -> list[Command]:
         elif not commands:
             if raw.strip():
                 raise ValueError(f"line {block.line + k}: output before the first '$ ' command")
-        elif raw[:1].isspace() and raw.strip() and commands[-1][1]:
-            commands[-1][1][-1] += " " + raw.strip()
         elif raw.strip():
             commands[-1][1].append(raw.strip())
     return [Command(text, tuple(" ".join(e.split()) for e in exp), line)
@@ -306,8 +304,8 @@ $ ftsource --version
 ftsource 9.9.9
 $ echo one; echo two
 one
-warning: a long line
-         wrapped...
+  indented  line
+warning: a long line...
 ```
 
   ```python
@@ -322,7 +320,7 @@ def test_fenced_blocks_and_commands_are_read():
     assert blocks[1].text == "x = 1"
     cmds = console_commands(blocks[0])
     assert [c.text for c in cmds] == ["ftsource --version", "echo one; echo two"]
-    assert cmds[1].expected == ("one", "warning: a long line wrapped...")
+    assert cmds[1].expected == ("one", "indented line", "warning: a long line...")
 
 
 @pytest.mark.parametrize(
