@@ -8,8 +8,9 @@ a guide can make a record in one block and analyse it in the next:
   (standard output, then standard error), in order; other output lines may come between them
   (the docs show the lines that matter). Whitespace runs count as one space and leading
   whitespace is ignored. A line ending in ``...`` matches any output line that starts with
-  the text before it (a long warning is shortened this way, never wrapped); a line that is only ``...`` stands for elided lines. A
-  command exits with status 0 unless one of its expected lines starts with ``error:``.
+  the text before it (a long warning is shortened this way, never wrapped); a line that is
+  only ``...`` stands for elided lines. A command exits with status 0 unless one of its
+  expected lines starts with ``error:``.
 - ```` ```bash ````: every command must exit with status 0; its output is not compared.
 - ```` ```python ````: run in one namespace per file (blocks build on each other). A block
   written as an interactive session (``>>>``) is a doctest: the printed values must match
@@ -290,7 +291,7 @@ def test_the_docs_have_examples_to_run():
     found = {_doc_id(p): [b.language for b in fenced_blocks(p.read_text())]
              for p in DOC_FILES}
     assert "console" in found["README.md"]
-    assert sum(lang in RUN_LANGUAGES for langs in found.values() for lang in langs) >= 6
+    assert sum(lang in RUN_LANGUAGES for langs in found.values() for lang in langs) >= 30
 
 
 # ---------------------------------------------------------------------------------------------
@@ -407,3 +408,27 @@ def test_docstring_examples(name):
     for test in tests:
         runner.run(test, out=report.append)
     assert runner.failures == 0, "".join(report)
+
+
+# ---------------------------------------------------------------------------------------------
+# links
+
+_LINK = re.compile(r"\]\(([^)\s]+)\)")
+
+
+def test_the_index_links_every_page():
+    index = (ROOT / "docs" / "README.md").read_text()
+    linked = {m.split("#")[0] for m in _LINK.findall(index)}
+    pages = {p.name for p in (ROOT / "docs").glob("*.md")} - {"README.md"}
+    assert sorted(pages - linked) == []
+
+
+@pytest.mark.parametrize("path", DOC_FILES, ids=_doc_id)
+def test_relative_links_resolve(path):
+    broken = []
+    for target in _LINK.findall(path.read_text()):
+        if "://" in target or target.startswith(("#", "mailto:")):
+            continue
+        if not (path.parent / target.split("#")[0]).exists():
+            broken.append(target)
+    assert broken == []
