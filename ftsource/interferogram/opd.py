@@ -23,6 +23,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from ftsource.errors import AnalysisError
+from ftsource.interferogram.scale import HENE_VACUUM_WAVELENGTH_NM, OpdKind
 
 __all__ = [
     "EllipseFit",
@@ -83,7 +84,7 @@ class OpticalPath:
     """OPD for every sample (NaN where unknown) and the sweeps found in it."""
 
     opd_cm: np.ndarray
-    kind: str
+    kind: OpdKind
     sweeps: tuple[Sweep, ...]
     ellipse_residual: float | None
     fringe_slips: int
@@ -405,7 +406,7 @@ def opd_from_quadrature(
         )
     x *= lam_cm / (2 * np.pi)
     sweeps = _split_sweeps(x, seg_runs, sample_rate_hz, lam_cm)
-    _check_sweeps(sweeps, "quadrature")
+    _check_sweeps(sweeps, OpdKind.QUADRATURE)
     # refine: one ellipse fit per sweep, phase kept continuous with the first pass
     residuals = []
     for sw in sweeps:
@@ -424,7 +425,7 @@ def opd_from_quadrature(
             x[a:b] = _smooth_phase(x[a:b], spf)
     return OpticalPath(
         opd_cm=x,
-        kind="quadrature",
+        kind=OpdKind.QUADRATURE,
         sweeps=tuple(sweeps),
         ellipse_residual=float(np.sqrt(np.mean(np.square(residuals)))) if residuals else None,
         fringe_slips=slips,
@@ -576,7 +577,7 @@ def opd_from_single(
     _check_sweeps(sweeps, "single-channel")
     return OpticalPath(
         opd_cm=x,
-        kind="single",
+        kind=OpdKind.SINGLE,
         sweeps=tuple(sweeps),
         ellipse_residual=None,
         fringe_slips=slips,
@@ -604,9 +605,10 @@ def opd_from_position(
         if x.size > w:
             x = savgol_filter(x, w, 3, mode="interp")
     runs = [(0, x.size)]
-    sweeps = _split_sweeps(x, runs, sample_rate_hz, 632.991e-7)
-    _check_sweeps(sweeps, "encoder")
-    return OpticalPath(x, "encoder", tuple(sweeps), None, 0, 0, ())
+    # sweeps are told apart by a nominal fringe of travel, as for a He-Ne reference
+    sweeps = _split_sweeps(x, runs, sample_rate_hz, HENE_VACUUM_WAVELENGTH_NM * 1e-7)
+    _check_sweeps(sweeps, OpdKind.ENCODER)
+    return OpticalPath(x, OpdKind.ENCODER, tuple(sweeps), None, 0, 0, ())
 
 
 def opd_from_constant_speed(n_samples: int, sample_rate_hz: float, mirror_speed_m_s: float):
@@ -620,4 +622,4 @@ def opd_from_constant_speed(n_samples: int, sample_rate_hz: float, mirror_speed_
         f"{mirror_speed_m_s * 1e3:g} mm/s; every wavelength is only as good as that speed and "
         "any speed variation broadens and shifts the lines"
     )
-    return OpticalPath(x, "constant-speed", (sw,), None, 0, 0, (msg,))
+    return OpticalPath(x, OpdKind.CONSTANT_SPEED, (sw,), None, 0, 0, (msg,))
