@@ -258,7 +258,8 @@ _AIR_KEYS = (  # condition, metadata key, physical type, AirConditions field
 
 def _air_conditions(record, options, notes):
     """``options`` with the air of the analysis: the caller's stated conditions, else the
-    record's ``air_*`` metadata, else the nominal laboratory (:class:`ftsource.physics.air.AirConditions`).
+    record's ``air_*`` metadata, else the nominal laboratory
+    (:class:`ftsource.physics.air.AirConditions`).
 
     A value from metadata gets the caller's stated uncertainty for it, or else
     :data:`ftsource.physics.air.MEASURED_UNCERTAINTY`; it then counts as given (``air_given``).
@@ -314,10 +315,9 @@ def _index_factor(sigma, scale, options):
     """σ_vac/σ_apparent = n_scale/n(σ) for the medium (1 in vacuum), by ``options.air_model``;
     n_scale is the index at the reference laser's wavelength (1 for a geometric scale).
 
-    The air equations hold for 300–1700 nm (:data:`ftsource.physics.air.WAVELENGTH_RANGE_NM`); beyond,
-    the index at
-    the nearer end is used. The axis covers far more than the lines, so this is silent
-    here: :mod:`ftsource.result` warns for each reported line outside the range.
+    The air equations hold for 300–1700 nm (:data:`ftsource.physics.air.WAVELENGTH_RANGE_NM`);
+    beyond, the index at the nearer end is used. The axis covers far more than the lines, so
+    this is silent here: :mod:`ftsource.result` warns for each reported line outside the range.
     """
     if options.medium == "vacuum":
         return np.ones_like(sigma)
@@ -397,7 +397,7 @@ def analyze(record, options: AnalysisOptions | None = None, *, planner=None):
     ifgs = resample.resample_sweeps(signal, path, limits.dx_cm)
     delay = _channel_delay(ifgs, path, fs, kind, notes)
     if delay is not None:
-        from ftsource.lines.sweeps import shift_time_for_delay
+        from ftsource.interferogram.delay import shift_time_for_delay
 
         ifgs = resample.resample_sweeps(
             shift_time_for_delay(signal, delay.delay_s, fs), path, limits.dx_cm
@@ -566,8 +566,9 @@ def _rescale_line(fit, factor: float):
 def _aliasing(found, spec, sweep_specs, ifgs, path, fs, beta, sigma_app, factor, sigma_alias):
     """The band where aliases of detectable light may land, and each line's verdict from it
     and from the sweeps' speed diversity (:mod:`ftsource.lines.aliasing`)."""
+    from ftsource.interferogram.opd import sweep_speed_at
     from ftsource.lines.aliasing import assess_lines, band_at_risk, speed_step_needed
-    from ftsource.lines.sweeps import aliasing_check, sweep_speed_at
+    from ftsource.lines.sweeps import aliasing_check
 
     by_index = {ig.sweep.index: ig for ig in ifgs}
     medians, lows, highs, spreads = [], [], [], []
@@ -639,7 +640,7 @@ def _sweep_outliers(spec, sweep_specs, found, notes, fit_cache=None):
 def _channel_delay(ifgs, path, fs, kind, notes):
     """Estimate the signal channel's delay from forward/backward disagreement; return it
     when it is significant (then the caller corrects it), else None."""
-    from ftsource.lines.sweeps import estimate_channel_delay
+    from ftsource.interferogram.delay import estimate_channel_delay
 
     directions = {ig.sweep.direction for ig in ifgs}
     if not kind.knows_direction or directions != {-1, 1}:

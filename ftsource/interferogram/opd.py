@@ -22,7 +22,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from ftsource.errors import AnalysisError
+from ftsource.errors import AnalysisError, OptionError
 from ftsource.interferogram.scale import HENE_VACUUM_WAVELENGTH_NM, OpdKind
 
 __all__ = [
@@ -35,6 +35,7 @@ __all__ = [
     "opd_from_single",
     "opd_from_position",
     "opd_from_constant_speed",
+    "sweep_speed_at",
 ]
 
 #: Reference amplitude below this fraction of the record's median counts as a dropout.
@@ -623,3 +624,47 @@ def opd_from_constant_speed(n_samples: int, sample_rate_hz: float, mirror_speed_
         "any speed variation broadens and shifts the lines"
     )
     return OpticalPath(x, OpdKind.CONSTANT_SPEED, (sw,), None, 0, 0, (msg,))
+
+
+def sweep_speed_at(path, sweep, sample_rate_hz: float, x_cm, *, smooth_s: float = 1e-3):
+    """Local OPD speed |dx/dt| (cm/s) of one sweep at OPD values ``x_cm``.
+
+    The speed is the gradient of the sweep's own OPD (``path.opd_cm[sweep.start:sweep.stop]``)
+    times the sample rate, smoothed by a running mean of ``smooth_s`` (1 ms by default, the
+    window :mod:`ftsource.interferogram.opd` uses to find sweeps), and interpolated linearly in OPD.
+
+    Parameters
+    ----------
+    path : ftsource.interferogram.opd.OpticalPath
+        The OPD of the whole record.
+    sweep : ftsource.interferogram.opd.Sweep
+        The sweep (its ``start``/``stop``/``direction``).
+    sample_rate_hz : float
+        Sample rate of the record.
+    x_cm : float or array_like
+        Where to evaluate the speed (OPD, cm); values outside the sweep take the end speed.
+
+    Returns
+    -------
+    float or ndarray
+        Speed in cm/s of OPD, positive.
+
+    References
+    ----------
+    .. [1] Common practice: speed as the smoothed finite difference of the position.
+    """
+    from scipy.ndimage import uniform_filter1d
+
+    x = np.asarray(path.opd_cm[sweep.start : sweep.stop], float)
+    good = np.isfinite(x)
+    x = x[good]
+    if x.size < 4:
+        raise OptionError(f"sweep {sweep.index} has fewer than 4 samples with a known OPD")
+    v = np.abs(np.gradient(x)) * sample_rate_hz
+    v = uniform_filter1d(v, max(int(round(smooth_s * sample_rate_hz)), 1), mode="nearest")
+    if sweep.direction < 0:
+        x, v = x[::-1], v[::-1]
+    keep = np.concatenate([[True], np.diff(x) > 0])
+    keep &= x >= np.maximum.accumulate(x)
+    out = np.interp(np.asarray(x_cm, float), x[keep], v[keep])
+    return float(out) if np.ndim(x_cm) == 0 else out
