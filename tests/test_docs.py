@@ -432,3 +432,27 @@ def test_relative_links_resolve(path):
         if not (path.parent / target.split("#")[0]).exists():
             broken.append(target)
     assert broken == []
+
+
+# ---------------------------------------------------------------------------------------------
+# figures
+
+
+def test_the_figure_script_makes_every_figure_the_docs_show(tmp_path):
+    """scripts/make_doc_figures.py (run from the demo data) writes each PNG the docs link, and
+    each is a readable image; docs/figures holds no figure the script does not make."""
+    import matplotlib.image
+
+    r = subprocess.run([sys.executable, str(ROOT / "scripts" / "make_doc_figures.py"),
+                        "--out", str(tmp_path)], env=_env(), capture_output=True, text=True,
+                       timeout=900)
+    assert r.returncode == 0, r.stderr
+    made = {p.name for p in tmp_path.glob("*.png")}
+    linked = {Path(t).name for p in DOC_FILES for t in _LINK.findall(p.read_text())
+              if t.startswith("figures/")}
+    assert linked and linked <= made
+    assert {p.name for p in (ROOT / "docs" / "figures").glob("*.png")} == made
+    for name in made:
+        image = matplotlib.image.imread(tmp_path / name)
+        assert image.shape[0] > 100 and image.shape[1] > 100
+        assert image[..., :3].std() > 0.05  # not a blank canvas
