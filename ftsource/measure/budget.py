@@ -46,7 +46,8 @@ def centre_budget(centre, *, opd_kind, options, reference_wavelength_nm, source_
     """Budget of the centre estimate ``centre`` (:class:`ftsource.measure.classify.
     CentreEstimate`) on an OPD scale of kind ``opd_kind``.
 
-    ``main_per_cm`` is the main line's wavenumber (it sizes the field of view's broadening in
+    ``opd_kind`` is an :class:`ftsource.interferogram.scale.OpdKind`; ``main_per_cm`` is the
+    main line's wavenumber (it sizes the field of view's broadening in
     the note); ``source_lines`` are checked against the air equation's range.
 
     References
@@ -58,7 +59,9 @@ def centre_budget(centre, *, opd_kind, options, reference_wavelength_nm, source_
 
     centre_nm = centre.centre_nm
     notes = list(air_range_notes(source_lines, options))
-    opd_scale = opd_kind if opd_kind in ("encoder", "constant-speed") else "reference"
+    from ftsource.interferogram.scale import OpdKind
+
+    opd_scale = opd_kind.calibrated_quantity
     extra = []
     if field_of_view_factor != 1.0:
         fov_note, fov_component = _field_of_view(centre_nm, field_of_view_factor, main_per_cm)
@@ -89,12 +92,12 @@ def centre_budget(centre, *, opd_kind, options, reference_wavelength_nm, source_
             "the alignment allowance was not applied: the rig calibration already holds the "
             "cosine error of the alignment it was made with (realigning calls for a new one)"
         )
-    if opd_kind == "constant-speed" and cal is not None:
+    if opd_kind is OpdKind.CONSTANT_SPEED and cal is not None:
         notes.append(
             "NO REFERENCE: every wavelength scales with the mirror speed, calibrated here from a "
             "known line; this holds only while the drive runs exactly as it did then"
         )
-    elif opd_kind == "constant-speed":
+    elif opd_kind is OpdKind.CONSTANT_SPEED:
         notes.append(
             "NO REFERENCE: every wavelength scales with the assumed mirror speed; the budget "
             "carries its stated uncertainty (default 5 %), which dominates. Calibrate the speed "
@@ -126,17 +129,18 @@ def _field_of_view(centre_nm, factor, main_per_cm):
 def _scale_terms(centre_nm, opd_kind, options):
     """The reference's relative uncertainty for the budget and the components of a geometric
     OPD scale (rig calibration, encoder scale, assumed mirror speed)."""
+    from ftsource.interferogram.scale import OpdKind
     from ftsource.measure.uncertainty import Component
 
     cal = options.calibration
-    if cal is not None and opd_kind in ("encoder", "constant-speed"):
-        what = "encoder's scale" if opd_kind == "encoder" else "mirror speed"
+    if cal is not None and not opd_kind.uses_reference_laser:
+        what = "encoder's scale" if opd_kind is OpdKind.ENCODER else "mirror speed"
         return 0.0, [Component(
             "rig calibration", centre_nm * cal.u_effective_rel,
             note=f"relative standard uncertainty {cal.u_effective_rel * 1e6:.3g} ppm of the "
                  f"{what} calibrated from the known line {cal.known_wavelength_nm:.6g} nm",
         )]
-    if opd_kind == "encoder":
+    if opd_kind is OpdKind.ENCODER:
         esu = options.encoder_scale_uncertainty_ppm
         if esu is None:
             return 0.0, []  # not given: the analysis's note says it is missing from the budget
@@ -144,7 +148,7 @@ def _scale_terms(centre_nm, opd_kind, options):
             "encoder scale", centre_nm * esu * 1e-6,
             note=f"relative standard uncertainty {esu:g} ppm of the encoder's scale (user input)",
         )]
-    if opd_kind == "constant-speed":
+    if opd_kind is OpdKind.CONSTANT_SPEED:
         msu = options.mirror_speed_uncertainty_ppm
         return 0.0, [Component(
             "assumed mirror speed", centre_nm * msu * 1e-6,
@@ -164,7 +168,7 @@ def air_ratio_rel_u(options, opd_kind, reference_wavelength_nm, wl) -> float:
 
     model = options.air_model
     wl_c = float(np.clip(wl, *WAVELENGTH_RANGE_NM))
-    if opd_kind in ("quadrature", "single"):
+    if opd_kind.uses_reference_laser:
         return float(index_ratio_uncertainty(reference_wavelength_nm, wl_c, options.air,
                                              model=model))
     return float(index_uncertainty(wl_c, options.air, model=model))

@@ -150,16 +150,20 @@ def _digest(record) -> str:
 
 def input_facts(record, options, *, opd_kind, reference_wavelength_nm,
                 reference_uncertainty_ppm) -> tuple[InputFacts, tuple[str, ...]]:
-    """The input section and its note (air conditions assumed)."""
+    """The input section and its note (air conditions assumed). ``opd_kind`` is an
+    :class:`ftsource.interferogram.scale.OpdKind`; the reference's uncertainty is given only
+    for a reference laser's scale or a calibrated one."""
     air = options.air if options.medium == "air" else None
+    has_reference_u = opd_kind.uses_reference_laser or options.calibration is not None
     facts = InputFacts(
         record=str(record.path).replace("\\", "/").split("/")[-1],
         sha256=_digest(record),
         n_samples=int(record.n_samples),
         sample_rate_hz=finite_or_none(options.sample_rate_hz or record.sample_rate_hz),
-        opd_source=opd_kind,
+        opd_source=opd_kind.value,
         reference_wavelength_nm=finite_or_none(reference_wavelength_nm),
-        reference_uncertainty_ppm=finite_or_none(reference_uncertainty_ppm),
+        reference_uncertainty_ppm=finite_or_none(reference_uncertainty_ppm)
+        if has_reference_u else None,
         medium=options.medium,
         air=air,
         metadata=tuple((str(k), str(v)) for k, v in sorted(record.metadata.items())),

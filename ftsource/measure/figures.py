@@ -78,9 +78,8 @@ def source_figures(spec, source_lines, sweep_spectra, interferograms, *, options
     sweep_spectra, interferograms : sequences
         The sweeps that made ``spec`` (scatter, visibility and revival checks).
     options : ftsource.analysis.AnalysisOptions
-    opd_kind : str
-        Where the OPD scale came from: ``"quadrature"``, ``"single"``, ``"encoder"`` or
-        ``"constant-speed"``.
+    opd_kind : ftsource.interferogram.scale.OpdKind
+        Where the OPD scale came from (a reference laser, an encoder, an assumed speed).
     reference_wavelength_nm : float or None
     field_of_view_factor : float
         The Jacquinot factor applied to the axis (1: none).
