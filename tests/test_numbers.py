@@ -87,29 +87,29 @@ def test_two_digits_of_u_and_the_value_at_the_same_place(value, u):
     assert abs(float(u_text) - u) <= 0.5 * step * (1 + 1e-9) + 1e-12 * u
 
 
-class _Stub:
-    """A result as format_summary sees it: only ``to_dict``."""
-
-    def __init__(self, d):
-        self._d = d
-
-    def to_dict(self):
-        return self._d
-
-
 def _result(**summary):
-    base = {"kind": "broadband", "centre_wavelength_nm": 593.53286537,
-            "expanded_uncertainty_nm": 0.0046123, "coverage_factor": 2.57,
-            "centre_wavelength_air_nm": 593.37583, "frequency_thz": 505.0983,
-            "peak_wavelength_nm": 591.26642596, "u_peak_wavelength_nm": 0.0274424,
-            "centroid_wavelength_nm": 593.53286537, "u_centroid_wavelength_nm": 0.0015566,
-            "fwhm_nm": 15.9607239, "u_fwhm_nm": 0.04376297, "detector_weighted": True,
-            "coherence_length_mm": 0.0081234, "u_coherence_length_mm": 0.00041}
+    """A result as format_summary reads it: the figures, instrument and input as attributes
+    (the names of the JSON keys), no lines, no warnings."""
+    from types import SimpleNamespace
+
+    from ftsource.result import _SUMMARY_KEYS
+
+    base = dict.fromkeys(_SUMMARY_KEYS)
+    base.update({"kind": "broadband", "centre_wavelength_nm": 593.53286537,
+                 "expanded_uncertainty_nm": 0.0046123, "coverage_factor": 2.57,
+                 "centre_wavelength_air_nm": 593.37583, "frequency_thz": 505.0983,
+                 "peak_wavelength_nm": 591.26642596, "u_peak_wavelength_nm": 0.0274424,
+                 "centroid_wavelength_nm": 593.53286537, "u_centroid_wavelength_nm": 0.0015566,
+                 "fwhm_nm": 15.9607239, "u_fwhm_nm": 0.04376297, "detector_weighted": True,
+                 "coherence_length_mm": 0.0081234, "u_coherence_length_mm": 0.00041})
     base.update(summary)
-    return _Stub({"summary": base, "instrument": {"resolution_per_cm": 75.665,
-                                                  "max_opd_mm": 0.12, "min_wavelength_nm": 94.2},
-                  "input": {"record": "x.npz", "n_samples": 100, "opd_source": "quadrature"},
-                  "lines": [], "warnings": [], "safety": "Laser safety."})
+    return SimpleNamespace(
+        figures=SimpleNamespace(**base),
+        instrument=SimpleNamespace(resolution_per_cm=75.665, max_opd_mm=0.12,
+                                   min_wavelength_nm=94.2),
+        input=SimpleNamespace(record="x.npz", n_samples=100, opd_source="quadrature"),
+        lines=[], warnings=[],
+    )
 
 
 def test_summary_rounds_each_number_to_its_uncertainty():

@@ -80,10 +80,10 @@ def _fmt(v, unit="", digits=6):
     return f"{v:.{digits}f}{unit}"
 
 
-def _weighting(summary) -> str:
+def _weighting(figures) -> str:
     """How the broadband figures were weighted: ``response-corrected`` when the instrument
     response was divided out, otherwise ``detector-weighted`` (the measured spectrum)."""
-    return "detector-weighted" if summary.get("detector_weighted", True) else "response-corrected"
+    return "detector-weighted" if figures.detector_weighted else "response-corrected"
 
 
 def _coherence_length(mm, u_mm=None) -> str:
@@ -112,70 +112,69 @@ def format_summary(result) -> str:
     JCGM 100:2008 §7.2.6): the centre wavelength to its expanded uncertainty, the other
     figures to their standard uncertainty ``u``; bounds to 2 significant digits.
     """
-    d = result.to_dict()
-    s, ins, inp = d["summary"], d["instrument"], d["input"]
-    out = [f"record: {inp['record']}  ({inp['n_samples']} samples, OPD from {inp['opd_source']})"]
-    out.append(f"source kind: {s['kind']}")
-    if s.get("centre_wavelength_nm") is not None:
-        big_u = s.get("expanded_uncertainty_nm")
+    from ftsource.safety import LASER_NOTICE
+
+    s, ins, inp = result.figures, result.instrument, result.input
+    out = [f"record: {inp.record}  ({inp.n_samples} samples, OPD from {inp.opd_source})"]
+    out.append(f"source kind: {s.kind}")
+    if s.centre_wavelength_nm is not None:
+        big_u = s.expanded_uncertainty_nm
         out.append(
             f"centre wavelength (vacuum): "
-            f"{format_with_uncertainty(s['centre_wavelength_nm'], big_u, 'nm')} "
-            f"(k = {_fmt(s.get('coverage_factor'), '', 2)})"
+            f"{format_with_uncertainty(s.centre_wavelength_nm, big_u, 'nm')} "
+            f"(k = {_fmt(s.coverage_factor, '', 2)})"
         )
-        if s.get("centre_wavelength_air_nm") is not None:
-            air, _ = round_to_uncertainty(s["centre_wavelength_air_nm"], big_u)
+        if s.centre_wavelength_air_nm is not None:
+            air, _ = round_to_uncertainty(s.centre_wavelength_air_nm, big_u)
             out.append(f"centre wavelength (air):    {air} nm")
-        f_thz = s.get("frequency_thz")
+        f_thz = s.frequency_thz
         if f_thz is not None and big_u is not None:
-            big_u_f = f_thz * big_u / s["centre_wavelength_nm"]
+            big_u_f = f_thz * big_u / s.centre_wavelength_nm
             out.append(f"frequency: {format_with_uncertainty(f_thz, big_u_f, 'THz')}")
         else:
             out.append(f"frequency: {format_significant(f_thz, 7, 'THz')}")
-    if s["kind"] == "broadband":
-        peak = _with_u(s.get("peak_wavelength_nm"), s.get("u_peak_wavelength_nm"), "nm")
-        centroid = _with_u(s.get("centroid_wavelength_nm"), s.get("u_centroid_wavelength_nm"),
-                           "nm")
-        fwhm = _with_u(s.get("fwhm_nm"), s.get("u_fwhm_nm"), "nm")
+    if s.kind == "broadband":
+        peak = _with_u(s.peak_wavelength_nm, s.u_peak_wavelength_nm, "nm")
+        centroid = _with_u(s.centroid_wavelength_nm, s.u_centroid_wavelength_nm, "nm")
+        fwhm = _with_u(s.fwhm_nm, s.u_fwhm_nm, "nm")
         out.append(f"peak {peak}, centroid {centroid}, FWHM {fwhm} ({_weighting(s)})")
-        if s.get("dominant_wavelength_nm") is not None and s.get("chromaticity_xy"):
-            x, y = s["chromaticity_xy"]
+        if s.dominant_wavelength_nm is not None and s.chromaticity_xy:
+            x, y = s.chromaticity_xy
             out.append(
                 f"colour: x = {_fmt(x, '', 4)}, y = {_fmt(y, '', 4)}, dominant wavelength "
-                f"{_fmt(s['dominant_wavelength_nm'], ' nm', 1)}"
+                f"{_fmt(s.dominant_wavelength_nm, ' nm', 1)}"
             )
-    elif s.get("resolved"):
-        out.append(f"linewidth (FWHM): {_with_u(s.get('fwhm_nm'), s.get('u_fwhm_nm'), 'nm')}")
-    elif s.get("fwhm_upper_bound_nm") is not None:
-        bound = format_significant(s["fwhm_upper_bound_nm"], 2, "nm")
-        lower = format_significant(s.get("coherence_length_lower_bound_mm"), 2, "mm")
+    elif s.resolved:
+        out.append(f"linewidth (FWHM): {_with_u(s.fwhm_nm, s.u_fwhm_nm, 'nm')}")
+    elif s.fwhm_upper_bound_nm is not None:
+        bound = format_significant(s.fwhm_upper_bound_nm, 2, "nm")
+        lower = format_significant(s.coherence_length_lower_bound_mm, 2, "mm")
         out.append(f"linewidth: not resolved, below {bound}; coherence length above {lower}")
-    if s.get("coherence_length_mm") is not None:
+    if s.coherence_length_mm is not None:
         out.append(
             "coherence length: "
-            f"{_coherence_length(s['coherence_length_mm'], s.get('u_coherence_length_mm'))}"
+            f"{_coherence_length(s.coherence_length_mm, s.u_coherence_length_mm)}"
         )
-    if s.get("modes"):
-        m = s["modes"]
-        spacing = _with_u(m.get("spacing_nm"), m.get("u_spacing_nm"), "nm")
-        spacing_f = _with_u(m.get("spacing_ghz"), m.get("u_spacing_ghz"), "GHz")
-        cavity_mm = m.get("cavity_optical_length_mm")
+    if s.modes is not None:
+        m = s.modes
+        spacing = _with_u(m.spacing_nm, m.u_spacing_nm, "nm")
+        spacing_f = _with_u(m.spacing_ghz, m.u_spacing_ghz, "GHz")
         u_cavity = None  # L = c/(2 Δν): the spacing's relative uncertainty carries over
-        if cavity_mm is not None and m.get("u_spacing_ghz") and m.get("spacing_ghz"):
-            u_cavity = cavity_mm * m["u_spacing_ghz"] / m["spacing_ghz"]
-        cavity = _with_u(cavity_mm, u_cavity, "mm")
-        out.append(f"modes: {m.get('n_modes')} spaced {spacing}, {spacing_f}; cavity optical "
+        if m.cavity_optical_length_mm is not None and m.u_spacing_ghz and m.spacing_ghz:
+            u_cavity = m.cavity_optical_length_mm * m.u_spacing_ghz / m.spacing_ghz
+        cavity = _with_u(m.cavity_optical_length_mm, u_cavity, "mm")
+        out.append(f"modes: {m.n_modes} spaced {spacing}, {spacing_f}; cavity optical "
                    f"length {cavity}")
-    n_src = sum(1 for ln in d["lines"] if ln["flag"] is None)
-    out.append(f"lines: {n_src} from the source, {len(d['lines']) - n_src} flagged")
+    n_src = sum(1 for ln in result.lines if ln.flag is None)
+    out.append(f"lines: {n_src} from the source, {len(result.lines) - n_src} flagged")
     out.append(
-        f"resolution: {_fmt(ins.get('resolution_per_cm'), ' cm⁻¹', 3)} (max OPD "
-        f"{_fmt(ins.get('max_opd_mm'), ' mm', 3)}); shortest alias-free wavelength "
-        f"{_fmt(ins.get('min_wavelength_nm'), ' nm', 1)}"
+        f"resolution: {_fmt(ins.resolution_per_cm, ' cm⁻¹', 3)} (max OPD "
+        f"{_fmt(ins.max_opd_mm, ' mm', 3)}); shortest alias-free wavelength "
+        f"{_fmt(ins.min_wavelength_nm, ' nm', 1)}"
     )
-    for w in d["warnings"]:
+    for w in result.warnings:
         out.append(f"warning: {w}")
-    out.append(f"safety: {d['safety']}")
+    out.append(f"safety: {LASER_NOTICE}")
     return "\n".join(_printable(line) for line in out)
 
 
@@ -186,7 +185,7 @@ def _spectrum_ecsv(result) -> bytes:
 
     spec = result.spectrum
     sig = spec.sigma_per_cm
-    lo, hi = 1e7 / 3300.0, 1e7 / max(result.instrument["min_wavelength_nm"] or 200.0, 200.0)
+    lo, hi = 1e7 / 3300.0, 1e7 / max(result.instrument.min_wavelength_nm or 200.0, 200.0)
     m = (sig >= lo) & (sig <= hi)
     t = Table()
     t["wavenumber"] = sig[m]
@@ -202,13 +201,13 @@ def _spectrum_ecsv(result) -> bytes:
         "wavenumber (arbitrary units x cm) and per unit wavelength (S_lambda = S_sigma*sigma^2/1e7,"
         " as CIE 127 uses for LEDs), each with its noise (standard uncertainty)"
     )
-    t.meta["medium_corrected"] = result.input["medium"]
-    t.meta["resolution_per_cm"] = result.instrument["resolution_per_cm"]
-    t.meta["line_shape"] = result.instrument["line_shape"]
+    t.meta["medium_corrected"] = result.input.medium
+    t.meta["resolution_per_cm"] = result.instrument.resolution_per_cm
+    t.meta["line_shape"] = result.instrument.line_shape
     # the columns are the measured spectrum: no instrument response is divided out of them
     t.meta["density_weighting"] = "detector-weighted"
-    s = result.summary
-    t.meta["broadband_figures_weighting"] = _weighting(s) if s["kind"] == "broadband" else None
+    f = result.figures
+    t.meta["broadband_figures_weighting"] = _weighting(f) if f.kind == "broadband" else None
     buf = io.StringIO()
     with np.printoptions(legacy=False):
         t.write(buf, format="ascii.ecsv")
