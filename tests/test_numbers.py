@@ -92,9 +92,8 @@ def _result(**summary):
     (the names of the JSON keys), no lines, no warnings."""
     from types import SimpleNamespace
 
-    from ftsource.result import _SUMMARY_KEYS
-
-    base = dict.fromkeys(_SUMMARY_KEYS)
+    base = dict.fromkeys(("resolved", "fwhm_upper_bound_nm", "coherence_length_lower_bound_mm",
+                          "chromaticity_xy", "dominant_wavelength_nm", "modes"))
     base.update({"kind": "broadband", "centre_wavelength_nm": 593.53286537,
                  "expanded_uncertainty_nm": 0.0046123, "coverage_factor": 2.57,
                  "centre_wavelength_air_nm": 593.37583, "frequency_thz": 505.0983,
