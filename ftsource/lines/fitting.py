@@ -4,8 +4,13 @@ A line is fitted with its profile *convolved with the instrument line shape* of 
 (:class:`ftsource.spectrum.spectrum.LineShape`), so a line near the resolution limit is not reported
 wider than it is. Profiles: Gaussian, Lorentzian and Voigt, chosen by Akaike's information
 criterion on the effective number of independent points (zero-filling and apodization make
-neighbouring points correlated), and claimed only when the line spans at least
-:data:`MIN_ELEMENTS_FOR_PROFILE` resolution elements.
+neighbouring points correlated), the choice carried into the uncertainty by Akaike weights,
+and claimed only when the line spans at least :data:`MIN_ELEMENTS_FOR_PROFILE` resolution
+elements and the data decide between Gaussian and Lorentzian. A peak in the wings of a
+resolved line is a new line only when it beats the wings alone clearly (Schwarz's criterion,
+:data:`WING_BIC`); a resolved line narrower than :data:`PAIR_ELEMENTS` elements that a pair of
+unresolved lines fits as well is marked ``pair_possible``. The rules are stated in
+``docs/measurements.md``.
 
 Uncertainties are the "sandwich" covariance of the least-squares estimate with the spectral
 noise correlation of the apodized transform, scaled by the residuals (a residual-based,
@@ -16,7 +21,7 @@ Kernel units: wavenumber in cm⁻¹.
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 import numpy as np
 
@@ -27,7 +32,11 @@ __all__ = [
     "fit_line",
     "find_lines",
     "voigt_fwhm",
+    "akaike_average",
     "MIN_ELEMENTS_FOR_PROFILE",
+    "PROFILE_WEIGHT",
+    "PAIR_ELEMENTS",
+    "WING_BIC",
     "RESOLVED_FACTOR",
     "DETECTION_SNR",
 ]
@@ -38,6 +47,19 @@ MIN_ELEMENTS_FOR_PROFILE = 5.0
 #: A line counts as resolved when its fitted intrinsic FWHM is at least this many instrument
 #: FWHMs and exceeds three times its own standard uncertainty.
 RESOLVED_FACTOR = 1.0
+#: A profile is claimed only when its Akaike weight among the fitted profiles reaches this.
+PROFILE_WEIGHT = 0.9
+#: Resolved lines narrower than this many resolution elements are also fitted as a pair of
+#: unresolved lines.
+PAIR_ELEMENTS = 3.0
+#: "Clearly better" for information criteria: a difference above 10 leaves the worse model
+#: essentially no support (Burnham & Anderson 2002, §2.6; Kass & Raftery 1995, "very strong").
+PAIR_AIC_MARGIN = 10.0
+#: A new line among the wings of a resolved line must beat the wings alone by this much
+#: in Schwarz's criterion (BIC), see :func:`find_lines`.
+WING_BIC = 10.0
+#: How far (in its FWHMs) a resolved line's wings are searched with :data:`WING_BIC`.
+WING_REACH = 30.0
 #: Peaks below this many noise standard deviations are not reported as lines.
 DETECTION_SNR = 8.0
 #: Most spectral points used in one line fit (broad lines are subsampled).
@@ -89,6 +111,9 @@ class LineFit:
     success: bool
     message: str
     aic: dict
+    profile_weights: dict = field(default_factory=dict)
+    pair_possible: bool = False
+    bic_gain: float = float("nan")
 
     @property
     def wavelength_nm(self) -> float:
@@ -117,21 +142,6 @@ def _observed_fwhm(sig, y, i0):
     return float(sig[hi] - sig[lo])
 
 
-def _model_factory(spec: Spectrum, profile: str):
-    """Model ``h·K(σ−c; widths)/K(0) + b`` with signed width parameters (see
-    :meth:`ftsource.spectrum.spectrum.LineShape.kernel_signed`): ``[h, c, b, q]`` for a Gaussian
-    (q = FWHM²), ``[h, c, b, l]`` for a Lorentzian, ``[h, c, b, q, l]`` for a Voigt."""
-    shape = spec.line_shape
-    k00 = shape.kernel(np.zeros(1))[0]
-
-    def model(p, sig):
-        q = p[3] if profile in ("gaussian", "voigt") else 0.0
-        lor = p[-1] if profile in ("lorentzian", "voigt") else 0.0
-        return p[0] * shape.kernel_signed(sig - p[1], q, lor) / k00 + p[2]
-
-    return model
-
-
 def _widths(profile: str, p: np.ndarray, cov: np.ndarray):
     """Intrinsic FWHM, its standard uncertainty, and the Gaussian/Lorentzian parts."""
     if profile == "gaussian":
@@ -152,6 +162,36 @@ def _widths(profile: str, p: np.ndarray, cov: np.ndarray):
     return w, float(np.sqrt(max(jw @ cov[3:5, 3:5] @ jw, 0.0))), g, lw
 
 
+def akaike_average(values, uncertainties, aics, *, about=None):
+    """Model-averaged value and its unconditional standard uncertainty.
+
+    Akaike weights ``w_i ∝ exp(−ΔAIC_i/2)``; the value is ``θ̄ = Σ w_i θ_i`` and its
+    uncertainty ``Σ w_i √(u_i² + (θ_i − θ̄)²)``, which carries the choice between models
+    into the uncertainty (Buckland, Burnham & Augustin 1997; Burnham & Anderson 2002, eq. 4.9).
+    With ``about`` (the selected model's estimate) the value returned is ``about`` and the
+    spread is taken about it, ``Σ w_i √(u_i² + (θ_i − about)²)``.
+
+    Returns
+    -------
+    (float, float, ndarray)
+        ``θ̄``, its uncertainty and the weights.
+
+    References
+    ----------
+    .. [1] S. T. Buckland, K. P. Burnham and N. H. Augustin, "Model selection: an integral part
+       of inference", Biometrics 53, 603–618 (1997).
+    .. [2] K. P. Burnham and D. R. Anderson, *Model Selection and Multimodel Inference*, 2nd
+       ed., Springer (2002), §4.3.2.
+    """
+    v = np.asarray(values, float)
+    u = np.asarray(uncertainties, float)
+    a = np.asarray(aics, float)
+    w = np.exp(-0.5 * (a - a.min()))
+    w = w / w.sum()
+    mean = float(np.sum(w * v)) if about is None else float(about)
+    return mean, float(np.sum(w * np.sqrt(u * u + (v - mean) ** 2))), w
+
+
 def fit_line(
     spec: Spectrum,
     centre_guess_per_cm: float,
@@ -161,10 +201,20 @@ def fit_line(
 ) -> LineFit:
     """Fit one line near ``centre_guess_per_cm``.
 
-    A Gaussian is fitted first; it decides whether the line is resolved. Only a resolved line
-    at least :data:`MIN_ELEMENTS_FOR_PROFILE` resolution elements wide is also fitted with a
-    Lorentzian and a Voigt profile, and the profile with the lowest AIC (on the effective number
-    of independent points) is kept; otherwise the profile is "undetermined".
+    A Gaussian is fitted first; it decides whether the line is resolved. A resolved line is
+    also fitted with a Lorentzian and a Voigt profile, whatever its width. The reported centre
+    and FWHM are those of the profile of lowest AIC (also the line model subtracted before
+    looking for further lines), with the unconditional uncertainty over the valid profiles
+    (:func:`akaike_average` about the selected estimate), so a profile the data cannot pick
+    carries the spread between profiles into the uncertainty. A profile is *claimed* only when
+    the line spans at least :data:`MIN_ELEMENTS_FOR_PROFILE` resolution elements and the data
+    decide between Gaussian and Lorentzian: the rival pure profile keeps at most
+    1 − :data:`PROFILE_WEIGHT` of the Akaike weight; otherwise it is "undetermined".
+
+    A resolved line narrower than :data:`PAIR_ELEMENTS` resolution elements is also fitted as a
+    pair of unresolved lines; when the pair's AIC is not worse than the single line's by
+    :data:`PAIR_AIC_MARGIN`, ``pair_possible`` is set: the data cannot tell one broad line from
+    two close narrow ones.
 
     Parameters
     ----------
@@ -186,7 +236,9 @@ def fit_line(
     ----------
     .. [1] H. Akaike, "A new look at the statistical model identification", IEEE Trans.
        Autom. Control 19, 716–723 (1974).
-    .. [2] JCGM 100:2008, Evaluation of measurement data — Guide to the expression of
+    .. [2] K. P. Burnham and D. R. Anderson, *Model Selection and Multimodel Inference*, 2nd
+       ed., Springer (2002), §2.9 (ΔAIC > 10: essentially no support) and §4.3.2.
+    .. [3] JCGM 100:2008, Evaluation of measurement data — Guide to the expression of
        uncertainty in measurement, §4.2 (Type A evaluation).
     """
     from scipy.optimize import least_squares
@@ -222,27 +274,70 @@ def fit_line(
     corr_len = float(np.sum(r[np.abs(lags) <= 4 * ils]))
     n_eff = x.size / max(corr_len, 1.0)
     rmat = r[(np.arange(x.size)[:, None] - np.arange(x.size)[None, :]) + x.size - 1]
+    # the line shape at the fit points, with quadrature and trigonometric tables built once
+    ev = spec.line_shape.evaluator(x)
+    k00 = spec.line_shape.kernel(np.zeros(1))[0]
+    h0 = float(y_all[i0])
+    hs = abs(h0) + 1e-300
+
+    def aic_of(rss, n_par):
+        return n_eff * np.log(max(rss, 1e-300) / x.size) + 2 * n_par
 
     def run(prof):
-        model = _model_factory(spec, prof)
-        p0 = [y_all[i0], sig[i0], 0.0]
-        scale = [abs(y_all[i0]) + 1e-300, ils, abs(y_all[i0]) + 1e-300]
-        if prof in ("gaussian", "voigt"):
+        gq = prof in ("gaussian", "voigt")
+        lz = prof in ("lorentzian", "voigt")
+        p0 = [h0, sig[i0], 0.0]
+        scale = [hs, ils, hs]
+        if gq:
             p0.append(excess2 if prof == "gaussian" else 0.5 * excess2)
             scale.append(ils**2)
-        if prof in ("lorentzian", "voigt"):
+        if lz:
             p0.append(np.sqrt(excess2) * (1.0 if prof == "lorentzian" else 0.5))
             scale.append(ils)
+
+        def widths(p):
+            return (p[3] if gq else 0.0), (p[-1] if lz else 0.0)
+
+        def fun(p):
+            q, lor = widths(p)
+            return (p[0] * ev(p[1], q, lor) / k00 + p[2] - y) * wts
+
+        def jac(p):
+            q, lor = widths(p)
+            k, dc, dq, dl = ev(p[1], q, lor, derivatives=True)
+            cols = [k / k00, p[0] * dc / k00, np.ones_like(k)]
+            if gq:
+                cols.append(p[0] * dq / k00)
+            if lz:
+                cols.append(p[0] * dl / k00)
+            return np.column_stack(cols) * wts[:, None]
+
         # trial steps to large negative (signed) widths overflow the growing envelope; the
         # solver rejects their non-finite cost, so numpy's overflow warnings are noise here
         with np.errstate(over="ignore", invalid="ignore"):
-            res = least_squares(
-                lambda p: (model(p, x) - y) * wts, p0, x_scale=np.array(scale), method="trf",
-                max_nfev=100 * len(p0),
-            )
-        rss = float(np.sum(res.fun**2))
-        aic = n_eff * np.log(max(rss, 1e-300) / x.size) + 2 * res.x.size
-        return res, aic
+            res = least_squares(fun, p0, jac=jac, x_scale=np.array(scale), method="trf",
+                                max_nfev=100 * len(p0))
+        return res, aic_of(float(np.sum(res.fun**2)), res.x.size)
+
+    def run_pair(fit_c, fit_w):
+        """Two unresolved lines (instrument line shape) instead of one broad line."""
+        half = 0.5 * max(fit_w, 0.5 * ils)
+
+        def fun(p):
+            return (p[0] * ev(p[1], 0.0, 0.0) / k00 + p[2] * ev(p[3], 0.0, 0.0) / k00 + p[4]
+                    - y) * wts
+
+        def jac(p):
+            k1, d1, _, _ = ev(p[1], 0.0, 0.0, derivatives=True)
+            k2, d2, _, _ = ev(p[3], 0.0, 0.0, derivatives=True)
+            cols = [k1 / k00, p[0] * d1 / k00, k2 / k00, p[2] * d2 / k00, np.ones_like(k1)]
+            return np.column_stack(cols) * wts[:, None]
+
+        p0 = [0.5 * h0, fit_c - half, 0.5 * h0, fit_c + half, 0.0]
+        with np.errstate(over="ignore", invalid="ignore"):
+            res = least_squares(fun, p0, jac=jac, x_scale=np.array([hs, ils, hs, ils, hs]),
+                                method="trf", max_nfev=500)
+        return aic_of(float(np.sum(res.fun**2)), res.x.size)
 
     def covariance(res):
         # Jacobian columns scaled to unit norm first: the width column is orders of magnitude
@@ -265,19 +360,20 @@ def fit_line(
             s2, dof_out = ratio, dof
         else:
             s2, dof_out = 1.0, np.inf
-        dofs[0] = dof_out
-        return jtj_inv @ jrj @ jtj_inv * s2 / np.outer(d, d)
+        return jtj_inv @ jrj @ jtj_inv * s2 / np.outer(d, d), dof_out
 
-    dofs = [np.inf]
     first = "gaussian" if profile in ("auto", "gaussian") else profile
     res, aic = run(first)
     results = {first: (res, aic)}
-    cov = covariance(res)
+    cov, dof = covariance(res)
     w, uw, g, lw = _widths(first, res.x, cov)
+    perr = np.sqrt(np.clip(np.diag(cov), 0, None))
+    centre, u_centre = float(res.x[1]), float(perr[1])
     resolved = bool(w >= RESOLVED_FACTOR * ils and w > 3 * uw)
     elements = w / ils if ils > 0 else 0.0
     best = first
-    if profile == "auto" and resolved and elements >= MIN_ELEMENTS_FOR_PROFILE:
+    weights = {first: 1.0}
+    if profile == "auto" and resolved:
         for prof in ("lorentzian", "voigt"):
             results[prof] = run(prof)
         # a Voigt with a Gaussian or Lorentzian part at or below zero width is no Voigt (the
@@ -285,23 +381,56 @@ def fit_line(
         v = results["voigt"][0].x
         choices = [k for k in results if k != "voigt" or (v[3] > 0 and v[4] > 0)]
         best = min(choices, key=lambda k: results[k][1])
-        res = results[best][0]
-        cov = covariance(res)
-        w, uw, g, lw = _widths(best, res.x, cov)
-    perr = np.sqrt(np.clip(np.diag(cov), 0, None))
-    claimed = best if (resolved and elements >= MIN_ELEMENTS_FOR_PROFILE) else "undetermined"
+        fits = {}
+        for k in choices:
+            ck, dk = covariance(results[k][0])
+            fits[k] = (results[k][0], ck, dk, _widths(k, results[k][0].x, ck))
+        res, cov, dof, (_, _, g, lw) = fits[best][0], fits[best][1], fits[best][2], fits[best][3]
+        perr = np.sqrt(np.clip(np.diag(cov), 0, None))
+        aics = [results[k][1] for k in choices]
+        # the selected profile's estimates, with the spread over the profiles in their
+        # uncertainties
+        w, uw, wts_m = akaike_average([fits[k][3][0] for k in choices],
+                                      [fits[k][3][1] for k in choices], aics,
+                                      about=fits[best][3][0])
+        centre, u_centre, _ = akaike_average(
+            [fits[k][0].x[1] for k in choices],
+            [np.sqrt(max(fits[k][1][1, 1], 0.0)) for k in choices], aics, about=res.x[1])
+        weights = {k: float(v) for k, v in zip(choices, wts_m, strict=True)}
+        elements = w / ils if ils > 0 else 0.0
+    # the claim stands when the data decide between Gaussian and Lorentzian: the other pure
+    # profile (for a Voigt, the pure profile it is further from) keeps at most
+    # 1 − PROFILE_WEIGHT of the weight; a Voigt that fits as well as the pure profile it
+    # contains does not argue against that profile
+    g_w, l_w = weights.get("gaussian", 0.0), weights.get("lorentzian", 0.0)
+    rivals = {"gaussian": ("lorentzian",), "lorentzian": ("gaussian",),
+              "voigt": ("gaussian",) if l_w >= g_w else ("lorentzian",)}[best]
+    clear = sum(weights.get(k, 0.0) for k in rivals) <= 1.0 - PROFILE_WEIGHT
+    wide = resolved and elements >= MIN_ELEMENTS_FOR_PROFILE
+    claimed = best if wide and (clear or profile != "auto") else "undetermined"
+    pair = False
+    if profile == "auto" and resolved and elements < PAIR_ELEMENTS:
+        aic_pair = run_pair(centre, w)
+        results["pair"] = (None, aic_pair)
+        pair = bool(aic_pair < results[best][1] + PAIR_AIC_MARGIN)
     bound = None
     if not resolved:
         # upper bound at coverage factor BOUND_K on the Gaussian width parameter q = FWHM²
         q, uq = (res.x[3], perr[3]) if best in ("gaussian", "voigt") else (w**2, 2 * w * uw)
         bound = float(max(np.sqrt(max(q + BOUND_K * uq, 0.0)), ils))
-    k00 = spec.line_shape.kernel(np.zeros(1))[0]
     noise_at = float(spec.noise[i0])
     p = res.x
     peak = float(p[0] * spec.line_shape.kernel(np.zeros(1), g, lw)[0] / k00)
+    # evidence for a line here at all: Schwarz's criterion of this fit against the baseline
+    # alone (others subtracted), on the effective number of points
+    rss_fit = float(np.sum(res.fun**2))
+    b0 = float(np.sum(y * wts * wts) / np.sum(wts * wts))
+    rss_null = float(np.sum(((y - b0) * wts) ** 2))
+    bic_gain = float(n_eff * np.log(max(rss_null, 1e-300) / max(rss_fit, 1e-300))
+                     - (p.size - 1) * np.log(max(n_eff, 2.0)))
     return LineFit(
-        centre_per_cm=float(p[1]),
-        u_centre_per_cm=float(perr[1]),
+        centre_per_cm=centre,
+        u_centre_per_cm=u_centre,
         height=float(p[0]),
         peak=peak,
         area=float(p[0] / k00),
@@ -317,10 +446,13 @@ def fit_line(
         snr=float(peak / noise_at) if noise_at > 0 else float("inf"),
         n_points=int(x.size),
         n_effective=float(n_eff),
-        dof=float(dofs[0]),
+        dof=float(dof),
         success=bool(res.success),
         message=str(res.message),
         aic={k: float(v[1]) for k, v in results.items()},
+        profile_weights=weights,
+        pair_possible=pair,
+        bic_gain=bic_gain,
     )
 
 
@@ -336,19 +468,35 @@ def _reach(fit: LineFit) -> float:
 
 
 def line_model(spec: Spectrum, fits: list[LineFit]):
-    """Callable model of a set of fitted lines (without baselines)."""
+    """Callable model of a set of fitted lines (without baselines).
+
+    Within :func:`_reach` of its centre a line is its profile convolved with the line shape;
+    beyond, a line with a Lorentzian part keeps its wings as the closed-form Voigt profile
+    (scipy.special.voigt_profile; there the instrument line shape, of unit area and far
+    narrower than the distance, no longer changes the profile), so slowly falling Lorentzian
+    wings are not left behind to be found as lines.
+    """
+    from scipy.special import voigt_profile
+
     shape = spec.line_shape
     k00 = shape.kernel(np.zeros(1))[0]
+    to_sigma = 1.0 / (2.0 * np.sqrt(2.0 * np.log(2.0)))
 
     def f(sig):
         out = np.zeros_like(sig)
         for lf in fits:
             if not lf.success:
                 continue
-            m = np.abs(sig - lf.centre_per_cm) < _reach(lf)
+            d = sig - lf.centre_per_cm
+            m = np.abs(d) < _reach(lf)
             out[m] += lf.height * shape.kernel(
-                sig[m] - lf.centre_per_cm, lf.gauss_fwhm_per_cm, lf.lorentz_fwhm_per_cm
+                d[m], lf.gauss_fwhm_per_cm, lf.lorentz_fwhm_per_cm
             ) / k00
+            if lf.lorentz_fwhm_per_cm > 0:
+                far = ~m
+                out[far] += lf.area * voigt_profile(
+                    d[far], lf.gauss_fwhm_per_cm * to_sigma, lf.lorentz_fwhm_per_cm / 2
+                )
         return out
 
     return f
@@ -395,6 +543,10 @@ def find_lines(
             # the same line again (a residual of an imperfect subtraction) is not a new line
             and all(abs(fit.centre_per_cm - f.centre_per_cm) > 0.5 * f.instrument_fwhm_per_cm
                     for f in fits)
+            # among the wings of a resolved line, a new line must beat the wings alone clearly
+            and (fit.bic_gain >= WING_BIC
+                 or not any(f.resolved and abs(fit.centre_per_cm - f.centre_per_cm)
+                            < WING_REACH * f.fwhm_per_cm for f in fits))
         )
         if not plausible:
             # an unfittable peak: raise the floor there so the search moves on
