@@ -37,6 +37,7 @@ __all__ = [
     "PROFILE_WEIGHT",
     "PAIR_ELEMENTS",
     "WING_BIC",
+    "two_lines_gain",
     "RESOLVED_FACTOR",
     "DETECTION_SNR",
 ]
@@ -58,7 +59,8 @@ PAIR_AIC_MARGIN = 10.0
 #: A new line among the wings of a resolved line must beat the wings alone by this much
 #: in Schwarz's criterion (BIC), see :func:`find_lines`.
 WING_BIC = 10.0
-#: How far (in its FWHMs) a resolved line's wings are searched with :data:`WING_BIC`.
+#: How far (in its FWHMs, at least instrument FWHMs) a line's wings are searched with
+#: :data:`WING_BIC`.
 WING_REACH = 30.0
 #: Peaks below this many noise standard deviations are not reported as lines.
 DETECTION_SNR = 8.0
@@ -86,6 +88,12 @@ class LineFit:
 
     ``fwhm_per_cm`` is meaningful only when ``resolved``; otherwise ``fwhm_upper_bound_per_cm``
     holds the bound (at coverage factor :data:`BOUND_K`, never below the instrument FWHM).
+    ``profile_weights`` are the Akaike weights of the profiles fitted (one, 1.0, for an
+    unresolved line), ``profile_widths`` each profile's ``(gauss_fwhm, lorentz_fwhm,
+    u_fwhm)``; ``pair_possible`` says a pair of unresolved lines fits as well as this one
+    broad line, and ``pair_lines`` holds the pair's ``(centre, height)`` when the pair fits
+    clearly better (ΔAIC > :data:`PAIR_AIC_MARGIN`); ``bic_gain`` is Schwarz's criterion of
+    the line against the baseline alone.
     ``success`` is False with a ``message`` when the fit failed; the object is still returned
     so callers can inspect it.
     """
@@ -112,7 +120,9 @@ class LineFit:
     message: str
     aic: dict
     profile_weights: dict = field(default_factory=dict)
+    profile_widths: dict = field(default_factory=dict)
     pair_possible: bool = False
+    pair_lines: tuple = ()
     bic_gain: float = float("nan")
 
     @property
@@ -337,7 +347,7 @@ def fit_line(
         with np.errstate(over="ignore", invalid="ignore"):
             res = least_squares(fun, p0, jac=jac, x_scale=np.array([hs, ils, hs, ils, hs]),
                                 method="trf", max_nfev=500)
-        return aic_of(float(np.sum(res.fun**2)), res.x.size)
+        return aic_of(float(np.sum(res.fun**2)), res.x.size), res.x
 
     def covariance(res):
         # Jacobian columns scaled to unit norm first: the width column is orders of magnitude
@@ -373,6 +383,7 @@ def fit_line(
     elements = w / ils if ils > 0 else 0.0
     best = first
     weights = {first: 1.0}
+    pwidths = {first: (float(g), float(lw), float(uw))}
     if profile == "auto" and resolved:
         for prof in ("lorentzian", "voigt"):
             results[prof] = run(prof)
@@ -397,6 +408,8 @@ def fit_line(
             [fits[k][0].x[1] for k in choices],
             [np.sqrt(max(fits[k][1][1, 1], 0.0)) for k in choices], aics, about=res.x[1])
         weights = {k: float(v) for k, v in zip(choices, wts_m, strict=True)}
+        pwidths = {k: (float(fits[k][3][2]), float(fits[k][3][3]), float(fits[k][3][1]))
+                   for k in choices}
         elements = w / ils if ils > 0 else 0.0
     # the claim stands when the data decide between Gaussian and Lorentzian: the other pure
     # profile (for a Voigt, the pure profile it is further from) keeps at most
@@ -409,10 +422,19 @@ def fit_line(
     wide = resolved and elements >= MIN_ELEMENTS_FOR_PROFILE
     claimed = best if wide and (clear or profile != "auto") else "undetermined"
     pair = False
-    if profile == "auto" and resolved and elements < PAIR_ELEMENTS:
-        aic_pair = run_pair(centre, w)
+    pair_lines = ()
+    if profile == "auto" and (resolved and elements < PAIR_ELEMENTS
+                              or not resolved and w > 0.5 * ils):
+        aic_pair, pp = run_pair(centre, w)
         results["pair"] = (None, aic_pair)
-        pair = bool(aic_pair < results[best][1] + PAIR_AIC_MARGIN)
+        if aic_pair < results[best][1] - PAIR_AIC_MARGIN and min(pp[0], pp[2]) > 0 \
+                and abs(pp[3] - pp[1]) > 0.25 * ils:
+            # the data show two lines clearly: find_lines takes them as two
+            pair, pair_lines = True, ((float(pp[1]), float(pp[0])), (float(pp[3]), float(pp[2])))
+        elif resolved:
+            # a broad line a pair of narrow ones fits as well: the data cannot tell (a pair
+            # nests an unresolved single line, so this is asked of resolved lines only)
+            pair = bool(aic_pair < results[best][1] + PAIR_AIC_MARGIN)
     bound = None
     if not resolved:
         # upper bound at coverage factor BOUND_K on the Gaussian width parameter q = FWHM²
@@ -451,7 +473,9 @@ def fit_line(
         message=str(res.message),
         aic={k: float(v[1]) for k, v in results.items()},
         profile_weights=weights,
+        profile_widths=pwidths,
         pair_possible=pair,
+        pair_lines=pair_lines,
         bic_gain=bic_gain,
     )
 
@@ -502,6 +526,116 @@ def line_model(spec: Spectrum, fits: list[LineFit]):
     return f
 
 
+def _refit(spec: Spectrum, fits: list[LineFit], profile: str) -> list[LineFit]:
+    """Close lines pull on each other's fits: refit each with all the others subtracted
+    (twice)."""
+    fits = list(fits)
+    for _ in range(2 if len(fits) > 1 else 0):
+        for i in range(len(fits)):
+            others = [f for j, f in enumerate(fits) if j != i]
+            refit = fit_line(spec, fits[i].centre_per_cm, profile=profile,
+                             others=line_model(spec, others))
+            moved = abs(refit.centre_per_cm - fits[i].centre_per_cm)
+            if (refit.success and np.isfinite(refit.centre_per_cm) and refit.peak > 0
+                    and moved < 0.5 * refit.instrument_fwhm_per_cm):
+                fits[i] = refit
+    return fits
+
+
+def _split_pair(spec, fit: LineFit, model, profile: str) -> list[LineFit]:
+    """Two line fits from a fit whose pair model won: each fitted with the other (as an
+    unresolved line of the pair's fitted height) and ``model`` subtracted."""
+    from dataclasses import replace
+
+    k00 = spec.line_shape.kernel(np.zeros(1))[0]
+    seeds = [replace(fit, centre_per_cm=c, height=h, area=h / k00, gauss_fwhm_per_cm=0.0,
+                     lorentz_fwhm_per_cm=0.0, fwhm_per_cm=0.0, pair_lines=())
+             for c, h in fit.pair_lines]
+    out = []
+    for i, sd in enumerate(seeds):
+        other = line_model(spec, [seeds[1 - i]])
+        base = (lambda s, o=other: o(s) + model(s)) if model is not None else other
+        f = fit_line(spec, sd.centre_per_cm, profile=profile, others=base)
+        out.append(replace(f, pair_lines=()) if f.success else sd)
+    return out
+
+
+def _host(fit: LineFit, fits: list[LineFit]) -> LineFit | None:
+    """The strongest stronger line in whose wings ``fit`` lies (within :data:`WING_REACH` of
+    its FWHM, at least of the instrument's), or None."""
+    near = [f for f in fits if f.peak > fit.peak and abs(fit.centre_per_cm - f.centre_per_cm)
+            < WING_REACH * max(f.fwhm_per_cm, f.instrument_fwhm_per_cm)]
+    return max(near, key=lambda f: f.peak) if near else None
+
+
+def two_lines_gain(spec: Spectrum, host: LineFit, extra: LineFit, *, others=None) -> float:
+    """How much better two lines fit than one: ΔBIC of (Voigt + line) over (Voigt alone).
+
+    Over a window covering both lines (``others`` subtracted), the host line is fitted as a
+    Voigt profile (Gaussian and Lorentzian parts free and signed, so the family includes both
+    pure profiles and wings of either kind) with a constant baseline; then the same together
+    with a second line of free height, centre and Gaussian width. The gain is Schwarz's
+    criterion ``n_eff·ln(RSS₁/RSS₂) − 3·ln n_eff`` on the effective number of independent
+    points; above :data:`WING_BIC` (10, "very strong" evidence) two lines beat one profile
+    clearly.
+
+    References
+    ----------
+    .. [1] G. Schwarz, "Estimating the dimension of a model", Ann. Stat. 6, 461–464 (1978).
+    .. [2] R. E. Kass and A. E. Raftery, "Bayes factors", J. Am. Stat. Assoc. 90, 773–795
+       (1995), §3.2 (2 ln B > 10: very strong).
+    """
+    from scipy.optimize import least_squares
+
+    sig = spec.sigma_per_cm
+    y_all = spec.density - (others(sig) if others is not None else 0.0)
+    ils = spec.line_shape.fwhm_per_cm
+    wh = max(host.fwhm_per_cm, ils)
+    lo = min(host.centre_per_cm - 2.5 * wh, extra.centre_per_cm - 2.5 * max(ils, extra.fwhm_per_cm))
+    hi = max(host.centre_per_cm + 2.5 * wh, extra.centre_per_cm + 2.5 * max(ils, extra.fwhm_per_cm))
+    i_lo, i_hi = (int(np.clip(np.searchsorted(sig, v), 1, sig.size)) for v in (lo, hi))
+    stride = max(1, int(np.ceil((i_hi - i_lo) / MAX_FIT_POINTS)))
+    win = slice(i_lo, i_hi + 1, stride)
+    x, y, wts = sig[win], y_all[win], 1.0 / spec.noise[win]
+    if x.size < 12:
+        return float("inf")
+    ds = (sig[1] - sig[0]) * stride
+    lags = ds * np.arange(-x.size + 1, x.size)
+    r = spec.line_shape.noise_correlation(lags)
+    n_eff = x.size / max(float(np.sum(r[np.abs(lags) <= 4 * ils])), 1.0)
+    ev = spec.line_shape.evaluator(x)
+    k00 = spec.line_shape.kernel(np.zeros(1))[0]
+    hs = abs(host.height) + 1e-300
+
+    def one(p):
+        return p[0] * ev(p[1], p[3], p[4]) / k00 + p[2]
+
+    def two(p):
+        return one(p) + p[5] * ev(p[6], p[7], 0.0) / k00
+
+    q0 = max(host.gauss_fwhm_per_cm, 0.0) ** 2
+    p1 = [host.height, host.centre_per_cm, 0.0, q0, max(host.lorentz_fwhm_per_cm, 0.0)]
+    s1 = [hs, ils, hs, ils**2, ils]
+    q2 = max(extra.gauss_fwhm_per_cm, 0.0) ** 2
+    p2 = p1 + [max(extra.height, 0.0), extra.centre_per_cm, q2]
+    s2 = s1 + [hs, ils, ils**2]
+    with np.errstate(over="ignore", invalid="ignore"):
+        r1 = least_squares(lambda p: (one(p) - y) * wts, p1, x_scale=np.array(s1),
+                           method="trf", max_nfev=400)
+        # two starts (the lines as found; the single profile plus the second line): the pair
+        # contains the single profile, so it must fit at least as well
+        rss2 = np.inf
+        for start in (p2, list(r1.x) + p2[5:]):
+            r2 = least_squares(lambda p: (two(p) - y) * wts, start, x_scale=np.array(s2),
+                               method="trf", max_nfev=600)
+            rss2 = min(rss2, float(np.sum(r2.fun**2)))
+    rss1 = float(np.sum(r1.fun**2))
+    if not (np.isfinite(rss1) and np.isfinite(rss2)):
+        return float("nan")
+    return float(n_eff * np.log(max(rss1, 1e-300) / max(rss2, 1e-300))
+                 - 3 * np.log(max(n_eff, 2.0)))
+
+
 def find_lines(
     spec: Spectrum,
     *,
@@ -543,11 +677,12 @@ def find_lines(
             # the same line again (a residual of an imperfect subtraction) is not a new line
             and all(abs(fit.centre_per_cm - f.centre_per_cm) > 0.5 * f.instrument_fwhm_per_cm
                     for f in fits)
-            # among the wings of a resolved line, a new line must beat the wings alone clearly
-            and (fit.bic_gain >= WING_BIC
-                 or not any(f.resolved and abs(fit.centre_per_cm - f.centre_per_cm)
-                            < WING_REACH * f.fwhm_per_cm for f in fits))
         )
+        if plausible and fit.pair_lines:
+            # two lines fit clearly better than this one: take them as two
+            fit = _split_pair(spec, fit, model if fits else None, profile)
+            fits.extend(fit[:-1])
+            fit = fit[-1]
         if not plausible:
             # an unfittable peak: raise the floor there so the search moves on
             floor2[_fit_window(spec, i0, 2 * spec.line_shape.fwhm_per_cm)] = np.inf
@@ -561,15 +696,20 @@ def find_lines(
         far = inband & (np.abs(sig - fit.centre_per_cm) > _reach(fit))
         env = spec.line_shape.sidelobe_envelope(sig[far] - fit.centre_per_cm)
         floor2[far] += (2 * fit.peak * env / snr_threshold) ** 2
-    # close lines pull on each other's fits: refit each with all the others subtracted
-    for _ in range(2 if len(fits) > 1 else 0):
-        for i in range(len(fits)):
-            others = [f for j, f in enumerate(fits) if j != i]
-            refit = fit_line(spec, fits[i].centre_per_cm, profile=profile,
-                             others=line_model(spec, others))
-            moved = abs(refit.centre_per_cm - fits[i].centre_per_cm)
-            if (refit.success and np.isfinite(refit.centre_per_cm) and refit.peak > 0
-                    and moved < 0.5 * refit.instrument_fwhm_per_cm):
-                fits[i] = refit
+    fits = _refit(spec, fits, profile)
+    # in the wings of a stronger line, two lines must beat one profile clearly; tested once
+    # every line is modelled (an unmodelled neighbour would swamp the comparison), weakest first
+    dropped = False
+    for fit in sorted(fits, key=lambda f: f.peak):
+        rest = [f for f in fits if f is not fit]
+        host = _host(fit, rest)
+        if host is None:
+            continue
+        others = line_model(spec, [f for f in rest if f is not host])
+        if not two_lines_gain(spec, host, fit, others=others) >= WING_BIC:
+            fits = rest
+            dropped = True
+    if dropped:
+        fits = _refit(spec, fits, profile)
     fits.sort(key=lambda f: -f.centre_per_cm)  # by increasing wavelength
     return fits
