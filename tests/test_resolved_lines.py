@@ -168,3 +168,18 @@ def test_line_coherence_takes_the_visibility_when_the_profile_is_ambiguous():
     lg, ll = np.sqrt(2 * LN2 / np.pi) / w, 1 / (np.pi * w)
     assert avg.length_cm == pytest.approx((lg + ll) / 2, rel=1e-9)
     assert avg.u_length_cm >= (lg - ll) / 2
+
+
+def test_envelope_decay_tells_a_decaying_sweep_from_a_flat_one():
+    """A 0.30 nm Lorentzian scanned 0.5–4.5 mm from ZPD: |γ| = exp(−πl|x|) falls by e^(−πl·0.4
+    cm) ≈ e⁻⁹ across the sweep (closed form), far above ENVELOPE_DECAY_LIMIT; a monochromatic
+    line's envelope is flat (ratio 1 within the noise)."""
+    from ftsource.measure.coherence import ENVELOPE_DECAY_LIMIT, envelope_decay
+
+    lor = S0 * 0.30 / 650.0
+    x = 0.05 + DX * np.arange(int(0.4 / DX))
+    rng = np.random.default_rng(3)
+    decaying = gamma(x, 0, lor) * np.cos(2 * np.pi * S0 * x) + 1e-5 * rng.normal(size=x.size)
+    flat = np.cos(2 * np.pi * S0 * x) + 0.01 * rng.normal(size=x.size)
+    assert envelope_decay(decaying) > 100 * ENVELOPE_DECAY_LIMIT
+    assert envelope_decay(flat) < 1.05
