@@ -218,12 +218,14 @@ class Result:
                     if f.resolved
                     else _f(_u_nm(f.centre_per_cm, f.fwhm_upper_bound_per_cm)),
                     "profile": f.profile,
+                    "pair_possible": bool(f.pair_possible),
                     "u_wavelength_nm": _f(_u_nm(f.centre_per_cm, f.u_centre_per_cm)),
                     "flag": flag,
                     "aliasing": alias.verdict if alias is not None else None,
                     **_identify(wl, _u_nm(f.centre_per_cm, f.u_centre_per_cm),
                                 reference_wavelength_nm, options, source_line=flag is None,
-                                tables=line_tables),
+                                tables=line_tables,
+                                resolution_nm=_u_nm(f.centre_per_cm, spec.resolution_per_cm)),
                 }
             )
         line_dicts.sort(key=lambda d: d["wavelength_nm"] or 0.0)
@@ -243,6 +245,29 @@ class Result:
             spec, source_lines, strongest, sweep_spectra, interferograms, options, path,
             reference_wavelength_nm, warnings, to_air, field_of_view_factor, sweep_fit_cache,
         )
+        if summary.pop("_withhold_width", False) and strongest is not None:
+            for d in line_dicts:
+                if d["wavenumber_per_cm"] == _f(strongest.centre_per_cm):
+                    d.update(fwhm_nm=None, fwhm_upper_bound_nm=None)
+        off = summary.pop("_off_comb", ())
+        if off:
+            for d in line_dicts:
+                if d["flag"] is None and any(abs(d["wavenumber_per_cm"] - c) < 1e-9 * c
+                                             for c in off):
+                    d.update(flag="off-comb", identification=None, nearest_entries=[])
+            warnings.append(
+                f"{len(off)} weak line(s) lie off the laser's mode comb: they are flagged "
+                "'off-comb' and not counted as source lines (scan artefacts, ghosts or a weak "
+                "second source; check the setup if they persist)"
+            )
+        for f in source_lines:
+            if f.pair_possible and f is strongest:
+                warnings.append(
+                    f"unresolved pair possible: the line at {f.wavelength_nm:.4f} nm fits as "
+                    "well as two narrow lines closer than the resolution as it does as one "
+                    "broad line, so its width may be a separation; scan a longer mirror travel "
+                    "to tell"
+                )
         if strongest is not None and 1e7 / strongest.centre_per_cm < limits.min_wavelength_nm:
             warnings.append(
                 f"the main line lies below the shortest wavelength the time sampling supports "
@@ -344,7 +369,8 @@ def _band_text(band, max_ranges: int = 3) -> str:
     return ", ".join(parts) + more
 
 
-def _identify(wl_nm, u_fit_nm, lam_ref, options, *, source_line=True, tables=None):
+def _identify(wl_nm, u_fit_nm, lam_ref, options, *, source_line=True, tables=None,
+              resolution_nm=None):
     """``{"identification": ..., "nearest_entries": [...]}`` for one measured line.
 
     ``nearest_entries`` are the (up to 3) nearest candidate entries of the bundled reference
@@ -355,7 +381,10 @@ def _identify(wl_nm, u_fit_nm, lam_ref, options, *, source_line=True, tables=Non
     fit uncertainty combined with the reference laser's relative uncertainty and the entry's
     own stated uncertainty (:func:`ftsource.linelists.identify`), so a He-Ne-referenced
     measurement is not asked to be better than its own reference. Lines flagged as artefacts
-    (``source_line`` False) and lines outside 200-3000 nm get no candidates.
+    (``source_line`` False) and lines outside 200-3000 nm get no candidates. A line whose fit
+    uncertainty exceeds a resolution element (``resolution_nm``) is not identified: within
+    such a tolerance almost any entry would match (a 0.05 % artefact with u = 1.3 nm was
+    named after a neon line); its nearest entries are listed, none within tolerance.
 
     References
     ----------
@@ -378,6 +407,9 @@ def _identify(wl_nm, u_fit_nm, lam_ref, options, *, source_line=True, tables=Non
         }
         for c in identify(wl_nm, u, max_candidates=3, tables=tables)
     ]
+    if resolution_nm is not None and not (u_fit_nm <= resolution_nm):
+        for c in candidates:
+            c["within_tolerance"] = False
     best = next((c for c in candidates if c["within_tolerance"]), None)
     return {
         "identification": None if best is None
@@ -464,6 +496,7 @@ def _empty_summary():
         "expanded_uncertainty_nm", "coverage_factor", "wavenumber_per_cm", "frequency_thz",
         "fwhm_nm", "fwhm_upper_bound_nm", "u_fwhm_nm", "coherence_length_mm",
         "coherence_length_lower_bound_mm", "coherence_length_definition",
+        "coherence_length_method",
         "coherence_length_visibility_mm", "u_coherence_length_mm",
         "u_coherence_length_visibility_mm", "coherence_length_visibility_definition",
         "half_visibility_opd_mm", "peak_wavelength_nm",
@@ -503,9 +536,14 @@ def _summary(spec, source_lines, strongest, sweep_spectra, ifgs, options, path, 
             np.array([f.centre_per_cm for f in source_lines]),
             np.array([max(f.area, 0.0) for f in source_lines]),
             u_centres_per_cm=np.array([f.u_centre_per_cm for f in source_lines]),
+            # a comb only of modes much narrower than their spacing (a broad line's wings or
+            # structure is no comb): the resolved width, or the bound of an unresolved one
+            widths_per_cm=np.array([f.fwhm_per_cm if f.resolved else f.fwhm_upper_bound_per_cm
+                                    for f in source_lines], dtype=float),
         )
         if comb is not None:
             kind = "multimode"
+            s["_off_comb"] = comb.off_comb_per_cm
     s["kind"] = kind
     centre_nm, u_fit_nm, dof_fit = wl0, _u_nm(sig0, main.u_centre_per_cm), main.dof
 
@@ -589,6 +627,8 @@ def _summary(spec, source_lines, strongest, sweep_spectra, ifgs, options, path, 
             # zero-filled points' correlation, phase-correction noise, drift): the larger of
             # the two statistical estimates is kept, with the scatter's degrees of freedom
             # when it is the larger (docs/measurements.md)
+            from ftsource.measure.uncertainty import scatter_rule
+
             (u_pk, u_ct, u_fw), n_used = scatter
             ls_peak = math.sqrt(max(u_peak**2 - bb.u_peak_nm**2, 0.0)) if np.isfinite(u_peak) \
                 else 0.0
@@ -596,8 +636,7 @@ def _summary(spec, source_lines, strongest, sweep_spectra, ifgs, options, path, 
                 else 0.0
             u_peak = float(np.hypot(np.fmax(bb.u_peak_nm, u_pk), ls_peak))
             u_fwhm = float(np.hypot(np.fmax(bb.u_fwhm_nm, u_fw), ls_fwhm))
-            if not (u_centroid >= u_ct):
-                u_centroid, dof_bb = u_ct, float(n_used - 1)
+            u_centroid, dof_bb = scatter_rule(u_centroid, dof_bb, u_ct, n_used)
         if not weighted:
             # the response's shape error is correlated across the band: a separate term
             from ftsource.calibrate.response import response_shape_uncertainty
@@ -649,6 +688,16 @@ def _summary(spec, source_lines, strongest, sweep_spectra, ifgs, options, path, 
             "field stop, not to a laser beam, whose own divergence sets a far smaller shift: "
             "it was not applied"
         )
+
+    # ---- sweep scatter (one rule with the broadband figures: max(u, s/√n)) and the check
+    if kind == "narrow" and len(sweep_spectra) >= 2:
+        from ftsource.measure.uncertainty import with_sweep_scatter
+
+        centres = _sweep_check(spec, sweep_spectra, sig0, warnings, sweep_fit_cache)
+        if len(centres) >= 2:
+            u_sig, dof_fit = with_sweep_scatter(
+                main.u_centre_per_cm, dof_fit if np.isfinite(dof_fit) else math.inf, centres)
+            u_fit_nm = _u_nm(sig0, u_sig)
 
     # ---- budget for the centre wavelength
     wl_for_air = centre_nm
@@ -738,14 +787,26 @@ def _summary(spec, source_lines, strongest, sweep_spectra, ifgs, options, path, 
             "with a known line (ftsource calibrate) or add a reference laser"
         )
 
-    # ---- consistency between sweeps (a check, not a budget component)
-    if kind == "narrow" and len(sweep_spectra) >= 2:
-        _sweep_check(spec, sweep_spectra, sig0, warnings, sweep_fit_cache)
 
     # ---- width, coherence
     s["resolved"] = bool(main.resolved) if kind != "multimode" else None
     if kind in ("narrow", "broadband"):
-        if main.resolved:
+        vis = _visibility(ifgs, sweep_spectra)
+        decay = _decay_without_zpd(ifgs, sweep_spectra)
+        if decay is not None and decay > coh.ENVELOPE_DECAY_LIMIT:
+            # docs/measurements.md, "Width bounds without ZPD"
+            s["resolved"] = None
+            s["_withhold_width"] = True
+            s["u_fwhm_nm"] = None
+            warnings.append(
+                f"no sweep reaches zero path difference and the fringe envelope changes by a "
+                f"factor {decay:.3g} across a sweep: the line's coherence ends within the scan, "
+                "so the spectrum shows it through that decay rather than through the "
+                "instrument's line shape, and no width, width bound or coherence length taken "
+                "from it would hold; none is reported. Scan through zero path difference "
+                "(equal arm lengths) to measure them"
+            )
+        elif main.resolved:
             s["fwhm_nm"] = _f(fwhm_nm)
             if s["u_fwhm_nm"] is None:
                 s["u_fwhm_nm"] = _f(_u_nm(sig0, main.u_fwhm_per_cm))
@@ -755,8 +816,10 @@ def _summary(spec, source_lines, strongest, sweep_spectra, ifgs, options, path, 
                     ce = coh.coherence_from_spectrum(spec.sigma_per_cm, spec.density,
                                                      noise=spec.noise, band=band)
                 else:
-                    # the fitted intrinsic profile (instrument shape removed, wings complete)
-                    ce = _profile_coherence(main)
+                    # the fitted intrinsic profiles (instrument shape removed, wings complete),
+                    # or the visibility when the data cannot pick the profile
+                    ce = coh.line_coherence(main.profile_widths, main.profile_weights,
+                                            visibility=vis)
                 s["coherence_length_mm"] = _f(ce.length_cm * 10)
                 u_lc = ce.u_length_cm if np.isfinite(ce.u_length_cm or np.nan) else np.nan
                 if not (u_lc > 0) and main.fwhm_per_cm > 0:
@@ -765,6 +828,7 @@ def _summary(spec, source_lines, strongest, sweep_spectra, ifgs, options, path, 
                 s["u_coherence_length_mm"] = _f(u_lc * 10)
                 s["half_visibility_opd_mm"] = _f(ce.half_visibility_opd_cm * 10)
                 s["coherence_length_definition"] = ce.definition
+                s["coherence_length_method"] = ce.method
             except Exception as e:  # noqa: BLE001 - an estimate that fails is reported, not fatal
                 warnings.append(
                     f"the coherence length could not be computed from the spectrum: {e}"
@@ -774,13 +838,16 @@ def _summary(spec, source_lines, strongest, sweep_spectra, ifgs, options, path, 
             s["fwhm_upper_bound_nm"] = _f(_u_nm(sig0, ub))
             s["coherence_length_lower_bound_mm"] = _f(coh.coherence_lower_bound_cm(ub) * 10)
             s["coherence_length_definition"] = coh.GOODMAN_DEFINITION
+            s["coherence_length_method"] = (
+                "lower bound (1/pi)/width bound: the Lorentzian has the smallest L_c*FWHM of "
+                "the usual profiles"
+            )
             warnings.append(
                 f"the line is not resolved: its width is below "
                 f"{_u_nm(sig0, ub):.3g} nm (about 95 % coverage) and only bounds are reported; "
                 f"a longer mirror travel (resolution now {_u_nm(sig0, spec.resolution_per_cm):.3g}"
                 " nm) is needed to measure it"
             )
-        vis = _visibility(ifgs, sweep_spectra)
         if vis is not None and not vis.is_lower_bound:
             s["coherence_length_visibility_mm"] = _f(vis.length_cm * 10)
             s["u_coherence_length_visibility_mm"] = _f((vis.u_length_cm or np.nan) * 10)
@@ -816,20 +883,20 @@ def coherence_disagreement(lc_mm, u_lc_mm, lv_mm, u_lv_mm, *, floor: float = 0.1
     )
 
 
-def _profile_coherence(fit):
-    """Coherence length (Goodman's integral) of a fitted Voigt profile, from its closed-form
-    density on a grid wide enough for the Lorentzian wings (±2000 widths; the tail beyond
-    holds < 0.04 % of the area)."""
-    from scipy.special import voigt_profile
+def _decay_without_zpd(ifgs, sweep_spectra):
+    """Largest fringe-envelope change across a sweep (:func:`ftsource.measure.coherence.
+    envelope_decay`) when no sweep holds ZPD; None when one does (or none can be measured)."""
+    from ftsource.measure.coherence import envelope_decay
 
-    from ftsource.measure import coherence as coh
-    g, lw = fit.gauss_fwhm_per_cm, fit.lorentz_fwhm_per_cm
-    w = max(fit.fwhm_per_cm, 1e-12)
-    reach = 2000 * w if lw > 0 else 8 * w
-    sig = np.linspace(-reach, reach, 400_001)
-    dens = voigt_profile(sig, g / (2 * np.sqrt(2 * np.log(2))), lw / 2)
-    ce = coh.coherence_from_spectrum(sig + fit.centre_per_cm, dens)
-    return ce
+    if not sweep_spectra or any(sw.zpd_found for sw in sweep_spectra):
+        return None
+    ratios = []
+    for ig in ifgs:
+        try:
+            ratios.append(envelope_decay(ig.y))
+        except Exception:  # noqa: BLE001 - too short a sweep says nothing here
+            continue
+    return float(np.median(ratios)) if ratios else None
 
 
 def _sweep_check(spec, sweep_spectra, sig0, warnings, fit_cache=None):
@@ -846,8 +913,9 @@ def _sweep_check(spec, sweep_spectra, sig0, warnings, fit_cache=None):
                 f"the sweeps disagree more than their fits predict (Birge ratio "
                 f"{c.birge_ratio:.2g}): something the fits do not see moves the line between "
                 "sweeps (mirror tilt, drifting reference, channel delay); the centre's "
-                "uncertainty may be too small"
+                "uncertainty includes the sweeps' scatter (standard error of their mean)"
             )
+    return vals
 
 
 def _visibility(ifgs, sweep_spectra):

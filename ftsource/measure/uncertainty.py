@@ -61,6 +61,7 @@ __all__ = [
     "wavelength_budget",
     "sweep_consistency",
     "with_sweep_scatter",
+    "scatter_rule",
     "DOF_AS_INFINITE",
     "OPD_SCALES",
 ]
@@ -640,7 +641,13 @@ def with_sweep_scatter(u: float, dof: float, values) -> tuple[float, float]:
     v = v[np.isfinite(v)]
     if v.size < 2:
         return float(u), float(dof)
-    se = float(np.std(v, ddof=1) / np.sqrt(v.size))
-    if not (float(u) >= se):  # also when u is NaN
-        return se, float(v.size - 1)
+    return scatter_rule(u, dof, float(np.std(v, ddof=1) / np.sqrt(v.size)), v.size)
+
+
+def scatter_rule(u: float, dof: float, standard_error: float, n: int) -> tuple[float, float]:
+    """``max(u, standard_error)``: the standard error of the mean of ``n`` sweeps wins (with
+    ``n − 1`` degrees of freedom) when it is the larger or ``u`` is not a number. The rule of
+    :func:`with_sweep_scatter`, for callers that have the standard error already."""
+    if not (float(u) >= float(standard_error)):  # also when u is NaN
+        return float(standard_error), float(n - 1)
     return float(u), float(dof)
