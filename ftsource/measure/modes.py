@@ -193,8 +193,9 @@ def find_mode_comb(
     among them: each spacing between two of the strongest lines (divided by 1–3) is tried as
     the base, and the comb of at least 3 modes that holds the most intensity is kept — provided
     the lines left off it carry at most :data:`OFF_COMB_FRACTION` of the kept intensity and
-    none exceeds :data:`OFF_COMB_PEAK` of the strongest (a weak artefact does not hide a comb; a strong line between modes, a second source, means no
-    comb). The lines left off are returned in ``off_comb_per_cm``. With ``widths_per_cm`` (each
+    none exceeds :data:`OFF_COMB_PEAK` of the strongest (a weak artefact does not hide a comb;
+    a strong line between modes, a second source, means no comb). The lines left off are
+    returned in ``off_comb_per_cm``. With ``widths_per_cm`` (each
     line's intrinsic FWHM, or its upper bound) a comb is reported only when every mode is at
     least :data:`MODE_NARROWNESS` times narrower than the spacing: broad overlapping "modes"
     are the structure of one broad line, not a laser's comb. The spacing is then the
