@@ -557,6 +557,11 @@ def _split_pair(spec, fit: LineFit, model, profile: str) -> list[LineFit]:
         base = (lambda s, o=other: o(s) + model(s)) if model is not None else other
         f = fit_line(spec, sd.centre_per_cm, profile=profile, others=base)
         out.append(replace(f, pair_lines=()) if f.success else sd)
+    ils = spec.line_shape.fwhm_per_cm
+    if not (all(f.success and f.peak > 0 for f in out)
+            and abs(out[0].centre_per_cm - out[1].centre_per_cm) > 0.5 * ils):
+        # the two did not stay apart as lines: keep the single line, marked as a possible pair
+        return [replace(fit, pair_lines=(), pair_possible=True)]
     return out
 
 
@@ -697,6 +702,12 @@ def find_lines(
         env = spec.line_shape.sidelobe_envelope(sig[far] - fit.centre_per_cm)
         floor2[far] += (2 * fit.peak * env / snr_threshold) ** 2
     fits = _refit(spec, fits, profile)
+    # the same line twice (two fits drawn to one peak) is one line: the stronger stays
+    for fit in sorted(fits, key=lambda f: f.peak):
+        if any(g is not fit and g.peak >= fit.peak
+               and abs(g.centre_per_cm - fit.centre_per_cm) <= 0.5 * g.instrument_fwhm_per_cm
+               for g in fits):
+            fits = [g for g in fits if g is not fit]
     # in the wings of a stronger line, two lines must beat one profile clearly; tested once
     # every line is modelled (an unmodelled neighbour would swamp the comparison), weakest first
     dropped = False
@@ -706,7 +717,11 @@ def find_lines(
         if host is None:
             continue
         others = line_model(spec, [f for f in rest if f is not host])
-        if not two_lines_gain(spec, host, fit, others=others) >= WING_BIC:
+        # a weak feature far broader than the line it sits under is a pedestal (the line's
+        # profile or baseline not quite right), not a second line
+        pedestal = (fit.peak < 0.1 * host.peak and fit.fwhm_per_cm
+                    > 3 * max(host.fwhm_per_cm, host.instrument_fwhm_per_cm))
+        if pedestal or not two_lines_gain(spec, host, fit, others=others) >= WING_BIC:
             fits = rest
             dropped = True
     if dropped:
