@@ -309,15 +309,11 @@ def test_no_identification_when_u_exceeds_a_resolution_element():
     """Issue 11 item 10: a 0.05 % artefact with u = 1.3 nm was named "Ne I". Within a
     tolerance wider than a resolution element almost any entry matches, so none is named; the
     nearest entries are still listed. Ne I 640.2248 nm (air; NIST ASD, in the bundled list)."""
-    from ftsource.analysis import AnalysisOptions
-    from ftsource.result import _identify
+    from ftsource.lines.identify import identify_line
 
-    opts = AnalysisOptions(reference_wavelength_nm=REF_NM, reference_uncertainty_ppm=1.5,
-                           medium="vacuum")
     wl = 640.4 + 0.3  # about 0.3 nm off the neon line's vacuum wavelength
-    loose = _identify(wl, 1.3, REF_NM, opts, resolution_nm=10.0)
-    assert loose["identification"] is not None  # u below the resolution: a match is allowed
-    gated = _identify(wl, 1.3, REF_NM, opts, resolution_nm=0.4)
-    assert gated["identification"] is None
-    assert gated["nearest_entries"] and not any(c["within_tolerance"]
-                                                for c in gated["nearest_entries"])
+    loose = identify_line(wl, 1.3, 1.5, resolution_nm=10.0)
+    assert loose.best is not None  # u below the resolution: a match is allowed
+    gated = identify_line(wl, 1.3, 1.5, resolution_nm=0.4)
+    assert gated.best is None
+    assert gated.nearest and not any(c.within_tolerance for c in gated.nearest)
