@@ -667,12 +667,28 @@ def _result(record, setup: _Setup, sampling: _Sampling, spectra: _Spectra, lines
         reference_uncertainty_ppm=ref_u_ppm,
     )
     health, health_notes = facts.health_facts(record, path, sweep_specs)
+    # weak lines off a multimode laser's comb are artefacts, not source lines
+    from ftsource.measure.classify import classify_source
+
+    flags, source_lines, comb_notes = list(lines.flags), list(lines.source_lines), ()
+    comb = classify_source(source_lines).comb
+    off = comb.off_comb_per_cm if comb is not None else ()
+    if off:
+        flags = ["off-comb" if fl is None and f.centre_per_cm in off else fl
+                 for f, fl in zip(lines.found, flags, strict=True)]
+        source_lines = [f for f in source_lines if f.centre_per_cm not in off]
+        comb_notes = (
+            f"{len(off)} weak line(s) lie off the laser's mode comb: they are flagged "
+            "'off-comb' and not counted as source lines (scan artefacts, ghosts or a weak "
+            "second source; check the setup if they persist)",
+        )
     reports, line_notes = facts.line_reports(
-        lines.found, lines.flags, lines.aliasing, options=options,
+        lines.found, flags, lines.aliasing, options=options,
         reference_uncertainty_ppm=ref_u_ppm, main=main,
     )
+    line_notes = tuple(line_notes) + comb_notes
     figures = source_figures(
-        spec, lines.source_lines, sweep_specs, spectra.interferograms, options=options,
+        spec, source_lines, sweep_specs, spectra.interferograms, options=options,
         opd_kind=path.kind, reference_wavelength_nm=setup.reference_wavelength_nm,
         field_of_view_factor=lines.field_of_view_factor, sweep_fit_cache=lines.sweep_fits,
     )

@@ -24,7 +24,7 @@ _SUMMARY_KEYS = (
     "expanded_uncertainty_nm", "coverage_factor", "wavenumber_per_cm", "frequency_thz",
     "fwhm_nm", "fwhm_upper_bound_nm", "u_fwhm_nm", "coherence_length_mm",
     "coherence_length_lower_bound_mm", "coherence_length_definition",
-    "coherence_length_visibility_mm", "u_coherence_length_mm",
+    "coherence_length_method", "coherence_length_visibility_mm", "u_coherence_length_mm",
     "u_coherence_length_visibility_mm", "coherence_length_visibility_definition",
     "half_visibility_opd_mm", "peak_wavelength_nm",
     "u_peak_wavelength_nm", "centroid_wavelength_nm", "u_centroid_wavelength_nm",
@@ -37,7 +37,7 @@ _MODE_KEYS = (
 _LINE_KEYS = (
     "wavelength_nm", "wavelength_air_nm", "wavenumber_per_cm", "frequency_thz",
     "relative_intensity", "snr", "resolved", "fwhm_nm", "fwhm_upper_bound_nm", "profile",
-    "u_wavelength_nm", "flag", "aliasing",
+    "pair_possible", "u_wavelength_nm", "flag", "aliasing",
 )
 
 

@@ -237,3 +237,29 @@ def test_spacing_uncertainty_from_unequal_centre_uncertainties():
     assert np.std(slopes) == pytest.approx(expected, rel=0.05)
     with pytest.raises(AnalysisError, match="u_centres_per_cm"):
         find_mode_comb(centres, areas, u_centres_per_cm=u[:3])
+
+
+def test_a_weak_artefact_does_not_hide_the_comb():
+    """Issue 11 item 1: a 9 % feature between modes (and one 6 % beyond the comb) left the
+    comb unrecognised. The comb holds > 90 % of the kept intensity, so it is found; the
+    features are returned as off-comb for the caller to flag (comb truth: closed form above)."""
+    sig, amp = comb()
+    extra_s = np.r_[S0 + 1.45 * DS, S0 + 9.5 * DS]
+    extra_a = np.r_[0.09, 0.06]
+    c = find_mode_comb(np.r_[sig, extra_s], np.r_[amp, extra_a])
+    assert c is not None and c.n_modes == 9
+    assert c.spacing_per_cm == pytest.approx(DS, rel=1e-12)
+    assert sorted(c.off_comb_per_cm) == pytest.approx(sorted(extra_s))
+    # a clean comb has none
+    assert find_mode_comb(sig, amp).off_comb_per_cm == ()
+
+
+def test_modes_must_be_much_narrower_than_the_spacing():
+    """Issue 11 item 7: the wings of one broad line were called a 3-mode comb. A comb needs
+    every mode's FWHM at most spacing/4 (MODE_NARROWNESS, common practice)."""
+    sig, amp = comb()
+    assert find_mode_comb(sig, amp, widths_per_cm=np.full(sig.size, DS / 10)) is not None
+    assert find_mode_comb(sig, amp, widths_per_cm=np.full(sig.size, DS / 2)) is None
+    w = np.full(sig.size, DS / 10)
+    w[7] = np.nan  # a width that is not known does not count as narrow
+    assert find_mode_comb(sig, amp, widths_per_cm=w) is None

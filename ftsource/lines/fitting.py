@@ -4,8 +4,13 @@ A line is fitted with its profile *convolved with the instrument line shape* of 
 (:class:`ftsource.spectrum.spectrum.LineShape`), so a line near the resolution limit is not reported
 wider than it is. Profiles: Gaussian, Lorentzian and Voigt, chosen by Akaike's information
 criterion on the effective number of independent points (zero-filling and apodization make
-neighbouring points correlated), and claimed only when the line spans at least
-:data:`MIN_ELEMENTS_FOR_PROFILE` resolution elements.
+neighbouring points correlated), the choice carried into the uncertainty by Akaike weights,
+and claimed only when the line spans at least :data:`MIN_ELEMENTS_FOR_PROFILE` resolution
+elements and the data decide between Gaussian and Lorentzian. A peak in the wings of a
+resolved line is a new line only when it beats the wings alone clearly (Schwarz's criterion,
+:data:`WING_BIC`); a resolved line narrower than :data:`PAIR_ELEMENTS` elements that a pair of
+unresolved lines fits as well is marked ``pair_possible``. The rules are stated in
+``docs/measurements.md``.
 
 Uncertainties are the "sandwich" covariance of the least-squares estimate with the spectral
 noise correlation of the apodized transform, scaled by the residuals (a residual-based,
@@ -16,7 +21,7 @@ Kernel units: wavenumber in cm⁻¹.
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 import numpy as np
 
@@ -27,7 +32,12 @@ __all__ = [
     "fit_line",
     "find_lines",
     "voigt_fwhm",
+    "akaike_average",
     "MIN_ELEMENTS_FOR_PROFILE",
+    "PROFILE_WEIGHT",
+    "PAIR_ELEMENTS",
+    "WING_BIC",
+    "two_lines_gain",
     "RESOLVED_FACTOR",
     "DETECTION_SNR",
 ]
@@ -38,6 +48,20 @@ MIN_ELEMENTS_FOR_PROFILE = 5.0
 #: A line counts as resolved when its fitted intrinsic FWHM is at least this many instrument
 #: FWHMs and exceeds three times its own standard uncertainty.
 RESOLVED_FACTOR = 1.0
+#: A profile is claimed only when its Akaike weight among the fitted profiles reaches this.
+PROFILE_WEIGHT = 0.9
+#: Resolved lines narrower than this many resolution elements are also fitted as a pair of
+#: unresolved lines.
+PAIR_ELEMENTS = 3.0
+#: "Clearly better" for information criteria: a difference above 10 leaves the worse model
+#: essentially no support (Burnham & Anderson 2002, §2.6; Kass & Raftery 1995, "very strong").
+PAIR_AIC_MARGIN = 10.0
+#: A new line among the wings of a resolved line must beat the wings alone by this much
+#: in Schwarz's criterion (BIC), see :func:`find_lines`.
+WING_BIC = 10.0
+#: How far (in its FWHMs, at least instrument FWHMs) a line's wings are searched with
+#: :data:`WING_BIC`.
+WING_REACH = 30.0
 #: Peaks below this many noise standard deviations are not reported as lines.
 DETECTION_SNR = 8.0
 #: Most spectral points used in one line fit (broad lines are subsampled).
@@ -64,6 +88,12 @@ class LineFit:
 
     ``fwhm_per_cm`` is meaningful only when ``resolved``; otherwise ``fwhm_upper_bound_per_cm``
     holds the bound (at coverage factor :data:`BOUND_K`, never below the instrument FWHM).
+    ``profile_weights`` are the Akaike weights of the profiles fitted (one, 1.0, for an
+    unresolved line), ``profile_widths`` each profile's ``(gauss_fwhm, lorentz_fwhm,
+    u_fwhm)``; ``pair_possible`` says a pair of unresolved lines fits as well as this one
+    broad line, and ``pair_lines`` holds the pair's ``(centre, height)`` when the pair fits
+    clearly better (ΔAIC > :data:`PAIR_AIC_MARGIN`); ``bic_gain`` is Schwarz's criterion of
+    the line against the baseline alone.
     ``success`` is False with a ``message`` when the fit failed; the object is still returned
     so callers can inspect it.
     """
@@ -89,6 +119,11 @@ class LineFit:
     success: bool
     message: str
     aic: dict
+    profile_weights: dict = field(default_factory=dict)
+    profile_widths: dict = field(default_factory=dict)
+    pair_possible: bool = False
+    pair_lines: tuple = ()
+    bic_gain: float = float("nan")
 
     @property
     def wavelength_nm(self) -> float:
@@ -117,21 +152,6 @@ def _observed_fwhm(sig, y, i0):
     return float(sig[hi] - sig[lo])
 
 
-def _model_factory(spec: Spectrum, profile: str):
-    """Model ``h·K(σ−c; widths)/K(0) + b`` with signed width parameters (see
-    :meth:`ftsource.spectrum.spectrum.LineShape.kernel_signed`): ``[h, c, b, q]`` for a Gaussian
-    (q = FWHM²), ``[h, c, b, l]`` for a Lorentzian, ``[h, c, b, q, l]`` for a Voigt."""
-    shape = spec.line_shape
-    k00 = shape.kernel(np.zeros(1))[0]
-
-    def model(p, sig):
-        q = p[3] if profile in ("gaussian", "voigt") else 0.0
-        lor = p[-1] if profile in ("lorentzian", "voigt") else 0.0
-        return p[0] * shape.kernel_signed(sig - p[1], q, lor) / k00 + p[2]
-
-    return model
-
-
 def _widths(profile: str, p: np.ndarray, cov: np.ndarray):
     """Intrinsic FWHM, its standard uncertainty, and the Gaussian/Lorentzian parts."""
     if profile == "gaussian":
@@ -152,6 +172,36 @@ def _widths(profile: str, p: np.ndarray, cov: np.ndarray):
     return w, float(np.sqrt(max(jw @ cov[3:5, 3:5] @ jw, 0.0))), g, lw
 
 
+def akaike_average(values, uncertainties, aics, *, about=None):
+    """Model-averaged value and its unconditional standard uncertainty.
+
+    Akaike weights ``w_i ∝ exp(−ΔAIC_i/2)``; the value is ``θ̄ = Σ w_i θ_i`` and its
+    uncertainty ``Σ w_i √(u_i² + (θ_i − θ̄)²)``, which carries the choice between models
+    into the uncertainty (Buckland, Burnham & Augustin 1997; Burnham & Anderson 2002, eq. 4.9).
+    With ``about`` (the selected model's estimate) the value returned is ``about`` and the
+    spread is taken about it, ``Σ w_i √(u_i² + (θ_i − about)²)``.
+
+    Returns
+    -------
+    (float, float, ndarray)
+        ``θ̄``, its uncertainty and the weights.
+
+    References
+    ----------
+    .. [1] S. T. Buckland, K. P. Burnham and N. H. Augustin, "Model selection: an integral part
+       of inference", Biometrics 53, 603–618 (1997).
+    .. [2] K. P. Burnham and D. R. Anderson, *Model Selection and Multimodel Inference*, 2nd
+       ed., Springer (2002), §4.3.2.
+    """
+    v = np.asarray(values, float)
+    u = np.asarray(uncertainties, float)
+    a = np.asarray(aics, float)
+    w = np.exp(-0.5 * (a - a.min()))
+    w = w / w.sum()
+    mean = float(np.sum(w * v)) if about is None else float(about)
+    return mean, float(np.sum(w * np.sqrt(u * u + (v - mean) ** 2))), w
+
+
 def fit_line(
     spec: Spectrum,
     centre_guess_per_cm: float,
@@ -161,10 +211,20 @@ def fit_line(
 ) -> LineFit:
     """Fit one line near ``centre_guess_per_cm``.
 
-    A Gaussian is fitted first; it decides whether the line is resolved. Only a resolved line
-    at least :data:`MIN_ELEMENTS_FOR_PROFILE` resolution elements wide is also fitted with a
-    Lorentzian and a Voigt profile, and the profile with the lowest AIC (on the effective number
-    of independent points) is kept; otherwise the profile is "undetermined".
+    A Gaussian is fitted first; it decides whether the line is resolved. A resolved line is
+    also fitted with a Lorentzian and a Voigt profile, whatever its width. The reported centre
+    and FWHM are those of the profile of lowest AIC (also the line model subtracted before
+    looking for further lines), with the unconditional uncertainty over the valid profiles
+    (:func:`akaike_average` about the selected estimate), so a profile the data cannot pick
+    carries the spread between profiles into the uncertainty. A profile is *claimed* only when
+    the line spans at least :data:`MIN_ELEMENTS_FOR_PROFILE` resolution elements and the data
+    decide between Gaussian and Lorentzian: the rival pure profile keeps at most
+    1 − :data:`PROFILE_WEIGHT` of the Akaike weight; otherwise it is "undetermined".
+
+    A resolved line narrower than :data:`PAIR_ELEMENTS` resolution elements is also fitted as a
+    pair of unresolved lines; when the pair's AIC is not worse than the single line's by
+    :data:`PAIR_AIC_MARGIN`, ``pair_possible`` is set: the data cannot tell one broad line from
+    two close narrow ones.
 
     Parameters
     ----------
@@ -186,86 +246,15 @@ def fit_line(
     ----------
     .. [1] H. Akaike, "A new look at the statistical model identification", IEEE Trans.
        Autom. Control 19, 716–723 (1974).
-    .. [2] JCGM 100:2008, Evaluation of measurement data — Guide to the expression of
+    .. [2] K. P. Burnham and D. R. Anderson, *Model Selection and Multimodel Inference*, 2nd
+       ed., Springer (2002), §2.9 (ΔAIC > 10: essentially no support) and §4.3.2.
+    .. [3] JCGM 100:2008, Evaluation of measurement data — Guide to the expression of
        uncertainty in measurement, §4.2 (Type A evaluation).
     """
+    from scipy.optimize import least_squares
+
     if profile not in ("auto", "gaussian", "lorentzian", "voigt"):
         raise ValueError(f"profile must be auto, gaussian, lorentzian or voigt, not {profile!r}")
-    win = _fit_window_data(spec, centre_guess_per_cm, others)
-    ils = win.ils
-    first = "gaussian" if profile in ("auto", "gaussian") else profile
-    results = {first: _run_profile(spec, win, first)}
-    res = results[first][0]
-    cov, dof = _covariance(res, win)
-    w, uw, g, lw = _widths(first, res.x, cov)
-    resolved = bool(w >= RESOLVED_FACTOR * ils and w > 3 * uw)
-    elements = w / ils if ils > 0 else 0.0
-    best = first
-    if profile == "auto" and resolved and elements >= MIN_ELEMENTS_FOR_PROFILE:
-        for prof in ("lorentzian", "voigt"):
-            results[prof] = _run_profile(spec, win, prof)
-        # a Voigt with a Gaussian or Lorentzian part at or below zero width is no Voigt (the
-        # other pure profile, or an envelope growing with OPD): it cannot be the one claimed
-        v = results["voigt"][0].x
-        choices = [k for k in results if k != "voigt" or (v[3] > 0 and v[4] > 0)]
-        best = min(choices, key=lambda k: results[k][1])
-        res = results[best][0]
-        cov, dof = _covariance(res, win)
-        w, uw, g, lw = _widths(best, res.x, cov)
-    perr = np.sqrt(np.clip(np.diag(cov), 0, None))
-    claimed = best if (resolved and elements >= MIN_ELEMENTS_FOR_PROFILE) else "undetermined"
-    bound = None
-    if not resolved:
-        # upper bound at coverage factor BOUND_K on the Gaussian width parameter q = FWHM²
-        q, uq = (res.x[3], perr[3]) if best in ("gaussian", "voigt") else (w**2, 2 * w * uw)
-        bound = float(max(np.sqrt(max(q + BOUND_K * uq, 0.0)), ils))
-    k00 = spec.line_shape.kernel(np.zeros(1))[0]
-    noise_at = float(spec.noise[win.i0])
-    p = res.x
-    peak = float(p[0] * spec.line_shape.kernel(np.zeros(1), g, lw)[0] / k00)
-    return LineFit(
-        centre_per_cm=float(p[1]),
-        u_centre_per_cm=float(perr[1]),
-        height=float(p[0]),
-        peak=peak,
-        area=float(p[0] / k00),
-        u_area=float(perr[0] / k00),
-        profile=claimed,
-        gauss_fwhm_per_cm=float(g),
-        lorentz_fwhm_per_cm=float(lw),
-        fwhm_per_cm=float(w),
-        u_fwhm_per_cm=float(uw),
-        resolved=resolved,
-        fwhm_upper_bound_per_cm=bound,
-        instrument_fwhm_per_cm=float(ils),
-        snr=float(peak / noise_at) if noise_at > 0 else float("inf"),
-        n_points=int(win.x.size),
-        n_effective=float(win.n_eff),
-        dof=float(dof),
-        success=bool(res.success),
-        message=str(res.message),
-        aic={k: float(v[1]) for k, v in results.items()},
-    )
-
-
-@dataclass(frozen=True)
-class _Window:
-    """The points a line is fitted on, their weights and the noise correlation between them."""
-
-    i0: int
-    x: np.ndarray
-    y: np.ndarray
-    wts: np.ndarray
-    ils: float
-    excess2: float
-    peak_value: float
-    peak_sigma: float
-    n_eff: float
-    rmat: np.ndarray
-
-
-def _fit_window_data(spec: Spectrum, centre_guess_per_cm: float, others) -> _Window:
-    """The fit window around the local maximum nearest ``centre_guess_per_cm``."""
     sig = spec.sigma_per_cm
     y_all = spec.density
     if others is not None:
@@ -285,69 +274,210 @@ def _fit_window_data(spec: Spectrum, centre_guess_per_cm: float, others) -> _Win
     stride = max(1, int(np.ceil((win.stop - win.start) / MAX_FIT_POINTS)))
     win = slice(win.start, win.stop, stride)
     x = sig[win]
+    y = y_all[win]
+    wts = 1.0 / spec.noise[win]
+    excess2 = max(obs**2 - ils**2, 0.0)
     ds = (sig[1] - sig[0]) * stride
     # effective number of independent points: N / Σ_k R(k·Δσ)
     lags = ds * np.arange(-x.size + 1, x.size)
     r = spec.line_shape.noise_correlation(lags)
     corr_len = float(np.sum(r[np.abs(lags) <= 4 * ils]))
-    return _Window(
-        i0=i0, x=x, y=y_all[win], wts=1.0 / spec.noise[win], ils=ils,
-        excess2=max(obs**2 - ils**2, 0.0), peak_value=float(y_all[i0]),
-        peak_sigma=float(sig[i0]), n_eff=x.size / max(corr_len, 1.0),
-        rmat=r[(np.arange(x.size)[:, None] - np.arange(x.size)[None, :]) + x.size - 1],
+    n_eff = x.size / max(corr_len, 1.0)
+    rmat = r[(np.arange(x.size)[:, None] - np.arange(x.size)[None, :]) + x.size - 1]
+    # the line shape at the fit points, with quadrature and trigonometric tables built once
+    ev = spec.line_shape.evaluator(x)
+    k00 = spec.line_shape.kernel(np.zeros(1))[0]
+    h0 = float(y_all[i0])
+    hs = abs(h0) + 1e-300
+
+    def aic_of(rss, n_par):
+        return n_eff * np.log(max(rss, 1e-300) / x.size) + 2 * n_par
+
+    def run(prof):
+        gq = prof in ("gaussian", "voigt")
+        lz = prof in ("lorentzian", "voigt")
+        p0 = [h0, sig[i0], 0.0]
+        scale = [hs, ils, hs]
+        if gq:
+            p0.append(excess2 if prof == "gaussian" else 0.5 * excess2)
+            scale.append(ils**2)
+        if lz:
+            p0.append(np.sqrt(excess2) * (1.0 if prof == "lorentzian" else 0.5))
+            scale.append(ils)
+
+        def widths(p):
+            return (p[3] if gq else 0.0), (p[-1] if lz else 0.0)
+
+        def fun(p):
+            q, lor = widths(p)
+            return (p[0] * ev(p[1], q, lor) / k00 + p[2] - y) * wts
+
+        def jac(p):
+            q, lor = widths(p)
+            k, dc, dq, dl = ev(p[1], q, lor, derivatives=True)
+            cols = [k / k00, p[0] * dc / k00, np.ones_like(k)]
+            if gq:
+                cols.append(p[0] * dq / k00)
+            if lz:
+                cols.append(p[0] * dl / k00)
+            return np.column_stack(cols) * wts[:, None]
+
+        # trial steps to large negative (signed) widths overflow the growing envelope; the
+        # solver rejects their non-finite cost, so numpy's overflow warnings are noise here
+        with np.errstate(over="ignore", invalid="ignore"):
+            res = least_squares(fun, p0, jac=jac, x_scale=np.array(scale), method="trf",
+                                max_nfev=100 * len(p0))
+        return res, aic_of(float(np.sum(res.fun**2)), res.x.size)
+
+    def run_pair(fit_c, fit_w):
+        """Two unresolved lines (instrument line shape) instead of one broad line."""
+        half = 0.5 * max(fit_w, 0.5 * ils)
+
+        def fun(p):
+            return (p[0] * ev(p[1], 0.0, 0.0) / k00 + p[2] * ev(p[3], 0.0, 0.0) / k00 + p[4]
+                    - y) * wts
+
+        def jac(p):
+            k1, d1, _, _ = ev(p[1], 0.0, 0.0, derivatives=True)
+            k2, d2, _, _ = ev(p[3], 0.0, 0.0, derivatives=True)
+            cols = [k1 / k00, p[0] * d1 / k00, k2 / k00, p[2] * d2 / k00, np.ones_like(k1)]
+            return np.column_stack(cols) * wts[:, None]
+
+        p0 = [0.5 * h0, fit_c - half, 0.5 * h0, fit_c + half, 0.0]
+        with np.errstate(over="ignore", invalid="ignore"):
+            res = least_squares(fun, p0, jac=jac, x_scale=np.array([hs, ils, hs, ils, hs]),
+                                method="trf", max_nfev=500)
+        return aic_of(float(np.sum(res.fun**2)), res.x.size), res.x
+
+    def covariance(res):
+        # Jacobian columns scaled to unit norm first: the width column is orders of magnitude
+        # below the height column, and pinv's relative cutoff would otherwise drop it
+        d = np.linalg.norm(res.jac, axis=0)
+        d[d == 0] = 1.0
+        J = res.jac / d
+        jtj_inv = np.linalg.pinv(J.T @ J)
+        jrj = J.T @ rmat @ J
+        # residual degrees of freedom for correlated noise: E[rss] = tr((I − H)R)
+        # = n − tr((JᵀJ)⁻¹JᵀRJ), not n − p (which biases the residual scale low)
+        dof = max(x.size - float(np.trace(jtj_inv @ jrj)), 1.0)
+        # The residuals are weighted by the spectrum's noise estimate (from thousands of
+        # points), so their variance should be 1. Scale by the residuals only when they are
+        # significantly larger (model mismatch, noise the estimate misses): then the
+        # uncertainty is residual-based with ``dof`` degrees of freedom; otherwise it rests on
+        # the noise estimate, whose degrees of freedom are many (taken as infinite).
+        ratio = float(np.sum(res.fun**2)) / dof
+        if ratio > 1.0 + 2.0 * np.sqrt(2.0 / dof):
+            s2, dof_out = ratio, dof
+        else:
+            s2, dof_out = 1.0, np.inf
+        return jtj_inv @ jrj @ jtj_inv * s2 / np.outer(d, d), dof_out
+
+    first = "gaussian" if profile in ("auto", "gaussian") else profile
+    res, aic = run(first)
+    results = {first: (res, aic)}
+    cov, dof = covariance(res)
+    w, uw, g, lw = _widths(first, res.x, cov)
+    perr = np.sqrt(np.clip(np.diag(cov), 0, None))
+    centre, u_centre = float(res.x[1]), float(perr[1])
+    resolved = bool(w >= RESOLVED_FACTOR * ils and w > 3 * uw)
+    elements = w / ils if ils > 0 else 0.0
+    best = first
+    weights = {first: 1.0}
+    pwidths = {first: (float(g), float(lw), float(uw))}
+    if profile == "auto" and resolved:
+        for prof in ("lorentzian", "voigt"):
+            results[prof] = run(prof)
+        # a Voigt with a Gaussian or Lorentzian part at or below zero width is no Voigt (the
+        # other pure profile, or an envelope growing with OPD): it cannot be the one claimed
+        v = results["voigt"][0].x
+        choices = [k for k in results if k != "voigt" or (v[3] > 0 and v[4] > 0)]
+        best = min(choices, key=lambda k: results[k][1])
+        fits = {}
+        for k in choices:
+            ck, dk = covariance(results[k][0])
+            fits[k] = (results[k][0], ck, dk, _widths(k, results[k][0].x, ck))
+        res, cov, dof, (_, _, g, lw) = fits[best][0], fits[best][1], fits[best][2], fits[best][3]
+        perr = np.sqrt(np.clip(np.diag(cov), 0, None))
+        aics = [results[k][1] for k in choices]
+        # the selected profile's estimates, with the spread over the profiles in their
+        # uncertainties
+        w, uw, wts_m = akaike_average([fits[k][3][0] for k in choices],
+                                      [fits[k][3][1] for k in choices], aics,
+                                      about=fits[best][3][0])
+        centre, u_centre, _ = akaike_average(
+            [fits[k][0].x[1] for k in choices],
+            [np.sqrt(max(fits[k][1][1, 1], 0.0)) for k in choices], aics, about=res.x[1])
+        weights = {k: float(v) for k, v in zip(choices, wts_m, strict=True)}
+        pwidths = {k: (float(fits[k][3][2]), float(fits[k][3][3]), float(fits[k][3][1]))
+                   for k in choices}
+        elements = w / ils if ils > 0 else 0.0
+    # the claim stands when the data decide between Gaussian and Lorentzian: the other pure
+    # profile (for a Voigt, the pure profile it is further from) keeps at most
+    # 1 − PROFILE_WEIGHT of the weight; a Voigt that fits as well as the pure profile it
+    # contains does not argue against that profile
+    g_w, l_w = weights.get("gaussian", 0.0), weights.get("lorentzian", 0.0)
+    rivals = {"gaussian": ("lorentzian",), "lorentzian": ("gaussian",),
+              "voigt": ("gaussian",) if l_w >= g_w else ("lorentzian",)}[best]
+    clear = sum(weights.get(k, 0.0) for k in rivals) <= 1.0 - PROFILE_WEIGHT
+    wide = resolved and elements >= MIN_ELEMENTS_FOR_PROFILE
+    claimed = best if wide and (clear or profile != "auto") else "undetermined"
+    pair = False
+    pair_lines = ()
+    if profile == "auto" and (resolved and elements < PAIR_ELEMENTS
+                              or not resolved and w > 0.5 * ils):
+        aic_pair, pp = run_pair(centre, w)
+        results["pair"] = (None, aic_pair)
+        if aic_pair < results[best][1] - PAIR_AIC_MARGIN and min(pp[0], pp[2]) > 0 \
+                and abs(pp[3] - pp[1]) > 0.25 * ils:
+            # the data show two lines clearly: find_lines takes them as two
+            pair, pair_lines = True, ((float(pp[1]), float(pp[0])), (float(pp[3]), float(pp[2])))
+        elif resolved:
+            # a broad line a pair of narrow ones fits as well: the data cannot tell (a pair
+            # nests an unresolved single line, so this is asked of resolved lines only)
+            pair = bool(aic_pair < results[best][1] + PAIR_AIC_MARGIN)
+    bound = None
+    if not resolved:
+        # upper bound at coverage factor BOUND_K on the Gaussian width parameter q = FWHM²
+        q, uq = (res.x[3], perr[3]) if best in ("gaussian", "voigt") else (w**2, 2 * w * uw)
+        bound = float(max(np.sqrt(max(q + BOUND_K * uq, 0.0)), ils))
+    noise_at = float(spec.noise[i0])
+    p = res.x
+    peak = float(p[0] * spec.line_shape.kernel(np.zeros(1), g, lw)[0] / k00)
+    # evidence for a line here at all: Schwarz's criterion of this fit against the baseline
+    # alone (others subtracted), on the effective number of points
+    rss_fit = float(np.sum(res.fun**2))
+    b0 = float(np.sum(y * wts * wts) / np.sum(wts * wts))
+    rss_null = float(np.sum(((y - b0) * wts) ** 2))
+    bic_gain = float(n_eff * np.log(max(rss_null, 1e-300) / max(rss_fit, 1e-300))
+                     - (p.size - 1) * np.log(max(n_eff, 2.0)))
+    return LineFit(
+        centre_per_cm=centre,
+        u_centre_per_cm=u_centre,
+        height=float(p[0]),
+        peak=peak,
+        area=float(p[0] / k00),
+        u_area=float(perr[0] / k00),
+        profile=claimed,
+        gauss_fwhm_per_cm=float(g),
+        lorentz_fwhm_per_cm=float(lw),
+        fwhm_per_cm=float(w),
+        u_fwhm_per_cm=float(uw),
+        resolved=resolved,
+        fwhm_upper_bound_per_cm=bound,
+        instrument_fwhm_per_cm=float(ils),
+        snr=float(peak / noise_at) if noise_at > 0 else float("inf"),
+        n_points=int(x.size),
+        n_effective=float(n_eff),
+        dof=float(dof),
+        success=bool(res.success),
+        message=str(res.message),
+        aic={k: float(v[1]) for k, v in results.items()},
+        profile_weights=weights,
+        profile_widths=pwidths,
+        pair_possible=pair,
+        pair_lines=pair_lines,
+        bic_gain=bic_gain,
     )
-
-
-def _run_profile(spec: Spectrum, win: _Window, prof: str):
-    """Least-squares fit of profile ``prof`` on the window: ``(result, AIC)``."""
-    from scipy.optimize import least_squares
-
-    model = _model_factory(spec, prof)
-    ils, excess2, x, y, wts = win.ils, win.excess2, win.x, win.y, win.wts
-    p0 = [win.peak_value, win.peak_sigma, 0.0]
-    scale = [abs(win.peak_value) + 1e-300, ils, abs(win.peak_value) + 1e-300]
-    if prof in ("gaussian", "voigt"):
-        p0.append(excess2 if prof == "gaussian" else 0.5 * excess2)
-        scale.append(ils**2)
-    if prof in ("lorentzian", "voigt"):
-        p0.append(np.sqrt(excess2) * (1.0 if prof == "lorentzian" else 0.5))
-        scale.append(ils)
-    # trial steps to large negative (signed) widths overflow the growing envelope; the
-    # solver rejects their non-finite cost, so numpy's overflow warnings are noise here
-    with np.errstate(over="ignore", invalid="ignore"):
-        res = least_squares(
-            lambda p: (model(p, x) - y) * wts, p0, x_scale=np.array(scale), method="trf",
-            max_nfev=100 * len(p0),
-        )
-    rss = float(np.sum(res.fun**2))
-    aic = win.n_eff * np.log(max(rss, 1e-300) / x.size) + 2 * res.x.size
-    return res, aic
-
-
-def _covariance(res, win: _Window):
-    """Covariance of the fitted parameters for correlated noise, and its degrees of freedom.
-
-    The Jacobian's columns are scaled to unit norm first: the width column is orders of
-    magnitude below the height column, and pinv's relative cutoff would otherwise drop it.
-    The residual degrees of freedom for correlated noise are ``tr((I − H)R) = n −
-    tr((JᵀJ)⁻¹JᵀRJ)``, not ``n − p`` (which biases the residual scale low). The residuals are
-    weighted by the spectrum's noise estimate (from thousands of points), so their variance
-    should be 1; they scale the covariance only when significantly larger (model mismatch,
-    noise the estimate misses), and then with ``dof`` degrees of freedom; otherwise the
-    uncertainty rests on the noise estimate, whose degrees of freedom are many (infinite).
-    """
-    d = np.linalg.norm(res.jac, axis=0)
-    d[d == 0] = 1.0
-    J = res.jac / d
-    jtj_inv = np.linalg.pinv(J.T @ J)
-    jrj = J.T @ win.rmat @ J
-    dof = max(win.x.size - float(np.trace(jtj_inv @ jrj)), 1.0)
-    ratio = float(np.sum(res.fun**2)) / dof
-    if ratio > 1.0 + 2.0 * np.sqrt(2.0 / dof):
-        s2, dof_out = ratio, dof
-    else:
-        s2, dof_out = 1.0, np.inf
-    return jtj_inv @ jrj @ jtj_inv * s2 / np.outer(d, d), dof_out
 
 
 def _failed(spec, centre, ils, msg) -> LineFit:
@@ -362,22 +492,153 @@ def _reach(fit: LineFit) -> float:
 
 
 def line_model(spec: Spectrum, fits: list[LineFit]):
-    """Callable model of a set of fitted lines (without baselines)."""
+    """Callable model of a set of fitted lines (without baselines).
+
+    Within :func:`_reach` of its centre a line is its profile convolved with the line shape;
+    beyond, a line with a Lorentzian part keeps its wings as the closed-form Voigt profile
+    (scipy.special.voigt_profile; there the instrument line shape, of unit area and far
+    narrower than the distance, no longer changes the profile), so slowly falling Lorentzian
+    wings are not left behind to be found as lines.
+    """
+    from scipy.special import voigt_profile
+
     shape = spec.line_shape
     k00 = shape.kernel(np.zeros(1))[0]
+    to_sigma = 1.0 / (2.0 * np.sqrt(2.0 * np.log(2.0)))
 
     def f(sig):
         out = np.zeros_like(sig)
         for lf in fits:
             if not lf.success:
                 continue
-            m = np.abs(sig - lf.centre_per_cm) < _reach(lf)
+            d = sig - lf.centre_per_cm
+            m = np.abs(d) < _reach(lf)
             out[m] += lf.height * shape.kernel(
-                sig[m] - lf.centre_per_cm, lf.gauss_fwhm_per_cm, lf.lorentz_fwhm_per_cm
+                d[m], lf.gauss_fwhm_per_cm, lf.lorentz_fwhm_per_cm
             ) / k00
+            if lf.lorentz_fwhm_per_cm > 0:
+                far = ~m
+                out[far] += lf.area * voigt_profile(
+                    d[far], lf.gauss_fwhm_per_cm * to_sigma, lf.lorentz_fwhm_per_cm / 2
+                )
         return out
 
     return f
+
+
+def _refit(spec: Spectrum, fits: list[LineFit], profile: str) -> list[LineFit]:
+    """Close lines pull on each other's fits: refit each with all the others subtracted
+    (twice)."""
+    fits = list(fits)
+    for _ in range(2 if len(fits) > 1 else 0):
+        for i in range(len(fits)):
+            others = [f for j, f in enumerate(fits) if j != i]
+            refit = fit_line(spec, fits[i].centre_per_cm, profile=profile,
+                             others=line_model(spec, others))
+            moved = abs(refit.centre_per_cm - fits[i].centre_per_cm)
+            if (refit.success and np.isfinite(refit.centre_per_cm) and refit.peak > 0
+                    and moved < 0.5 * refit.instrument_fwhm_per_cm):
+                fits[i] = refit
+    return fits
+
+
+def _split_pair(spec, fit: LineFit, model, profile: str) -> list[LineFit]:
+    """Two line fits from a fit whose pair model won: each fitted with the other (as an
+    unresolved line of the pair's fitted height) and ``model`` subtracted."""
+    from dataclasses import replace
+
+    k00 = spec.line_shape.kernel(np.zeros(1))[0]
+    seeds = [replace(fit, centre_per_cm=c, height=h, area=h / k00, gauss_fwhm_per_cm=0.0,
+                     lorentz_fwhm_per_cm=0.0, fwhm_per_cm=0.0, pair_lines=())
+             for c, h in fit.pair_lines]
+    out = []
+    for i, sd in enumerate(seeds):
+        other = line_model(spec, [seeds[1 - i]])
+        base = (lambda s, o=other: o(s) + model(s)) if model is not None else other
+        f = fit_line(spec, sd.centre_per_cm, profile=profile, others=base)
+        out.append(replace(f, pair_lines=()) if f.success else sd)
+    ils = spec.line_shape.fwhm_per_cm
+    if not (all(f.success and f.peak > 0 for f in out)
+            and abs(out[0].centre_per_cm - out[1].centre_per_cm) > 0.5 * ils):
+        # the two did not stay apart as lines: keep the single line, marked as a possible pair
+        return [replace(fit, pair_lines=(), pair_possible=True)]
+    return out
+
+
+def _host(fit: LineFit, fits: list[LineFit]) -> LineFit | None:
+    """The strongest stronger line in whose wings ``fit`` lies (within :data:`WING_REACH` of
+    its FWHM, at least of the instrument's), or None."""
+    near = [f for f in fits if f.peak > fit.peak and abs(fit.centre_per_cm - f.centre_per_cm)
+            < WING_REACH * max(f.fwhm_per_cm, f.instrument_fwhm_per_cm)]
+    return max(near, key=lambda f: f.peak) if near else None
+
+
+def two_lines_gain(spec: Spectrum, host: LineFit, extra: LineFit, *, others=None) -> float:
+    """How much better two lines fit than one: ΔBIC of (Voigt + line) over (Voigt alone).
+
+    Over a window covering both lines (``others`` subtracted), the host line is fitted as a
+    Voigt profile (Gaussian and Lorentzian parts free and signed, so the family includes both
+    pure profiles and wings of either kind) with a constant baseline; then the same together
+    with a second line of free height, centre and Gaussian width. The gain is Schwarz's
+    criterion ``n_eff·ln(RSS₁/RSS₂) − 3·ln n_eff`` on the effective number of independent
+    points; above :data:`WING_BIC` (10, "very strong" evidence) two lines beat one profile
+    clearly.
+
+    References
+    ----------
+    .. [1] G. Schwarz, "Estimating the dimension of a model", Ann. Stat. 6, 461–464 (1978).
+    .. [2] R. E. Kass and A. E. Raftery, "Bayes factors", J. Am. Stat. Assoc. 90, 773–795
+       (1995), §3.2 (2 ln B > 10: very strong).
+    """
+    from scipy.optimize import least_squares
+
+    sig = spec.sigma_per_cm
+    y_all = spec.density - (others(sig) if others is not None else 0.0)
+    ils = spec.line_shape.fwhm_per_cm
+    wh = max(host.fwhm_per_cm, ils)
+    lo = min(host.centre_per_cm - 2.5 * wh, extra.centre_per_cm - 2.5 * max(ils, extra.fwhm_per_cm))
+    hi = max(host.centre_per_cm + 2.5 * wh, extra.centre_per_cm + 2.5 * max(ils, extra.fwhm_per_cm))
+    i_lo, i_hi = (int(np.clip(np.searchsorted(sig, v), 1, sig.size)) for v in (lo, hi))
+    stride = max(1, int(np.ceil((i_hi - i_lo) / MAX_FIT_POINTS)))
+    win = slice(i_lo, i_hi + 1, stride)
+    x, y, wts = sig[win], y_all[win], 1.0 / spec.noise[win]
+    if x.size < 12:
+        return float("inf")
+    ds = (sig[1] - sig[0]) * stride
+    lags = ds * np.arange(-x.size + 1, x.size)
+    r = spec.line_shape.noise_correlation(lags)
+    n_eff = x.size / max(float(np.sum(r[np.abs(lags) <= 4 * ils])), 1.0)
+    ev = spec.line_shape.evaluator(x)
+    k00 = spec.line_shape.kernel(np.zeros(1))[0]
+    hs = abs(host.height) + 1e-300
+
+    def one(p):
+        return p[0] * ev(p[1], p[3], p[4]) / k00 + p[2]
+
+    def two(p):
+        return one(p) + p[5] * ev(p[6], p[7], 0.0) / k00
+
+    q0 = max(host.gauss_fwhm_per_cm, 0.0) ** 2
+    p1 = [host.height, host.centre_per_cm, 0.0, q0, max(host.lorentz_fwhm_per_cm, 0.0)]
+    s1 = [hs, ils, hs, ils**2, ils]
+    q2 = max(extra.gauss_fwhm_per_cm, 0.0) ** 2
+    p2 = p1 + [max(extra.height, 0.0), extra.centre_per_cm, q2]
+    s2 = s1 + [hs, ils, ils**2]
+    with np.errstate(over="ignore", invalid="ignore"):
+        r1 = least_squares(lambda p: (one(p) - y) * wts, p1, x_scale=np.array(s1),
+                           method="trf", max_nfev=400)
+        # two starts (the lines as found; the single profile plus the second line): the pair
+        # contains the single profile, so it must fit at least as well
+        rss2 = np.inf
+        for start in (p2, list(r1.x) + p2[5:]):
+            r2 = least_squares(lambda p: (two(p) - y) * wts, start, x_scale=np.array(s2),
+                               method="trf", max_nfev=600)
+            rss2 = min(rss2, float(np.sum(r2.fun**2)))
+    rss1 = float(np.sum(r1.fun**2))
+    if not (np.isfinite(rss1) and np.isfinite(rss2)):
+        return float("nan")
+    return float(n_eff * np.log(max(rss1, 1e-300) / max(rss2, 1e-300))
+                 - 3 * np.log(max(n_eff, 2.0)))
 
 
 def find_lines(
@@ -422,6 +683,11 @@ def find_lines(
             and all(abs(fit.centre_per_cm - f.centre_per_cm) > 0.5 * f.instrument_fwhm_per_cm
                     for f in fits)
         )
+        if plausible and fit.pair_lines:
+            # two lines fit clearly better than this one: take them as two
+            fit = _split_pair(spec, fit, model if fits else None, profile)
+            fits.extend(fit[:-1])
+            fit = fit[-1]
         if not plausible:
             # an unfittable peak: raise the floor there so the search moves on
             floor2[_fit_window(spec, i0, 2 * spec.line_shape.fwhm_per_cm)] = np.inf
@@ -435,15 +701,30 @@ def find_lines(
         far = inband & (np.abs(sig - fit.centre_per_cm) > _reach(fit))
         env = spec.line_shape.sidelobe_envelope(sig[far] - fit.centre_per_cm)
         floor2[far] += (2 * fit.peak * env / snr_threshold) ** 2
-    # close lines pull on each other's fits: refit each with all the others subtracted
-    for _ in range(2 if len(fits) > 1 else 0):
-        for i in range(len(fits)):
-            others = [f for j, f in enumerate(fits) if j != i]
-            refit = fit_line(spec, fits[i].centre_per_cm, profile=profile,
-                             others=line_model(spec, others))
-            moved = abs(refit.centre_per_cm - fits[i].centre_per_cm)
-            if (refit.success and np.isfinite(refit.centre_per_cm) and refit.peak > 0
-                    and moved < 0.5 * refit.instrument_fwhm_per_cm):
-                fits[i] = refit
+    fits = _refit(spec, fits, profile)
+    # the same line twice (two fits drawn to one peak) is one line: the stronger stays
+    for fit in sorted(fits, key=lambda f: f.peak):
+        if any(g is not fit and g.peak >= fit.peak
+               and abs(g.centre_per_cm - fit.centre_per_cm) <= 0.5 * g.instrument_fwhm_per_cm
+               for g in fits):
+            fits = [g for g in fits if g is not fit]
+    # in the wings of a stronger line, two lines must beat one profile clearly; tested once
+    # every line is modelled (an unmodelled neighbour would swamp the comparison), weakest first
+    dropped = False
+    for fit in sorted(fits, key=lambda f: f.peak):
+        rest = [f for f in fits if f is not fit]
+        host = _host(fit, rest)
+        if host is None:
+            continue
+        others = line_model(spec, [f for f in rest if f is not host])
+        # a weak feature far broader than the line it sits under is a pedestal (the line's
+        # profile or baseline not quite right), not a second line
+        pedestal = (fit.peak < 0.1 * host.peak and fit.fwhm_per_cm
+                    > 3 * max(host.fwhm_per_cm, host.instrument_fwhm_per_cm))
+        if pedestal or not two_lines_gain(spec, host, fit, others=others) >= WING_BIC:
+            fits = rest
+            dropped = True
+    if dropped:
+        fits = _refit(spec, fits, profile)
     fits.sort(key=lambda f: -f.centre_per_cm)  # by increasing wavelength
     return fits

@@ -26,7 +26,7 @@ class Identification:
 
 
 def identify_line(wl_nm, u_fit_nm, reference_uncertainty_ppm, *, source_line=True,
-                  tables=None) -> Identification:
+                  tables=None, resolution_nm=None) -> Identification:
     """Candidates for one measured line of vacuum wavelength ``wl_nm``.
 
     The tolerance is k = 2 times the line's fit uncertainty ``u_fit_nm`` combined with the
@@ -34,7 +34,9 @@ def identify_line(wl_nm, u_fit_nm, reference_uncertainty_ppm, *, source_line=Tru
     stated uncertainty (:func:`ftsource.linelists.identify`), so a He-Ne-referenced
     measurement is not asked to be better than its own reference. Lines flagged as artefacts
     (``source_line`` False) and lines outside :data:`IDENTIFY_RANGE_NM` get no candidates.
-    ``tables`` caches the lists read (shared over the lines of one analysis).
+    ``tables`` caches the lists read (shared over the lines of one analysis). A line whose
+    fit uncertainty exceeds a resolution element (``resolution_nm``) is not identified (almost
+    any entry would match within such a tolerance); its nearest entries are still listed.
 
     References
     ----------
@@ -48,5 +50,9 @@ def identify_line(wl_nm, u_fit_nm, reference_uncertainty_ppm, *, source_line=Tru
     u = float(np.hypot(u_fit_nm if np.isfinite(u_fit_nm) else 0.0,
                        wl_nm * reference_uncertainty_ppm * 1e-6))
     candidates = tuple(identify(wl_nm, u, max_candidates=3, tables=tables))
+    if resolution_nm is not None and not (u_fit_nm <= resolution_nm):
+        from dataclasses import replace
+
+        candidates = tuple(replace(c, within_tolerance=False) for c in candidates)
     best = next((c for c in candidates if c.within_tolerance), None)
     return Identification(best, candidates)

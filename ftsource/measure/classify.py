@@ -78,6 +78,10 @@ def classify_source(source_lines) -> Classification:
             np.array([f.centre_per_cm for f in source_lines]),
             np.array([max(f.area, 0.0) for f in source_lines]),
             u_centres_per_cm=np.array([f.u_centre_per_cm for f in source_lines]),
+            # resolved modes much narrower than their spacing (an unresolved line's bound is
+            # the resolution, which says nothing about the mode: it counts as narrow)
+            widths_per_cm=np.array([f.fwhm_per_cm if f.resolved else 0.0
+                                    for f in source_lines], dtype=float),
         )
         if comb is not None:
             return Classification("multimode", main, comb)

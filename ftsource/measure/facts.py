@@ -131,6 +131,7 @@ class LineReport:
     aliasing: str | None
     identification: object | None  # ftsource.linelists.Candidate
     nearest_entries: tuple = ()
+    pair_possible: bool = False
 
 
 def clipped_fraction(signal) -> float:
@@ -268,7 +269,8 @@ def line_reports(lines, flags, aliasing, *, options, reference_uncertainty_ppm,
         if alias is not None and alias.message and (flag is None or alias.verdict == "alias"):
             notes.append(alias.message)
         ident = identify_line(wl, u_wl, reference_uncertainty_ppm, source_line=flag is None,
-                              tables=tables)
+                              tables=tables, resolution_nm=u_nm_from_per_cm(
+                                  f.centre_per_cm, f.instrument_fwhm_per_cm))
         out.append(LineReport(
             wavelength_nm=finite_or_none(wl),
             wavelength_air_nm=finite_or_none(air_wavelength_nm(wl, options)),
@@ -287,6 +289,7 @@ def line_reports(lines, flags, aliasing, *, options, reference_uncertainty_ppm,
             aliasing=alias.verdict if alias is not None else None,
             identification=ident.best,
             nearest_entries=ident.nearest,
+            pair_possible=bool(getattr(f, "pair_possible", False)),
         ))
     out.sort(key=lambda r: r.wavelength_nm or 0.0)
     return tuple(out), tuple(notes)

@@ -48,6 +48,7 @@ class SourceFigures:
     coherence_length_mm: float | None = None
     coherence_length_lower_bound_mm: float | None = None
     coherence_length_definition: str | None = None
+    coherence_length_method: str | None = None
     coherence_length_visibility_mm: float | None = None
     u_coherence_length_mm: float | None = None
     u_coherence_length_visibility_mm: float | None = None
@@ -117,6 +118,15 @@ def source_figures(spec, source_lines, sweep_spectra, interferograms, *, options
             "field stop, not to a laser beam, whose own divergence sets a far smaller shift: "
             "it was not applied"
         )
+    if kind == "narrow" and len(sweep_spectra) >= 2:
+        # one rule with the broadband figures: max(u, s/√n) over the sweeps' own centres
+        from ftsource.lines.sweeps import sweep_line_centres
+        from ftsource.measure.uncertainty import with_sweep_scatter
+
+        vals = [c for _, c, _ in sweep_line_centres(spec, sweep_spectra, sig0,
+                                                    cache=sweep_fit_cache)]
+        u_sig, dof = with_sweep_scatter(main.u_centre_per_cm, main.dof, vals)
+        centre = CentreEstimate(centre.centre_nm, u_nm_from_per_cm(sig0, u_sig), dof)
     cb = centre_budget(
         centre, opd_kind=opd_kind, options=options,
         reference_wavelength_nm=reference_wavelength_nm, source_lines=source_lines,
@@ -155,6 +165,7 @@ def source_figures(spec, source_lines, sweep_spectra, interferograms, *, options
         coherence_length_mm=width.coherence_length_mm,
         coherence_length_lower_bound_mm=width.coherence_length_lower_bound_mm,
         coherence_length_definition=width.coherence_length_definition,
+        coherence_length_method=width.coherence_length_method,
         coherence_length_visibility_mm=width.coherence_length_visibility_mm,
         u_coherence_length_mm=width.u_coherence_length_mm,
         u_coherence_length_visibility_mm=width.u_coherence_length_visibility_mm,
@@ -191,5 +202,5 @@ def sweep_consistency_notes(spec, sweep_spectra, sigma_per_cm, fit_cache=None):
         f"the sweeps disagree more than their fits predict (Birge ratio "
         f"{c.birge_ratio:.2g}): something the fits do not see moves the line between "
         "sweeps (mirror tilt, drifting reference, channel delay); the centre's "
-        "uncertainty may be too small",
+        "uncertainty includes the sweeps' scatter (standard error of their mean)",
     )

@@ -24,7 +24,18 @@ from ftsource._arrays import finite_pair
 from ftsource.errors import AnalysisError, OptionError, RecordError
 from ftsource.measure.coherence import C_CM_PER_S, _envelope
 
+#: A comb may leave out kept lines carrying at most this fraction of their summed intensity.
+OFF_COMB_FRACTION = 0.1
+#: ... and none of them may exceed this fraction of the strongest line (common practice).
+OFF_COMB_PEAK = 0.2
+#: Each mode must be at least this many times narrower than the spacing (FWHM ≤ spacing/4:
+#: neighbouring modes overlap by under 1 % of their peak for a Lorentzian, common practice).
+MODE_NARROWNESS = 4.0
+
 __all__ = [
+    "OFF_COMB_FRACTION",
+    "OFF_COMB_PEAK",
+    "MODE_NARROWNESS",
     "ModeComb",
     "RevivalCheck",
     "find_mode_comb",
@@ -63,6 +74,10 @@ class ModeComb:
         ``n_g·L = 1/(2Δσ)`` (= λ²/(2Δλ)), cm.
     residual_rms_per_cm : float
         RMS of the centres about the fitted comb, cm⁻¹.
+    off_comb_per_cm : tuple of float
+        Kept lines (above ``min_fraction``) that are not on the comb: weak features that the
+        comb's modes outweigh (at most :data:`OFF_COMB_FRACTION` of the kept intensity), for
+        the caller to flag; empty for a clean comb.
     """
 
     n_modes: int
@@ -83,6 +98,7 @@ class ModeComb:
     cavity_optical_length_cm: float
     u_cavity_optical_length_cm: float
     residual_rms_per_cm: float
+    off_comb_per_cm: tuple[float, ...] = ()
 
     @property
     def revival_opd_cm(self) -> float:
@@ -121,6 +137,44 @@ def _comb_numbers(d: np.ndarray, base: float, rtol: float) -> np.ndarray | None:
     return k.astype(int)
 
 
+def _comb_subset(c: np.ndarray, a: np.ndarray, d: np.ndarray, rtol: float):
+    """Mask of the lines (sorted ``c``) that form the comb holding the most intensity, or None.
+
+    All lines when they form a comb themselves; otherwise the best comb among them of at least
+    3 modes whose left-off lines carry at most :data:`OFF_COMB_FRACTION` of the intensity,
+    none above :data:`OFF_COMB_PEAK` of the strongest line.
+    """
+    for base in (float(np.median(d)), float(np.min(d))):
+        if _comb_numbers(d, base, rtol) is not None:
+            return np.ones(c.size, bool)
+    top = np.argsort(a)[::-1][:6]
+    best, best_score = None, 0.0
+    for i in top:
+        for j in top:
+            if j <= i:
+                continue
+            for div in (1, 2, 3):
+                base = abs(c[j] - c[i]) / div
+                if base <= 0:
+                    continue
+                n = (c - c[i]) / base
+                on = np.abs(n - np.rint(n)) <= rtol
+                if np.count_nonzero(on) < 3:
+                    continue
+                cc = c[on]
+                if _comb_numbers(np.diff(cc), base, rtol) is None:
+                    continue
+                score = float(np.sum(a[on]))
+                # the larger base wins a tie (a half spacing fits too, with every mode "missing")
+                if score > best_score * (1 + 1e-9):
+                    best, best_score = on, score
+    if best is None or best_score < (1.0 - OFF_COMB_FRACTION) * float(np.sum(a)):
+        return None
+    if np.any(a[~best] > OFF_COMB_PEAK * np.max(a)):
+        return None  # a strong line between modes: a second source, not an artefact
+    return best
+
+
 def find_mode_comb(
     centres_per_cm: np.ndarray,
     intensities: np.ndarray,
@@ -128,14 +182,23 @@ def find_mode_comb(
     min_fraction: float = 0.05,
     rtol: float = 0.1,
     u_centres_per_cm: np.ndarray | None = None,
+    widths_per_cm: np.ndarray | None = None,
 ) -> ModeComb | None:
     """Recognise and measure an equally spaced comb of modes among fitted lines.
 
     Lines weaker than ``min_fraction`` of the strongest are set aside. The rest, sorted by
     wavenumber, form a comb when there are at least 3 and every consecutive spacing is 1 or 2
     times a base spacing within ``rtol`` of it (2 = one missing mode); the base is the median
-    spacing, or failing that the smallest. Every kept line must belong to the comb: a line
-    between modes (a second source, a ghost) means no comb is reported. The spacing is then the
+    spacing, or failing that the smallest. When not every kept line fits, the comb is sought
+    among them: each spacing between two of the strongest lines (divided by 1–3) is tried as
+    the base, and the comb of at least 3 modes that holds the most intensity is kept — provided
+    the lines left off it carry at most :data:`OFF_COMB_FRACTION` of the kept intensity and
+    none exceeds :data:`OFF_COMB_PEAK` of the strongest (a weak artefact does not hide a comb;
+    a strong line between modes, a second source, means no comb). The lines left off are
+    returned in ``off_comb_per_cm``. With ``widths_per_cm`` (each
+    line's intrinsic FWHM, or its upper bound) a comb is reported only when every mode is at
+    least :data:`MODE_NARROWNESS` times narrower than the spacing: broad overlapping "modes"
+    are the structure of one broad line, not a laser's comb. The spacing is then the
     least-squares slope of centre against integer mode number, with its standard uncertainty
     from the residual scatter (``s²/Σ(m − m̄)²``, ``s²`` the residual variance on ``n − 2``
     degrees of freedom; 0 for a perfect comb). When the centres' own standard uncertainties
@@ -162,6 +225,8 @@ def find_mode_comb(
         base spacing.
     u_centres_per_cm : array_like, optional
         Standard uncertainties of the centres (same order as ``centres_per_cm``).
+    widths_per_cm : array_like, optional
+        Intrinsic FWHM (or its upper bound) of each line, cm⁻¹ (same order).
 
     Returns
     -------
@@ -199,17 +264,32 @@ def find_mode_comb(
         if uc.shape != c.shape:
             raise AnalysisError("u_centres_per_cm must match centres_per_cm")
         uc = np.where(np.isfinite(uc) & (uc > 0), uc, 0.0)
+    wd = None
+    if widths_per_cm is not None:
+        wd = np.asarray(widths_per_cm, dtype=float)
+        if wd.shape != c.shape:
+            raise AnalysisError("widths_per_cm must match centres_per_cm")
     keep = a >= min_fraction * np.max(a)
     c, a = c[keep], a[keep]
     order = np.argsort(c)
     c, a = c[order], a[order]
     if uc is not None:
         uc = uc[keep][order]
+    if wd is not None:
+        wd = wd[keep][order]
     if c.size < 3:
         return None
     d = np.diff(c)
     if np.any(d <= 0):
         return None
+    on = _comb_subset(c, a, d, rtol)
+    if on is None:
+        return None
+    off = tuple(float(v) for v in c[~on])
+    c, a = c[on], a[on]
+    uc = None if uc is None else uc[on]
+    wd = None if wd is None else wd[on]
+    d = np.diff(c)
     k = None
     for base in (float(np.median(d)), float(np.min(d))):
         k = _comb_numbers(d, base, rtol)
@@ -242,6 +322,8 @@ def find_mode_comb(
         if coef[0] < 0:
             fwhm = float(2.0 * np.sqrt(np.log(2.0) / -coef[0]))
 
+    if wd is not None and np.any(np.nan_to_num(wd, nan=np.inf) > slope / MODE_NARROWNESS):
+        return None
     return ModeComb(
         n_modes=int(n),
         n_missing=int(np.sum(k == 2)),
@@ -261,6 +343,7 @@ def find_mode_comb(
         cavity_optical_length_cm=1.0 / (2.0 * slope),
         u_cavity_optical_length_cm=u_slope / (2.0 * slope**2),
         residual_rms_per_cm=float(np.sqrt(np.mean(resid**2))),
+        off_comb_per_cm=off,
     )
 
 

@@ -60,6 +60,8 @@ __all__ = [
     "one_sided_rectangular",
     "wavelength_budget",
     "sweep_consistency",
+    "with_sweep_scatter",
+    "scatter_rule",
     "DOF_AS_INFINITE",
     "OPD_SCALES",
 ]
@@ -608,3 +610,48 @@ def sweep_consistency(values, uncertainties, *, significance: float = 0.01) -> C
     nu = x.size - 1
     p = float(_chi2.sf(chi2, nu))
     return Consistency(chi2 / nu, p, bool(p >= alpha))
+
+
+def with_sweep_scatter(u: float, dof: float, values) -> tuple[float, float]:
+    """The one rule for sweep scatter: ``max(u, s/√n)`` with its degrees of freedom.
+
+    ``s`` is the sample standard deviation (``ddof=1``) of the ``n`` per-sweep values of a
+    figure whose co-added estimate has standard uncertainty ``u`` with ``dof`` degrees of
+    freedom. The standard error of the mean of the sweeps, ``s/√n``, is a Type A evaluation
+    that sees what the noise model behind ``u`` leaves out (drift, speed-dependent delays,
+    mirror tilt, correlated points); the larger of the two is kept, and when the scatter wins
+    its ``n − 1`` degrees of freedom go with it. Used for narrow lines' centres and for
+    broadband figures alike (docs/measurements.md).
+
+    Parameters
+    ----------
+    u : float
+        Standard uncertainty of the co-added figure.
+    dof : float
+        Its degrees of freedom (inf allowed).
+    values : array_like
+        The figure from each sweep alone; fewer than 2 finite values leave ``u`` unchanged.
+
+    Returns
+    -------
+    (float, float)
+        The uncertainty and its degrees of freedom.
+
+    References
+    ----------
+    .. [1] JCGM 100:2008 (GUM), §4.2.3 (experimental standard deviation of the mean).
+    """
+    v = np.asarray(values, dtype=float)
+    v = v[np.isfinite(v)]
+    if v.size < 2:
+        return float(u), float(dof)
+    return scatter_rule(u, dof, float(np.std(v, ddof=1) / np.sqrt(v.size)), v.size)
+
+
+def scatter_rule(u: float, dof: float, standard_error: float, n: int) -> tuple[float, float]:
+    """``max(u, standard_error)``: the standard error of the mean of ``n`` sweeps wins (with
+    ``n − 1`` degrees of freedom) when it is the larger or ``u`` is not a number. The rule of
+    :func:`with_sweep_scatter`, for callers that have the standard error already."""
+    if not (float(u) >= float(standard_error)):  # also when u is NaN
+        return float(standard_error), float(n - 1)
+    return float(u), float(dof)

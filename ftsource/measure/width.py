@@ -29,6 +29,7 @@ class WidthFigures:
     u_coherence_length_mm: float | None = None
     half_visibility_opd_mm: float | None = None
     coherence_length_definition: str | None = None
+    coherence_length_method: str | None = None
     coherence_length_lower_bound_mm: float | None = None
     coherence_length_visibility_mm: float | None = None
     u_coherence_length_visibility_mm: float | None = None
@@ -55,12 +56,25 @@ def width_figures(kind, main, spec, interferograms, sweep_spectra, *, fwhm_nm: f
     notes: list[str] = []
     sig0 = main.centre_per_cm
     f: dict = {"resolved": bool(main.resolved)}
+    decay = _decay_without_zpd(interferograms, sweep_spectra)
+    if decay is not None and decay > coh.ENVELOPE_DECAY_LIMIT:
+        # docs/measurements.md, "Width bounds without ZPD"
+        notes.append(
+            f"no sweep reaches zero path difference and the fringe envelope changes by a "
+            f"factor {decay:.3g} across a sweep: the line's coherence ends within the scan, so "
+            "the spectrum shows it through that decay rather than through the instrument's "
+            "line shape, and no width, width bound or coherence length taken from it would "
+            "hold; none is reported. Scan through zero path difference (equal arm lengths) to "
+            "measure them"
+        )
+        return WidthFigures(resolved=None, notes=tuple(notes))
     if main.resolved:
         f["fwhm_nm"] = finite_or_none(fwhm_nm)
         f["u_fwhm_nm"] = u_fwhm_nm if u_fwhm_nm is not None else finite_or_none(
             u_nm_from_per_cm(sig0, main.u_fwhm_per_cm))
         try:
-            f.update(_spectrum_coherence(kind, main, spec))
+            f.update(_spectrum_coherence(kind, main, spec,
+                                         _visibility(interferograms, sweep_spectra)))
         except Exception as e:  # noqa: BLE001 - an estimate that fails is reported, not fatal
             notes.append(f"the coherence length could not be computed from the spectrum: {e}")
     else:
@@ -89,7 +103,7 @@ def width_figures(kind, main, spec, interferograms, sweep_spectra, *, fwhm_nm: f
     return WidthFigures(**f, notes=tuple(notes))
 
 
-def _spectrum_coherence(kind, main, spec) -> dict:
+def _spectrum_coherence(kind, main, spec, vis=None) -> dict:
     """Coherence length from the spectrum: the measured band for a broad source, the fitted
     intrinsic profile (instrument shape removed, wings complete) for a narrow line."""
     from ftsource.measure import coherence as coh
@@ -100,7 +114,8 @@ def _spectrum_coherence(kind, main, spec) -> dict:
         ce = coh.coherence_from_spectrum(spec.sigma_per_cm, spec.density,
                                          noise=spec.noise, band=band)
     else:
-        ce = _profile_coherence(main)
+        # the fitted profiles' closed forms, or the visibility when the profile is undecided
+        ce = coh.line_coherence(main.profile_widths, main.profile_weights, visibility=vis)
     u_lc = ce.u_length_cm if np.isfinite(ce.u_length_cm or np.nan) else np.nan
     if not (u_lc > 0) and main.fwhm_per_cm > 0:
         # L_c ∝ 1/Δσ for a given profile: the width's relative uncertainty
@@ -110,6 +125,7 @@ def _spectrum_coherence(kind, main, spec) -> dict:
         "u_coherence_length_mm": finite_or_none(u_lc * 10),
         "half_visibility_opd_mm": finite_or_none(ce.half_visibility_opd_cm * 10),
         "coherence_length_definition": ce.definition,
+        "coherence_length_method": ce.method,
     }
 
 
@@ -149,6 +165,22 @@ def _profile_coherence(fit):
     sig = np.linspace(-reach, reach, 400_001)
     dens = voigt_profile(sig, g / (2 * np.sqrt(2 * np.log(2))), lw / 2)
     return coh.coherence_from_spectrum(sig + fit.centre_per_cm, dens)
+
+
+def _decay_without_zpd(interferograms, sweep_spectra):
+    """Median fringe-envelope change across a sweep (:func:`ftsource.measure.coherence.
+    envelope_decay`) when no sweep holds ZPD; None when one does (or none can be measured)."""
+    from ftsource.measure.coherence import envelope_decay
+
+    if not sweep_spectra or any(sw.zpd_found for sw in sweep_spectra):
+        return None
+    ratios = []
+    for ig in interferograms:
+        try:
+            ratios.append(envelope_decay(ig.y))
+        except Exception:  # noqa: BLE001 - too short a sweep says nothing here
+            continue
+    return float(np.median(ratios)) if ratios else None
 
 
 def _visibility(interferograms, sweep_spectra):
