@@ -309,7 +309,7 @@ def coadd(
 ) -> Spectrum:
     """Mean of sweep spectra on the same grid, with a noise estimate.
 
-    The noise is each sweep's robust noise level (:func:`_noise_floor`: most of the grid lies
+    The noise is each sweep's robust noise level (:func:`_noise_level`: most of the grid lies
     outside the source's band and holds only noise) combined for the mean. Noise that grows
     with the signal is not in it; line fits scale their uncertainties by their residuals.
     """
@@ -322,8 +322,8 @@ def coadd(
     kind = "magnitude" if methods == {"magnitude"} else "real"
     # each sweep's own noise level (its spectrum is noise over most of the grid); sweeps of
     # different span have different line shapes, so their scatter at a line is not noise
-    floors = np.array([_noise_floor(s) for s in sweep_spectra])
-    noise = np.sqrt(np.sum(floors**2, axis=0)) / n
+    floors = np.array([_noise_level(s) for s in sweep_spectra])
+    noise = np.full(mean.shape, np.sqrt(np.sum(floors**2)) / n)
     L = tuple(float(s.L_cm) for s in sweep_spectra)
     w = tuple(1.0 / n for _ in sweep_spectra)
     shape = LineShape(apodization, L, w, kind)
@@ -332,8 +332,21 @@ def coadd(
                     tuple(sweep_spectra))
 
 
-def _noise_floor(s: SweepSpectrum, block: int = 1024) -> np.ndarray:
-    """Noise standard deviation of one sweep's spectrum, from blocks of points.
+def _block_medians(v: np.ndarray, edges: np.ndarray, *, spread: bool = False) -> np.ndarray:
+    """Median of each block ``v[edges[k]:edges[k+1]]`` (blocks of at most two sizes, as
+    ``numpy.linspace`` edges give), one vectorised median per block size; with ``spread`` the
+    medians are returned spread over the samples of their blocks."""
+    starts, sizes = edges[:-1], np.diff(edges)
+    med = np.empty(starts.size)
+    for size in np.unique(sizes):
+        sel = sizes == size
+        med[sel] = np.median(v[starts[sel, None] + np.arange(size)], axis=1)
+    return np.repeat(med, sizes) if spread else med
+
+
+def _noise_level(s: SweepSpectrum, block: int = 1024) -> float:
+    """Noise standard deviation of one sweep's spectrum (one value: white noise is flat in
+    wavenumber), from blocks of points.
 
     In each block of a phase-corrected spectrum the robust spread is 1.4826 × the median
     absolute deviation (Gaussian noise); a magnitude spectrum is Rayleigh distributed where
@@ -348,16 +361,14 @@ def _noise_floor(s: SweepSpectrum, block: int = 1024) -> np.ndarray:
     edges = np.linspace(0, v.size, nb + 1).astype(int)
     if s.method != "magnitude":
         # deviations about each block's median (a broad source lifts a whole block)
-        med = np.array([np.median(np.abs(s.values[a:b] - np.median(s.values[a:b])))
-                        for a, b in zip(edges[:-1], edges[1:], strict=False)]) * scale
+        med = _block_medians(np.abs(s.values - _block_medians(s.values, edges, spread=True)),
+                             edges) * scale
     else:
-        med = np.array(
-            [np.median(v[a:b]) for a, b in zip(edges[:-1], edges[1:], strict=True)]
-        ) * scale
+        med = _block_medians(v, edges) * scale
     # white interferogram noise is flat in wavenumber: the median over blocks is robust to the
     # blocks a source occupies
     level = float(np.median(med))
-    return np.full(v.size, max(level, np.finfo(float).tiny))
+    return max(level, np.finfo(float).tiny)
 
 
 def reconvolve(spectrum: Spectrum, band_per_cm: tuple[float, float], *,
