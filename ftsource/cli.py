@@ -52,6 +52,7 @@ def build_parser() -> argparse.ArgumentParser:
     a.add_argument("--json", action="store_true", help="print the result JSON")
     a.add_argument("--out", metavar="DIR", help="write result.json and spectrum.ecsv into DIR")
     a.add_argument("--overwrite", action="store_true", help="replace files in --out")
+    _add_fft_options(a)
 
     s = sub.add_parser("simulate", help="make a record of a known source (planning, testing)")
     s.add_argument("out", help="output record: .csv, .npz or .wav")
@@ -119,6 +120,15 @@ def build_parser() -> argparse.ArgumentParser:
     r.add_argument("--overwrite", action="store_true", help="replace an existing FILE")
     _add_analysis_options(r)
     return p
+
+
+def _add_fft_options(a) -> None:
+    """FFT options of the commands that analyse records for their results (analyze, batch)."""
+    a.add_argument("--fft-wisdom", metavar="FILE",
+                   help="FFTW wisdom file: read when it exists, written back with the plans "
+                        "made (pays off with --fft-planning measure)")
+    a.add_argument("--fft-threads", type=int, default=1, metavar="N",
+                   help="FFTW threads per transform (default 1)")
 
 
 def _add_analysis_options(a) -> None:
@@ -338,8 +348,9 @@ def _cmd_analyze(args, out, err) -> int:
     record = read_record(args.record, columns=args.columns, sample_rate=options.sample_rate_hz)
     if record.opd_source() is None and options.mirror_speed_m_s is None:
         raise AnalysisError(_no_reference_message(record))
+    planner = _planner(args)
     try:
-        result = analyze(record, options)
+        result = analyze(record, options, planner=planner)
     except (AnalysisError, OptionError) as exc:
         # the stages do not know the file; name it, as every other message does (a message
         # about an option already starts with the option's name)
@@ -351,8 +362,28 @@ def _cmd_analyze(args, out, err) -> int:
     text = result_json(result) if args.json else format_summary(result) + "\n"
     if args.out is not None:
         write_outputs(result, args.out, overwrite=args.overwrite)
+    _save_wisdom(planner, args)
     out.write(text)
     return 0
+
+
+def _planner(args):
+    """The FFT planner of ``--fft-planning``, ``--fft-threads`` and ``--fft-wisdom`` (read when
+    the file exists)."""
+    import os
+
+    from ftsource.spectrum.transform import FFTPlanner
+
+    wisdom = None
+    if args.fft_wisdom is not None and os.path.exists(args.fft_wisdom):
+        wisdom = FFTPlanner.load_wisdom(args.fft_wisdom)
+    return FFTPlanner(effort=args.fft_planning, threads=args.fft_threads, wisdom=wisdom)
+
+
+def _save_wisdom(planner, args) -> None:
+    """Write ``--fft-wisdom`` back (atomically) with the plans made in this run."""
+    if args.fft_wisdom is not None:
+        planner.save_wisdom(args.fft_wisdom)
 
 
 def _parse_source(spec: str):
