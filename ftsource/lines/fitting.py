@@ -127,7 +127,7 @@ def _model_factory(spec: Spectrum, profile: str):
     def model(p, sig):
         q = p[3] if profile in ("gaussian", "voigt") else 0.0
         lor = p[-1] if profile in ("lorentzian", "voigt") else 0.0
-        return p[0] * shape.kernel_signed(sig - p[1], q, lor) / k00 + p[2]
+        return p[0] * shape.kernel_shifted(sig, p[1], q, lor) / k00 + p[2]
 
     return model
 

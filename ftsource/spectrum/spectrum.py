@@ -26,6 +26,8 @@ from ftsource.spectrum.apodization import get_apodization
 __all__ = ["LineShape", "Spectrum", "SweepSpectrum", "sweep_spectrum", "coadd", "reconvolve"]
 
 _LN2 = np.log(2.0)
+#: Largest trigonometric table (points × nodes) :meth:`LineShape.kernel_shifted` keeps.
+TABLE_LIMIT = 1 << 21
 
 
 def _gauss_legendre_01(n: int, cache: dict):
@@ -77,6 +79,68 @@ class LineShape:
         """
         return self._transform(delta_per_cm, q_gauss, l_lorentz, power=1)
 
+    def kernel_shifted(self, sigma_per_cm: np.ndarray, centre_per_cm: float, q_gauss: float,
+                       l_lorentz: float) -> np.ndarray:
+        """:meth:`kernel_signed` at ``sigma − centre``, fast when called again and again with
+        the same ``sigma`` (a line fit moves only the centre and the widths).
+
+        cos 2π(σ−c)x = cos 2πσx · cos 2πcx + sin 2πσx · sin 2πcx: the tables of cos 2πσx and
+        sin 2πσx over the quadrature nodes are made once for the window (kept in this object,
+        the last few windows only), so a call costs two matrix–vector products instead of
+        one cosine per node and point. The nodes span the whole [0, L] (no cut where a
+        decaying envelope ends), enough of them to follow the fastest oscillation; a window
+        too large for tables of :data:`TABLE_LIMIT` elements is computed as
+        :meth:`kernel_signed` computes it.
+        """
+        s = np.asarray(sigma_per_cm, dtype=float)
+        c = float(centre_per_cm)
+        if s.ndim != 1 or not s.size:
+            return self.kernel_signed(s - c, q_gauss, l_lorentz)
+        ref = float(s[s.size // 2])  # small arguments: reference the window's middle
+        d_max = float(np.max(np.abs(s - c)))
+        apo = get_apodization(self.apodization)
+        out = np.zeros(s.shape)
+        for L, w in self._groups().items():
+            n = 32 * ((64 + int(5 * L * d_max) + 31) // 32)  # 25 % above 2·(2 L d_max)
+            if n * s.size > TABLE_LIMIT:
+                return self.kernel_signed(s - c, q_gauss, l_lorentz)
+            x, wq, cos_t, sin_t = self._trig_table(s, ref, L, n)
+            env = np.ones_like(x)
+            if q_gauss:
+                env = env * np.exp(-(np.pi**2) * q_gauss * x**2 / (4 * _LN2))
+            if l_lorentz:
+                env = env * np.exp(-np.pi * l_lorentz * x)
+            f = apo(x / L) * env * wq * (2 * L)
+            ph = 2 * np.pi * (c - ref) * x
+            k = cos_t @ (f * np.cos(ph)) + sin_t @ (f * np.sin(ph))
+            out += w * (np.abs(k) if self.kind == "magnitude" else k)
+        return out
+
+    def _groups(self) -> dict[float, float]:
+        """Sweeps of the same span share a kernel: their weights added, by span."""
+        groups: dict[float, float] = {}
+        for L, w in zip(self.L_cm, self.weights, strict=False):
+            key = float(np.round(L, 9))
+            groups[key] = groups.get(key, 0.0) + w
+        return groups
+
+    def _trig_table(self, s, ref, L, n):
+        """Nodes, weights and the cos/sin tables of ``s − ref`` for span ``L`` with at least
+        ``n`` nodes (an existing table with more nodes serves too); the last four kept."""
+        tables = self._rules.setdefault("trig", {})
+        key = (s.size, ref, float(s[0]), float(s[-1]), L)
+        have = tables.get(key)
+        if have is not None and have[0] >= n and np.array_equal(have[1], s):
+            return have[2]
+        xi, wq = _gauss_legendre_01(n, self._rules)
+        x = xi * L
+        arg = 2 * np.pi * np.outer(s - ref, x)
+        entry = (x, wq, np.cos(arg), np.sin(arg))
+        if len(tables) >= 4:
+            tables.pop(next(iter(tables)))
+        tables[key] = (n, s.copy(), entry)
+        return entry
+
     def noise_correlation(self, delta_per_cm: np.ndarray) -> np.ndarray:
         """Correlation between spectral points ``delta`` apart for white interferogram noise:
         the transform of A², normalised to 1 at zero offset (Wiener–Khinchin)."""
@@ -88,12 +152,7 @@ class LineShape:
         apo = get_apodization(self.apodization)
         d = np.abs(np.asarray(delta, dtype=float))
         out = np.zeros(d.shape)
-        # sweeps of the same span share a kernel: add their weights first
-        groups: dict[float, float] = {}
-        for L, w in zip(self.L_cm, self.weights, strict=False):
-            key = float(np.round(L, 9))
-            groups[key] = groups.get(key, 0.0) + w
-        for L, w in groups.items():
+        for L, w in self._groups().items():
             # a decaying envelope ends the integrand long before L for a broad line
             x_end = L
             if q_gauss > 0:
