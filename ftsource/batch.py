@@ -142,14 +142,13 @@ def _empty_row(job: BatchJob, status: str, error: str) -> dict:
 def run_job(job: BatchJob) -> JobOutcome:
     """Analyse one record (in a worker); an error the record or options cause, or a bug,
     becomes a failed row with its one-line message — never an exception, never a lost row."""
+    import warnings
+
     from ftsource.analysis import analyze
+    from ftsource.errors import FtsourceWarning
     from ftsource.io.records import read_record
     from ftsource.report.text import output_payloads
     from ftsource.spectrum.transform import FFTPlanner
-
-    import warnings
-
-    from ftsource.errors import FtsourceWarning
 
     try:
         with warnings.catch_warnings():

@@ -21,14 +21,13 @@ from pathlib import Path
 import numpy as np
 import pytest
 from astropy.table import Table
+from cli_helpers import run, tree
 
 from ftsource import batch
 from ftsource import simulate as S
 from ftsource.analysis import AnalysisOptions
 from ftsource.errors import OptionError
 from ftsource.io.records import write_record_npz
-
-from cli_helpers import run, tree
 
 ROOT = Path(__file__).resolve().parent.parent
 REF = ["--reference-wavelength", "632.991nm", "--medium", "vacuum"]
