@@ -101,10 +101,17 @@ class LineShape:
         apo = get_apodization(self.apodization)
         out = np.zeros(s.shape)
         for L, w in self._groups().items():
-            n = 32 * ((64 + int(5 * L * d_max) + 31) // 32)  # 25 % above 2·(2 L d_max)
+            # a decaying envelope ends the integrand long before L for a broad line
+            x_need = L
+            if q_gauss > 0:
+                x_need = min(x_need, 3.0 / np.sqrt(q_gauss))  # exp(-(3π)²/4ln2) < 1e-13
+            if l_lorentz > 0:
+                x_need = min(x_need, 10.0 / l_lorentz)  # exp(-10π) < 1e-13
+            x_tab = min(L, 1.5 * x_need)  # room for the widths to shrink during a fit
+            n = 32 * ((64 + int(5 * x_tab * d_max) + 31) // 32)  # 25 % above 2·(2 x d_max)
             if n * s.size > TABLE_LIMIT:
                 return self.kernel_signed(s - c, q_gauss, l_lorentz)
-            x, wq, cos_t, sin_t = self._trig_table(s, ref, L, n)
+            x, wq, cos_t, sin_t = self._trig_table(s, ref, L, x_tab, x_need, n)
             env = np.ones_like(x)
             if q_gauss:
                 env = env * np.exp(-(np.pi**2) * q_gauss * x**2 / (4 * _LN2))
@@ -124,21 +131,25 @@ class LineShape:
             groups[key] = groups.get(key, 0.0) + w
         return groups
 
-    def _trig_table(self, s, ref, L, n):
-        """Nodes, weights and the cos/sin tables of ``s − ref`` for span ``L`` with at least
-        ``n`` nodes (an existing table with more nodes serves too); the last four kept."""
+    def _trig_table(self, s, ref, L, x_tab, x_need, n):
+        """Nodes over [0, ``x_tab``] (weights relative to ``L``) and the cos/sin tables of
+        ``s − ref``; an existing table that reaches ``x_need`` with enough nodes for its own
+        reach serves too. The last four are kept."""
         tables = self._rules.setdefault("trig", {})
         key = (s.size, ref, float(s[0]), float(s[-1]), L)
         have = tables.get(key)
-        if have is not None and have[0] >= n and np.array_equal(have[1], s):
-            return have[2]
+        if have is not None and np.array_equal(have[1], s):
+            x_have, n_have = have[2], have[0]
+            if x_have >= x_need and n_have >= n * x_have / x_tab:
+                return have[3]
         xi, wq = _gauss_legendre_01(n, self._rules)
-        x = xi * L
+        x = xi * x_tab
         arg = 2 * np.pi * np.outer(s - ref, x)
-        entry = (x, wq, np.cos(arg), np.sin(arg))
+        entry = (x, wq * (x_tab / L), np.cos(arg), np.sin(arg))
+        tables.pop(key, None)
         if len(tables) >= 4:
             tables.pop(next(iter(tables)))
-        tables[key] = (n, s.copy(), entry)
+        tables[key] = (n, s.copy(), x_tab, entry)
         return entry
 
     def noise_correlation(self, delta_per_cm: np.ndarray) -> np.ndarray:
