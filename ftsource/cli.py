@@ -115,6 +115,22 @@ def build_parser() -> argparse.ArgumentParser:
                         "nothing)")
     a.add_argument("--overwrite", action="store_true",
                    help="replace result files already in --out (default: refuse)")
+    _add_fft_options(a)
+
+    b = sub.add_parser("batch", help="analyse many records in parallel, one summary table",
+                       epilog=SAFETY_LINE)
+    b.add_argument("records", metavar="DIR|GLOB",
+                   help="a folder of records, or a pattern such as 'runs/*.npz' (quote it)")
+    b.add_argument("--out", metavar="DIR", required=True,
+                   help="write summary.ecsv and each record's results (DIR/<name>/) here (required)")
+    b.add_argument("--overwrite", action="store_true", help="replace result files already in --out (default: refuse)")
+    b.add_argument("--workers", type=int, metavar="N",
+                   help="worker processes (default: the number of CPUs; 1 runs in this process)")
+    b.add_argument("--scheduler", metavar="ADDRESS",
+                   help="run on this Dask distributed scheduler, e.g. tcp://10.0.0.5:8786 "
+                        "(needs the [dask] extra; default: a local process pool)")
+    _add_analysis_options(b)
+    _add_fft_options(b)
 
     s = sub.add_parser("simulate", help="make a record of a known source (planning, testing)",
                        epilog="Every record it writes is invented data. " + _HELP_EPILOG,
@@ -243,6 +259,15 @@ def build_parser() -> argparse.ArgumentParser:
                    help="replace an existing FILE (default: refuse)")
     _add_analysis_options(r)
     return p
+
+
+def _add_fft_options(a) -> None:
+    """FFT options of the commands that analyse records for their results (analyze, batch)."""
+    a.add_argument("--fft-wisdom", metavar="FILE",
+                   help="FFTW wisdom file: read when it exists, written back with the plans "
+                        "made (pays off with --fft-planning measure)")
+    a.add_argument("--fft-threads", type=int, default=1, metavar="N",
+                   help="FFTW threads per transform (default 1)")
 
 
 def _add_analysis_options(a) -> None:
@@ -496,8 +521,9 @@ def _cmd_analyze(args, out, err) -> int:
     record = read_record(args.record, columns=args.columns, sample_rate=options.sample_rate_hz)
     if record.opd_source() is None and options.mirror_speed_m_s is None:
         raise AnalysisError(_no_reference_message(record))
+    planner = _planner(args)
     try:
-        result = analyze(record, options)
+        result = analyze(record, options, planner=planner)
     except (AnalysisError, OptionError) as exc:
         # the stages do not know the file; name it, as every other message does (a message
         # about an option already starts with the option's name, spelled as its flag)
@@ -512,8 +538,87 @@ def _cmd_analyze(args, out, err) -> int:
     text = result_json(result) if args.json else format_summary(result) + "\n"
     if args.out is not None:
         write_outputs(result, args.out, overwrite=args.overwrite)
+    _save_wisdom(planner, args)
     out.write(text)
     return 0
+
+
+def _planner(args):
+    """The FFT planner of ``--fft-planning``, ``--fft-threads`` and ``--fft-wisdom`` (read when
+    the file exists)."""
+    import os
+
+    from ftsource.spectrum.transform import FFTPlanner
+
+    wisdom = None
+    if args.fft_wisdom is not None and os.path.exists(args.fft_wisdom):
+        wisdom = FFTPlanner.load_wisdom(args.fft_wisdom)
+    return FFTPlanner(effort=args.fft_planning, threads=args.fft_threads, wisdom=wisdom)
+
+
+def _save_wisdom(planner, args) -> None:
+    """Write ``--fft-wisdom`` back (atomically) with the plans made in this run."""
+    if args.fft_wisdom is not None:
+        planner.save_wisdom(args.fft_wisdom)
+
+
+def _cmd_batch(args, out, err) -> int:
+    import os
+
+    from ftsource import batch
+    from ftsource.errors import OptionError
+
+    if args.workers is not None and args.workers < 1:
+        raise OptionError(f"--workers {args.workers} is not allowed; give 1 or more")
+    if args.workers is not None and args.scheduler is not None:
+        raise OptionError("--workers and --scheduler exclude each other: the cluster's workers "
+                          "do the work")
+    options = _options(_analysis_defaults(args))
+    paths = batch.find_records(args.records)
+    planner = _planner(args)  # checks the FFT options and reads the wisdom once
+    jobs = batch.plan_jobs(
+        paths, options, columns=args.columns, sample_rate=args.sample_rate,
+        fft_planning=args.fft_planning, fft_threads=args.fft_threads,
+        wisdom=planner.export_wisdom() if args.fft_wisdom is not None else None,
+    )
+    workers = args.workers or min(len(jobs), os.cpu_count() or 1)
+    if args.scheduler is not None:
+        try:
+            from distributed import Client
+        except ImportError:
+            raise OptionError(
+                "--scheduler needs Dask distributed; install it with "
+                "pip install 'ftsource[dask]'"
+            ) from None
+        try:
+            client = Client(args.scheduler, timeout="10s")
+        except OSError as exc:
+            raise OptionError(
+                f"--scheduler {args.scheduler}: cannot reach the scheduler ({exc})"
+            ) from None
+        with client:
+            res = batch.run_batch(jobs, args.out, executor=client.get_executor(),
+                                  overwrite=args.overwrite, progress=err)
+    elif workers == 1:
+        res = batch.run_batch(jobs, args.out, overwrite=args.overwrite, progress=err)
+    else:
+        from concurrent.futures import ProcessPoolExecutor
+
+        with ProcessPoolExecutor(max_workers=workers,
+                                 initializer=batch.ignore_interrupts) as ex:
+            res = batch.run_batch(jobs, args.out, executor=ex, overwrite=args.overwrite,
+                                  progress=err)
+    for r in res.rows:
+        if r["status"] != "ok":
+            why = r["error"] if r["error"].startswith(r["record"]) else (
+                f"{r['record']}: {r['error']}")
+            out.write(f"{r['status']}: {why}\n")
+    n = len(res.rows)
+    out.write(f"batch: {n} record(s), {n - res.n_failed} analysed, {res.n_failed} not; "
+              f"summary in {os.path.join(args.out, 'summary.ecsv')}\n")
+    if res.interrupted:
+        raise KeyboardInterrupt
+    return 1 if res.n_failed else 0
 
 
 def _parse_source(spec: str):
@@ -931,6 +1036,7 @@ def main(argv=None) -> int:
         return 0
     handler = {
         "analyze": _cmd_analyze,
+        "batch": _cmd_batch,
         "simulate": _cmd_simulate,
         "demo": _cmd_demo,
         "lines": _cmd_lines,

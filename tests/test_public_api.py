@@ -43,7 +43,7 @@ def test_unknown_name_raises_attribute_error():
 LIGHT_COMMANDS = [
     ["--help"], ["--version"],
     *([cmd, "--help"] for cmd in
-      ("analyze", "simulate", "demo", "lines", "calibrate", "response")),
+      ("analyze", "simulate", "demo", "lines", "calibrate", "response", "batch")),
 ]
 
 # Runs ftsource.cli.main in a fresh interpreter and prints, as JSON, its status and the modules

@@ -520,3 +520,36 @@ def test_candidate_is_frozen():
     c = identify(632.9915, 0.0001)[0]
     with pytest.raises(AttributeError):
         c.species = "x"
+
+
+def test_fast_reader_gives_astropys_table():
+    """load_line_list reads the bundled ECSV files with PyYAML's C loader and the csv module;
+    astropy's ECSV reader (a general-purpose library) is the oracle: the same columns, types,
+    units, descriptions, formats, masks, values and meta for every bundled list."""
+    import numpy as np
+    from astropy.table import Table
+
+    from ftsource.linelists import _data_folder, _read_ecsv, line_list_names
+
+    for name in line_list_names():
+        path = _data_folder() / (name + ".ecsv")
+        want, got = Table.read(path, format="ascii.ecsv"), _read_ecsv(path)
+        assert got is not None, name
+        assert got.colnames == want.colnames and got.meta == want.meta, name
+        for c in want.colnames:
+            a, b = want[c], got[c]
+            assert (type(a), a.dtype, a.unit, a.description, a.format) == (
+                type(b), b.dtype, b.unit, b.description, b.format), (name, c)
+            assert np.array_equal(np.ma.getmaskarray(a), np.ma.getmaskarray(b)), (name, c)
+            fa, fb = np.ma.filled(a, a.dtype.type()), np.ma.filled(b, b.dtype.type())
+            assert np.array_equal(fa, fb, equal_nan=a.dtype.kind == "f"), (name, c)
+
+
+def test_fast_reader_declines_other_forms(tmp_path):
+    from ftsource.linelists import _read_ecsv
+
+    p = tmp_path / "x.ecsv"
+    p.write_text("# %ECSV 1.0\n# ---\n# datatype:\n# - {name: a, datatype: complex128}\na\n1j\n")
+    assert _read_ecsv(p) is None  # astropy's reader takes over
+    p.write_text("a,b\n1,2\n")
+    assert _read_ecsv(p) is None

@@ -38,11 +38,11 @@ def test_plans_cached_per_length():
     planner = FFTPlanner()
     a = np.random.default_rng(2).normal(size=100)
     planner.rfft(a, 256)
-    plan = planner._plans[256]
+    plan = planner._plans[(256, 1)]
     planner.rfft(a[:50], 256)
     planner.rfft(a, 128)
     assert planner.cached_lengths == (128, 256)
-    assert planner._plans[256] is plan  # reused, not re-planned
+    assert planner._plans[(256, 1)] is plan  # reused, not re-planned
 
 
 def test_results_are_independent_arrays():
@@ -96,3 +96,48 @@ def test_wisdom_round_trip():
 def test_next_fft_length(n, expected):
     # closed form: the smallest power of two ≥ n
     assert next_fft_length(n) == expected
+
+
+def test_plans_cached_per_thread_count():
+    planner = FFTPlanner()
+    a = np.random.default_rng(7).normal(size=256)
+    one = planner.rfft(a)
+    two = planner.rfft(a, threads=2)
+    assert set(planner._plans) == {(256, 1), (256, 2)}
+    assert planner.cached_lengths == (256,)
+    # closed reference: numpy.fft (general-purpose library)
+    assert _rel_err(one, np.fft.rfft(a)) < 1e-12 and _rel_err(two, np.fft.rfft(a)) < 1e-12
+
+
+@pytest.mark.parametrize("bad", [0, -1, 1.5, True])
+def test_bad_thread_count_raises(bad):
+    with pytest.raises(OptionError, match="threads"):
+        FFTPlanner(threads=bad)
+
+
+def test_numpy_backend_equals_pyfftw():
+    a = np.random.default_rng(8).normal(size=1000)
+    fallback = FFTPlanner(backend="numpy")
+    assert fallback.backend == "numpy" and fallback.export_wisdom() is None
+    assert FFTPlanner().backend == "pyfftw"
+    # numpy.fft is the reference (general-purpose library)
+    assert _rel_err(fallback.rfft(a, 1024), FFTPlanner().rfft(a, 1024)) < 1e-12
+
+
+def test_wisdom_file_round_trip(tmp_path):
+    p1 = FFTPlanner()
+    p1.rfft(np.ones(48))
+    f = tmp_path / "fft.wisdom"
+    p1.save_wisdom(f)
+    wisdom = FFTPlanner.load_wisdom(f)
+    assert wisdom == p1.export_wisdom()
+    a = np.random.default_rng(9).normal(size=48)
+    assert _rel_err(FFTPlanner(wisdom=wisdom).rfft(a), np.fft.rfft(a)) < 1e-12
+    assert list(tmp_path.iterdir()) == [f]  # no temporary file left
+
+
+def test_not_a_wisdom_file_raises(tmp_path):
+    f = tmp_path / "x.wisdom"
+    f.write_text("hello\n")
+    with pytest.raises(OptionError, match="wisdom"):
+        FFTPlanner.load_wisdom(f)

@@ -18,7 +18,7 @@ Kernel units: OPD in cm, time in s.
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import numpy as np
 
@@ -40,6 +40,11 @@ __all__ = [
 
 #: Reference amplitude below this fraction of the record's median counts as a dropout.
 DROPOUT_LEVEL = 0.3
+#: Ellipses are fitted on at most about this many samples, strided evenly over the stretch.
+ELLIPSE_FIT_SAMPLES = 1 << 14
+#: A sweep's own ellipse fit replaces the record's when it moves the phase by more than this
+#: (rad): 1e-4 rad is 1e-5 of a fringe, far below what any sweep's scale can show.
+REFIT_PHASE_TOLERANCE = 1e-4
 #: Sweeps shorter than this many reference fringes are not used.
 MIN_SWEEP_FRINGES = 32
 #: A single-channel stretch whose analytic-signal envelope varies more than this (standard
@@ -188,17 +193,6 @@ def _odd(n: float, lo: int = 5) -> int:
     return n if n % 2 else n + 1
 
 
-def _smooth_phase(phi: np.ndarray, samples_per_fringe: float) -> np.ndarray:
-    """Savitzky–Golay smoothing (cubic) over about one fringe: keeps the mirror motion, removes
-    most of the periodic (2×fringe) error and the noise of the phase measurement."""
-    from scipy.signal import savgol_filter
-
-    w = _odd(min(samples_per_fringe, 64))
-    if phi.size <= w or w < 5:
-        return phi
-    return savgol_filter(phi, w, 3, mode="interp")
-
-
 def _split_sweeps(
     x: np.ndarray,
     seg_runs: list[tuple[int, int]],
@@ -268,7 +262,7 @@ def _check_sweeps(sweeps, kind):
 
 
 def _segments_from_amplitude(amp: np.ndarray, min_len: int) -> tuple[np.ndarray, list]:
-    med = np.median(amp)
+    med = np.median(amp[:: max(1, amp.size // (1 << 16))])  # a strided subset suffices
     if not med > 0:
         return np.zeros(amp.shape, bool), []
     ok = amp > DROPOUT_LEVEL * med
@@ -308,6 +302,16 @@ def _bridge_turnarounds(mx, mn, amp, zc, period):
     return mx, mn, amp
 
 
+def _samples_per_fringe_runs(phase: np.ndarray, runs, limit: int = 1 << 16) -> float:
+    """:func:`_samples_per_fringe` from at most about ``limit`` steps strided over the runs."""
+    total = sum(b - a - 1 for a, b in runs)
+    if total < 2:
+        return np.inf
+    stride = max(1, total // limit)
+    steps = [phase[a + 1 : b : stride] - phase[a : b - 1 : stride] for a, b in runs if b - a > 1]
+    return _samples_per_fringe(np.concatenate(steps))
+
+
 def _samples_per_fringe(phase_step: np.ndarray) -> float:
     step = np.median(np.abs(phase_step))
     return float(2 * np.pi / step) if step > 0 else np.inf
@@ -315,6 +319,126 @@ def _samples_per_fringe(phase_step: np.ndarray) -> float:
 
 # --------------------------------------------------------------------------------------------
 # public stages
+
+
+def _fit_subset(i: np.ndarray, q: np.ndarray, limit: int = ELLIPSE_FIT_SAMPLES) -> EllipseFit:
+    """:func:`fit_ellipse` on at most about ``limit`` samples spread evenly over the stretch.
+
+    Five parameters are fixed far better by 10⁵ points than the noise of any one of them
+    matters (their statistical error falls as 1/√n); a strided subset of a scan covers every
+    fringe phase because the mirror speed varies."""
+    step = max(1, i.size // limit)
+    return fit_ellipse(i[::step], q[::step])
+
+
+def _phase_kernel(i: np.ndarray, q: np.ndarray, fit: EllipseFit) -> np.ndarray:
+    """Wrapped phase after the Heydemann correction, in few passes over the samples.
+
+    ``arctan2`` does not change when both arguments are scaled by the same positive factor,
+    so ``arctan2(s, c)`` with the corrected ``c``, ``s`` of :func:`ellipse_phase` is computed
+    as ``arctan2((q − q0) − (i − p)·b·sin α/a, (i − p)·b·cos α/a)`` (cos α > 0)."""
+    u = np.subtract(i, fit.p)
+    y = np.subtract(q, fit.q)
+    y -= u * (fit.b * np.sin(fit.alpha) / fit.a)
+    u *= fit.b * np.cos(fit.alpha) / fit.a
+    return np.arctan2(y, u, out=y)
+
+
+def _phase_change_bound(a: EllipseFit, b: EllipseFit) -> float:
+    """Upper bound (rad, to first order) of the change of the corrected phase between two
+    ellipse fits: each parameter's relative change moves the phase by at most that much
+    (offsets over their amplitude, amplitudes relative, the angle α in radians)."""
+    return (abs(a.p - b.p) / min(a.a, b.a) + abs(a.q - b.q) / min(a.b, b.b)
+            + abs(a.a - b.a) / min(a.a, b.a) + abs(a.b - b.b) / min(a.b, b.b)
+            + abs(a.alpha - b.alpha))
+
+
+def _wrapped_steps(phi: np.ndarray) -> np.ndarray:
+    """Phase steps between samples wrapped into [−π, π)."""
+    d = np.diff(phi)
+    k = np.multiply(d, 1 / (2 * np.pi))
+    np.round(k, out=k)
+    k *= 2 * np.pi
+    d -= k
+    return d
+
+
+def _unwrapped(phi0: float, d: np.ndarray) -> np.ndarray:
+    """Cumulative phase from a start value and the wrapped steps (numpy.unwrap in 3 passes)."""
+    out = np.empty(d.size + 1)
+    out[0] = phi0
+    np.cumsum(d, out=out[1:])
+    out[1:] += phi0
+    return out
+
+
+def _slip_steps(d: np.ndarray) -> np.ndarray:
+    """Indices of steps that may hide a fringe-count slip.
+
+    A step beyond 0.6π, or one more than 0.2π away from the median of the five steps around
+    it (lost samples: the mirror's step between samples changes smoothly). The median test
+    runs only where a step differs by more than 0.2π from a neighbour within two samples
+    (a necessary condition: the median is one of the five steps), so clean stretches cost a
+    few comparisons per sample."""
+    lim = 0.2 * np.pi
+    cand = np.zeros(d.size, bool)
+    for k in (1, 2):
+        jump = np.abs(d[k:] - d[:-k]) > lim
+        cand[k:] |= jump
+        cand[:-k] |= jump
+    bad = np.abs(d) > 0.6 * np.pi
+    idx = np.flatnonzero(cand)
+    if idx.size:
+        pad = np.pad(d, 2, mode="edge")  # the "nearest" edge rule of a median filter
+        win = pad[idx[:, None] + np.arange(5)]
+        dev = d[idx] - np.median(win, axis=1)
+        bad[idx[np.abs(dev) > lim]] = True
+    return np.flatnonzero(bad)
+
+
+def _savgol_cubic(x: np.ndarray, window: int) -> np.ndarray:
+    """Cubic Savitzky–Golay smoothing over ``window`` (odd) samples; at each end the cubic
+    fitted to the first/last window is evaluated (scipy's ``mode="interp"``).
+
+    References
+    ----------
+    .. [1] A. Savitzky and M. J. E. Golay, Anal. Chem. 36, 1627–1639 (1964).
+    """
+    h = window // 2
+    t = np.arange(-h, h + 1, dtype=float)
+    v = np.vander(t, 4, increasing=True)
+    coef = np.linalg.pinv(v)[0]  # value of the fitted cubic at the centre
+    out = np.convolve(x, coef[::-1], mode="same")
+    for sl, ev in ((slice(0, window), t[:h] + h), (slice(-window, None), t[h + 1 :] + h)):
+        seg = x[sl]
+        p = np.polynomial.polynomial.polyfit(np.arange(window, dtype=float), seg - seg[h], 3)
+        vals = np.polynomial.polynomial.polyval(ev, p) + seg[h]
+        if sl.start == 0:
+            out[:h] = vals
+        else:
+            out[-h:] = vals
+    return out
+
+
+def _decimated_sweeps(x, seg_runs, fs, lam_cm, step):
+    """:func:`_split_sweeps` on every ``step``-th sample (turnarounds are slow: the 1 ms
+    velocity smoothing spans many decimated samples), mapped back to sample indices within
+    each run."""
+    if step <= 1:
+        return _split_sweeps(x, seg_runs, fs, lam_cm)
+    xd = x[::step]
+    runs_d, ids = [], []
+    for k, (a, b) in enumerate(seg_runs):
+        a_d, b_d = -(-a // step), -(-b // step)
+        if b_d - a_d >= 16:
+            runs_d.append((a_d, b_d))
+            ids.append(k)
+    coarse = _split_sweeps(xd, runs_d, fs / step, lam_cm, segment_ids=ids)
+    return [
+        replace(sw, start=max(sw.start * step, seg_runs[sw.segment][0]),
+                stop=min((sw.stop - 1) * step + 1, seg_runs[sw.segment][1]))
+        for sw in coarse
+    ]
 
 
 def opd_from_quadrature(
@@ -333,6 +457,11 @@ def opd_from_quadrature(
     splits the record, so the OPD scale is never silently changed. Each sweep gets
     its own ellipse fit; the fit residual is reported.
 
+    Cost: each ellipse is fitted on an evenly strided subset of at most
+    :data:`ELLIPSE_FIT_SAMPLES` samples, the phase is one ``arctan2`` per sample per pass
+    and the unwrapping a cumulative sum; the slow parts (dropout screen, sweep splitting)
+    run on a decimated copy.
+
     References
     ----------
     .. [1] P. L. M. Heydemann, Appl. Opt. 20, 3382 (1981).
@@ -342,20 +471,22 @@ def opd_from_quadrature(
     lam_cm = reference_wavelength_nm * 1e-7
     warnings: list[str] = []
     n = i.size
-    # rough normalisation for the dropout test
-    ci, cq = np.percentile(i, [1, 99]), np.percentile(q, [1, 99])
+    # rough normalisation for the dropout test (percentiles of a strided subset)
+    step = max(1, n // ELLIPSE_FIT_SAMPLES)
+    ci, cq = np.percentile(i[::step], [1, 99]), np.percentile(q[::step], [1, 99])
     ai, aq = (ci[1] - ci[0]) / 2, (cq[1] - cq[0]) / 2
     if not (ai > 0 and aq > 0):
         raise AnalysisError("the reference channels carry no fringes (constant signal)")
-    from scipy.ndimage import median_filter, uniform_filter1d
+    from scipy.ndimage import uniform_filter1d
 
     r = np.hypot((i - ci.mean()) / ai, (q - cq.mean()) / aq)
-    r_s = uniform_filter1d(r, 16)
+    r_s = uniform_filter1d(r, 16, output=r)
     ok, runs = _segments_from_amplitude(r_s, 64)
     runs = _trim_runs(runs, 32, n)  # the radius is smoothed over 16 samples: keep clear of edges
     if not runs:
         raise AnalysisError("no fringes found on the quadrature reference channels")
-    fit0 = fit_ellipse(i[ok], q[ok])
+    ok_idx = np.flatnonzero(ok[:: max(1, step // 4)]) * max(1, step // 4)
+    fit0 = _fit_subset(i[ok_idx], q[ok_idx], ELLIPSE_FIT_SAMPLES)
     if fit0.residual > 0.2:
         # The dropout test above compares with the median radius, so it is blind when the
         # reference is dark for more than half the record: measure the dark share against the
@@ -376,19 +507,24 @@ def opd_from_quadrature(
             "the quadrature reference channels do not trace a clean ellipse "
             f"(RMS residual {fit0.residual:.2f}); check that ref_i and ref_q see the same fringes"
         )
-    phi_w = ellipse_phase(i, q, fit0)
+    del r, r_s
+    phi_w = _phase_kernel(i, q, fit0)
     # split at possible slips: wrapped step too large
     seg_runs: list[tuple[int, int]] = []
+    x = np.full(n, np.nan)
     slips = 0
     for a, b in runs:
-        d = np.angle(np.exp(1j * np.diff(phi_w[a:b])))
+        d = _wrapped_steps(phi_w[a:b])
         # a slip is a step too large to unwrap, or one far from its neighbours' steps (lost
         # samples: the mirror's step between two samples changes smoothly)
-        dev = d - median_filter(d, 5, mode="nearest")
-        bad = np.flatnonzero((np.abs(d) > 0.6 * np.pi) | (np.abs(dev) > 0.2 * np.pi))
+        bad = _slip_steps(d)
         slips += bad.size
         edges = [a] + [a + k + 1 for k in bad] + [b]
-        seg_runs += [(s, e) for s, e in zip(edges[:-1], edges[1:], strict=False) if e - s >= 64]
+        for s, e in zip(edges[:-1], edges[1:], strict=False):
+            if e - s >= 64:
+                seg_runs.append((s, e))
+                x[s:e] = _unwrapped(phi_w[s], d[s - a : e - a - 1])
+    del phi_w
     if slips:
         warnings.append(
             f"{slips} possible fringe-count slip(s) on the reference (phase steps above 0.6π "
@@ -396,34 +532,41 @@ def opd_from_quadrature(
             "instead of trusting the count. Sample faster or move the mirror slower, and check "
             "for lost samples."
         )
-    x = np.full(n, np.nan)
-    for a, b in seg_runs:
-        x[a:b] = np.unwrap(phi_w[a:b])
-    spf = _samples_per_fringe(np.diff(x[np.isfinite(x)])) if np.isfinite(x).sum() > 2 else np.inf
+    spf = _samples_per_fringe_runs(x, seg_runs)
     if spf < 4:
         warnings.append(
             f"the reference fringes are sampled only {spf:.1f} times per fringe: sample faster "
             "than 4 samples per reference fringe for a reliable path"
         )
     x *= lam_cm / (2 * np.pi)
-    sweeps = _split_sweeps(x, seg_runs, sample_rate_hz, lam_cm)
+    dec = max(1, int(sample_rate_hz * 1e-4))  # ten decimated samples per millisecond
+    sweeps = _decimated_sweeps(x, seg_runs, sample_rate_hz, lam_cm, dec)
     _check_sweeps(sweeps, OpdKind.QUADRATURE)
     # refine: one ellipse fit per sweep, phase kept continuous with the first pass
     residuals = []
+    to_phase = 2 * np.pi / lam_cm
     for sw in sweeps:
         sl = slice(sw.start, sw.stop)
         try:
-            fit = fit_ellipse(i[sl], q[sl])
+            fit = _fit_subset(i[sl], q[sl])
         except AnalysisError:
             continue
         residuals.append(fit.residual)
-        ph = np.unwrap(ellipse_phase(i[sl], q[sl], fit))
-        old = x[sl] * 2 * np.pi / lam_cm
-        ph += 2 * np.pi * np.round(np.mean(old - ph) / (2 * np.pi))
-        x[sl] = ph * lam_cm / (2 * np.pi)
+        if _phase_change_bound(fit0, fit) < REFIT_PHASE_TOLERANCE:
+            continue  # the first pass's phase is already this fit's
+        ph = _phase_kernel(i[sl], q[sl], fit)
+        ph = _unwrapped(ph[0], _wrapped_steps(ph))
+        old = x[sl]
+        ph += 2 * np.pi * np.round(np.mean(old[:: max(1, old.size // 4096)] * to_phase
+                                           - ph[:: max(1, old.size // 4096)]) / (2 * np.pi))
+        ph *= 1 / to_phase
+        x[sl] = ph
     if smooth:
-        for a, b in seg_runs:
-            x[a:b] = _smooth_phase(x[a:b], spf)
+        w = _odd(min(spf, 64))
+        if w >= 5:
+            for a, b in seg_runs:
+                if b - a > w:
+                    x[a:b] = _savgol_cubic(x[a:b], w)
     return OpticalPath(
         opd_cm=x,
         kind=OpdKind.QUADRATURE,

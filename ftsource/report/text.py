@@ -324,9 +324,20 @@ def write_outputs(result, out_dir, *, overwrite: bool = False) -> list[Path]:
         ``out_dir`` is not a directory, a file exists and ``overwrite`` is False, or a write
         fails. Nothing is left written unless every file could be.
     """
+    return write_payloads(output_payloads(result), out_dir, overwrite=overwrite)
+
+
+def output_payloads(result) -> list[bytes]:
+    """The bytes of ``result.json`` and ``spectrum.ecsv`` for a result, in that order (what
+    :func:`write_outputs` writes; a batch worker returns them to the process that writes)."""
+    return [result_json(result).encode(), _spectrum_ecsv(result)]
+
+
+def write_payloads(payloads, out_dir, *, overwrite: bool = False) -> list[Path]:
+    """Write the bytes of :func:`output_payloads` into ``out_dir``, all or nothing, as
+    :func:`write_outputs` describes."""
     out, targets = _targets(out_dir)
     check_outputs(out, overwrite=overwrite)
-    payloads = [result_json(result).encode(), _spectrum_ecsv(result)]
     created: list[Path] = []
     temps: list[str] = []
     backups: dict[Path, str | None] = {}

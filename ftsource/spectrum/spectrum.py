@@ -29,6 +29,8 @@ __all__ = [
 ]
 
 _LN2 = np.log(2.0)
+#: Largest trigonometric table (points × nodes) :meth:`LineShape.kernel_shifted` keeps.
+TABLE_LIMIT = 1 << 21
 
 
 def _gauss_legendre_01(n: int, cache: dict):
@@ -80,6 +82,79 @@ class LineShape:
         """
         return self._transform(delta_per_cm, q_gauss, l_lorentz, power=1)
 
+    def kernel_shifted(self, sigma_per_cm: np.ndarray, centre_per_cm: float, q_gauss: float,
+                       l_lorentz: float) -> np.ndarray:
+        """:meth:`kernel_signed` at ``sigma − centre``, fast when called again and again with
+        the same ``sigma`` (a line fit moves only the centre and the widths).
+
+        cos 2π(σ−c)x = cos 2πσx · cos 2πcx + sin 2πσx · sin 2πcx: the tables of cos 2πσx and
+        sin 2πσx over the quadrature nodes are made once for the window (kept in this object,
+        the last few windows only), so a call costs two matrix–vector products instead of
+        one cosine per node and point. The nodes span the whole [0, L] (no cut where a
+        decaying envelope ends), enough of them to follow the fastest oscillation; a window
+        too large for tables of :data:`TABLE_LIMIT` elements is computed as
+        :meth:`kernel_signed` computes it.
+        """
+        s = np.asarray(sigma_per_cm, dtype=float)
+        c = float(centre_per_cm)
+        if s.ndim != 1 or not s.size:
+            return self.kernel_signed(s - c, q_gauss, l_lorentz)
+        ref = float(s[s.size // 2])  # small arguments: reference the window's middle
+        d_max = float(np.max(np.abs(s - c)))
+        apo = get_apodization(self.apodization)
+        out = np.zeros(s.shape)
+        for L, w in self._groups().items():
+            # a decaying envelope ends the integrand long before L for a broad line
+            x_need = L
+            if q_gauss > 0:
+                x_need = min(x_need, 3.0 / np.sqrt(q_gauss))  # exp(-(3π)²/4ln2) < 1e-13
+            if l_lorentz > 0:
+                x_need = min(x_need, 10.0 / l_lorentz)  # exp(-10π) < 1e-13
+            x_tab = min(L, 1.5 * x_need)  # room for the widths to shrink during a fit
+            n = 32 * ((64 + int(5 * x_tab * d_max) + 31) // 32)  # 25 % above 2·(2 x d_max)
+            if n * s.size > TABLE_LIMIT:
+                return self.kernel_signed(s - c, q_gauss, l_lorentz)
+            x, wq, cos_t, sin_t = self._trig_table(s, ref, L, x_tab, x_need, n)
+            env = np.ones_like(x)
+            if q_gauss:
+                env = env * np.exp(-(np.pi**2) * q_gauss * x**2 / (4 * _LN2))
+            if l_lorentz:
+                env = env * np.exp(-np.pi * l_lorentz * x)
+            f = apo(x / L) * env * wq * (2 * L)
+            ph = 2 * np.pi * (c - ref) * x
+            k = cos_t @ (f * np.cos(ph)) + sin_t @ (f * np.sin(ph))
+            out += w * (np.abs(k) if self.kind == "magnitude" else k)
+        return out
+
+    def _groups(self) -> dict[float, float]:
+        """Sweeps of the same span share a kernel: their weights added, by span."""
+        groups: dict[float, float] = {}
+        for L, w in zip(self.L_cm, self.weights, strict=False):
+            key = float(np.round(L, 9))
+            groups[key] = groups.get(key, 0.0) + w
+        return groups
+
+    def _trig_table(self, s, ref, L, x_tab, x_need, n):
+        """Nodes over [0, ``x_tab``] (weights relative to ``L``) and the cos/sin tables of
+        ``s − ref``; an existing table that reaches ``x_need`` with enough nodes for its own
+        reach serves too. The last four are kept."""
+        tables = self._rules.setdefault("trig", {})
+        key = (s.size, ref, float(s[0]), float(s[-1]), L)
+        have = tables.get(key)
+        if have is not None and np.array_equal(have[1], s):
+            x_have, n_have = have[2], have[0]
+            if x_have >= x_need and n_have >= n * x_have / x_tab:
+                return have[3]
+        xi, wq = _gauss_legendre_01(n, self._rules)
+        x = xi * x_tab
+        arg = 2 * np.pi * np.outer(s - ref, x)
+        entry = (x, wq * (x_tab / L), np.cos(arg), np.sin(arg))
+        tables.pop(key, None)
+        if len(tables) >= 4:
+            tables.pop(next(iter(tables)))
+        tables[key] = (n, s.copy(), x_tab, entry)
+        return entry
+
     def noise_correlation(self, delta_per_cm: np.ndarray) -> np.ndarray:
         """Correlation between spectral points ``delta`` apart for white interferogram noise:
         the transform of A², normalised to 1 at zero offset (Wiener–Khinchin)."""
@@ -91,12 +166,7 @@ class LineShape:
         apo = get_apodization(self.apodization)
         d = np.abs(np.asarray(delta, dtype=float))
         out = np.zeros(d.shape)
-        # sweeps of the same span share a kernel: add their weights first
-        groups: dict[float, float] = {}
-        for L, w in zip(self.L_cm, self.weights, strict=False):
-            key = float(np.round(L, 9))
-            groups[key] = groups.get(key, 0.0) + w
-        for L, w in groups.items():
+        for L, w in self._groups().items():
             # a decaying envelope ends the integrand long before L for a broad line
             x_end = L
             if q_gauss > 0:
@@ -420,7 +490,7 @@ def coadd(
 ) -> Spectrum:
     """Mean of sweep spectra on the same grid, with a noise estimate.
 
-    The noise is each sweep's robust noise level (:func:`_noise_floor`: most of the grid lies
+    The noise is each sweep's robust noise level (:func:`_noise_level`: most of the grid lies
     outside the source's band and holds only noise) combined for the mean. Noise that grows
     with the signal is not in it; line fits scale their uncertainties by their residuals.
     """
@@ -433,8 +503,8 @@ def coadd(
     kind = "magnitude" if methods == {"magnitude"} else "real"
     # each sweep's own noise level (its spectrum is noise over most of the grid); sweeps of
     # different span have different line shapes, so their scatter at a line is not noise
-    floors = np.array([_noise_floor(s) for s in sweep_spectra])
-    noise = np.sqrt(np.sum(floors**2, axis=0)) / n
+    floors = np.array([_noise_level(s) for s in sweep_spectra])
+    noise = np.full(mean.shape, np.sqrt(np.sum(floors**2)) / n)
     L = tuple(float(s.L_cm) for s in sweep_spectra)
     w = tuple(1.0 / n for _ in sweep_spectra)
     shape = LineShape(apodization, L, w, kind)
@@ -443,8 +513,21 @@ def coadd(
                     tuple(sweep_spectra))
 
 
-def _noise_floor(s: SweepSpectrum, block: int = 1024) -> np.ndarray:
-    """Noise standard deviation of one sweep's spectrum, from blocks of points.
+def _block_medians(v: np.ndarray, edges: np.ndarray, *, spread: bool = False) -> np.ndarray:
+    """Median of each block ``v[edges[k]:edges[k+1]]`` (blocks of at most two sizes, as
+    ``numpy.linspace`` edges give), one vectorised median per block size; with ``spread`` the
+    medians are returned spread over the samples of their blocks."""
+    starts, sizes = edges[:-1], np.diff(edges)
+    med = np.empty(starts.size)
+    for size in np.unique(sizes):
+        sel = sizes == size
+        med[sel] = np.median(v[starts[sel, None] + np.arange(size)], axis=1)
+    return np.repeat(med, sizes) if spread else med
+
+
+def _noise_level(s: SweepSpectrum, block: int = 1024) -> float:
+    """Noise standard deviation of one sweep's spectrum (one value: white noise is flat in
+    wavenumber), from blocks of points.
 
     In each block of a phase-corrected spectrum the robust spread is 1.4826 × the median
     absolute deviation (Gaussian noise); a magnitude spectrum is Rayleigh distributed where
@@ -459,16 +542,14 @@ def _noise_floor(s: SweepSpectrum, block: int = 1024) -> np.ndarray:
     edges = np.linspace(0, v.size, nb + 1).astype(int)
     if s.method != "magnitude":
         # deviations about each block's median (a broad source lifts a whole block)
-        med = np.array([np.median(np.abs(s.values[a:b] - np.median(s.values[a:b])))
-                        for a, b in zip(edges[:-1], edges[1:], strict=False)]) * scale
+        med = _block_medians(np.abs(s.values - _block_medians(s.values, edges, spread=True)),
+                             edges) * scale
     else:
-        med = np.array(
-            [np.median(v[a:b]) for a, b in zip(edges[:-1], edges[1:], strict=True)]
-        ) * scale
+        med = _block_medians(v, edges) * scale
     # white interferogram noise is flat in wavenumber: the median over blocks is robust to the
     # blocks a source occupies
     level = float(np.median(med))
-    return np.full(v.size, max(level, np.finfo(float).tiny))
+    return max(level, np.finfo(float).tiny)
 
 
 def reconvolve(spectrum: Spectrum, band_per_cm: tuple[float, float], *,
