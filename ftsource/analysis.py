@@ -317,7 +317,7 @@ def analyze(record, options: AnalysisOptions | None = None, *, planner=None):
     OptionError
         For missing or inconsistent options (e.g. no reference wavelength).
     """
-    from ftsource.interferogram import resample
+    from ftsource.interferogram import channels, resample
     from ftsource.lines import fitting as lines_mod
     from ftsource.result import Result
     from ftsource.safety import green_pointer_warning
@@ -353,6 +353,11 @@ def analyze(record, options: AnalysisOptions | None = None, *, planner=None):
             reference_uncertainty_ppm=options.reference_uncertainty_nm / lam_ref * 1e6,
         )
     lam_ref, options = _apply_calibration(kind, lam_ref, options, notes)
+    # refuse at once what cannot give a spectrum (a dead source channel, an undersampled
+    # reference) rather than after the whole chain
+    channels.check_signal_channel(record.columns["signal"])
+    if kind in ("quadrature", "single"):
+        channels.check_reference_sampling(record.columns, kind, fs, lam_ref)
     path = _optical_path(record, options, fs, lam_ref or 632.991, notes)
     for w in path.warnings:
         notes.add(w)
@@ -363,11 +368,6 @@ def analyze(record, options: AnalysisOptions | None = None, *, planner=None):
     else:
         beta = options.bandwidth_fraction or resample.BANDWIDTH_FRACTION_ADC
     limits = resample.sampling_limits(path, fs, lam_ref or 632.991, bandwidth_fraction=beta)
-    if limits.samples_per_reference_fringe < 4 and kind in ("quadrature", "single"):
-        notes.add(
-            f"only {limits.samples_per_reference_fringe:.1f} samples per reference fringe at the "
-            "fastest mirror speed: sample faster or scan slower (at least 4 per fringe)"
-        )
     signal = record.columns["signal"]
     ifgs = resample.resample_sweeps(signal, path, limits.dx_cm)
     delay = _channel_delay(ifgs, path, fs, kind, notes)

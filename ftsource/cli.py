@@ -52,6 +52,10 @@ def build_parser() -> argparse.ArgumentParser:
     a.add_argument("--json", action="store_true", help="print the result JSON")
     a.add_argument("--out", metavar="DIR", help="write result.json and spectrum.ecsv into DIR")
     a.add_argument("--overwrite", action="store_true", help="replace files in --out")
+    a.add_argument(
+        "--strict", action="store_true",
+        help="exit with status 1 (after writing the result) when no source line is found",
+    )
 
     s = sub.add_parser("simulate", help="make a record of a known source (planning, testing)")
     s.add_argument("out", help="output record: .csv, .npz or .wav")
@@ -352,6 +356,12 @@ def _cmd_analyze(args, out, err) -> int:
     if args.out is not None:
         write_outputs(result, args.out, overwrite=args.overwrite)
     out.write(text)
+    if args.strict and not any(ln["flag"] is None for ln in result.to_dict()["lines"]):
+        err.write(
+            "error: no source found (--strict): no spectral line stands above the noise; check "
+            "that the source reaches the detector, its gain and the column mapping\n"
+        )
+        return 1
     return 0
 
 
@@ -439,6 +449,10 @@ def _cmd_simulate(args, out, err) -> int:
         wavelength_nm=_qty(args.reference_wavelength, "nm", "--reference-wavelength",
                            positive=True),
     )
+    if ref.kind in ("quadrature", "single"):
+        msg = sim.undersampling_message(scan, ref.wavelength_nm)
+        if msg:
+            raise OptionError(msg)
     result = sim.simulate(model, scan, ref, sim.Detector(noise_rms=args.noise),
                           medium=args.medium, rng=args.seed)
     rec = result.record
@@ -732,7 +746,8 @@ def _cmd_response(args, out, err) -> int:
 def main(argv=None) -> int:
     """Run the command line; returns the exit status.
 
-    0: done (a result may carry warnings). 2: the user's input cannot be used, reported as one
+    0: done (a result may carry warnings). 1: ``analyze --strict`` found no source line (the
+    result is still written and printed). 2: the user's input cannot be used, reported as one
     ``error: ...`` line on standard error; nothing is written. 3: a bug in ftsource (one
     ``error: internal error ...`` line). 130: interrupted. No exception leaves this function
     (``--help`` returns 0 instead of raising ``SystemExit``).

@@ -403,11 +403,6 @@ def opd_from_quadrature(
     for a, b in seg_runs:
         x[a:b] = np.unwrap(phi_w[a:b])
     spf = _samples_per_fringe(np.diff(x[np.isfinite(x)])) if np.isfinite(x).sum() > 2 else np.inf
-    if spf < 4:
-        warnings.append(
-            f"the reference fringes are sampled only {spf:.1f} times per fringe: sample faster "
-            "than 4 samples per reference fringe for a reliable path"
-        )
     x *= lam_cm / (2 * np.pi)
     sweeps = _split_sweeps(x, seg_runs, sample_rate_hz, lam_cm)
     _check_sweeps(sweeps, "quadrature")
