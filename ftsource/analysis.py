@@ -418,9 +418,12 @@ def analyze(record, options: AnalysisOptions | None = None, *, planner=None):
     spec = spec.with_axis(sigma_app * factor)
     if not any(s.zpd_found for s in sweep_specs):
         notes.add(
-            "no sweep reaches zero path difference (no centre burst): magnitude spectra were "
-            "used, so line shapes are only approximate and max_opd_mm is half of each sweep's "
-            "span"
+            "zero path difference could not be located in any sweep (no centre burst: a "
+            "narrow line keeps its fringe contrast over the whole scan, so its centre burst "
+            "cannot be seen even when the scan crosses equal arms, and a broad source shows "
+            "none when the scan misses it): magnitude spectra were used, so line shapes are "
+            "only approximate and the maximum path difference (and resolution) is that of half "
+            "of each sweep's span"
         )
 
     # ---- lines
@@ -605,8 +608,8 @@ def _sweep_outliers(spec, sweep_specs, found, notes, fit_cache=None):
     out = [(i, r) for i, k, r in zip(idx, cmp.keep, cmp.reasons, strict=False) if not k]
     if out:
         notes.add(
-            f"{len(out)} sweep(s) were left out as outliers of the line centre (see "
-            "processing.rejected_sweeps): look for vibration, a slipping reference or a loose mount"
+            f"{len(out)} sweep(s) were left out as outliers of the line centre (listed among "
+            "the rejected sweeps of the result): look for vibration, a slipping reference or a loose mount"
         )
     return out
 
@@ -684,7 +687,7 @@ def _flag_lines(found, lam_ref, sigma_alias, kind, record, notes):
         notes.add(
             f"{n_ghost} spectral feature(s) were flagged as not from the source (reference "
             "ghost, harmonic or intermodulation product of a clipped detector, or beyond the "
-            "alias-free limit); see 'flag' in lines"
+            "alias-free limit); each such line carries its reason"
         )
     return flags
 
