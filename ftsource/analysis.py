@@ -412,6 +412,7 @@ def analyze(record, options: AnalysisOptions | None = None, *, planner=None):
             f"{len(dropped)} sweep(s) that do not reach zero path difference were left out "
             "(the others do, and give phase-corrected spectra)"
         )
+    _burst_note(sweep_specs, notes)
     sigma_app = np.arange(n_fft // 2 + 1) / (n_fft * limits.dx_cm)
     spec = spectrum.coadd(sweep_specs, sigma_app, options.apodization)
     factor = _index_factor(sigma_app, lam_ref or 632.991, options, kind)
@@ -494,6 +495,26 @@ def analyze(record, options: AnalysisOptions | None = None, *, planner=None):
                 )
             break
     return result
+
+
+def _burst_note(sweep_specs, notes) -> None:
+    """Say when the burst used as a sweep's phase reference may be a coherence revival (or a
+    beat maximum of close lines) rather than zero path difference."""
+    amb = [s for s in sweep_specs if s.zpd_found and s.zpd_ambiguous]
+    if not amb:
+        return
+    d_mm = float(np.median([s.burst_spacing_cm for s in amb])) * 10
+    L_mm = float(np.median([s.L_cm for s in amb])) * 10
+    notes.add(
+        f"{len(amb)} sweep(s) hold several bursts of nearly equal height, {d_mm:.4g} mm of path "
+        f"apart (coherence revivals of a multimode laser whose modes are "
+        f"{10 / d_mm:.4g} cm⁻¹ apart, or the beat of close lines): the strongest served as the "
+        "phase reference, but it may be a revival rather than zero path difference. Line "
+        f"positions do not depend on it; the maximum path difference ({L_mm:.4g} mm) and the "
+        "resolution count from that burst, and widths and coherence lengths that take it "
+        "for zero path difference are not reliable. Scan across the true zero path "
+        "difference (the burst that the revivals' heights fall away from) to measure them"
+    )
 
 
 def _field_of_view_factor(source_lines, options) -> float:

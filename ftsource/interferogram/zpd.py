@@ -19,10 +19,30 @@ import numpy as np
 
 from ftsource.errors import OptionError, RecordError
 
-__all__ = ["ZpdInfo", "find_zpd", "interferogram_arrays", "uniform_step_cm"]
+__all__ = [
+    "ZpdInfo",
+    "find_zpd",
+    "interferogram_arrays",
+    "uniform_step_cm",
+    "BURST_RATIO",
+    "AMBIGUOUS_RATIO",
+    "EDGE_FALL",
+]
 
 #: Short side at least this fraction of the long side counts as double-sided.
 DOUBLE_SIDED_RATIO = 0.8
+#: Another envelope maximum at least this fraction of the strongest, separated from it by a
+#: fall below the centroid threshold, is a further burst (a coherence revival of a multimode
+#: laser, or the beat maximum of close lines).
+BURST_RATIO = 0.5
+#: A further burst at least this fraction of the strongest makes the choice of ZPD ambiguous:
+#: the modes of a laser narrower than the scan's resolution revive to nearly full height, so
+#: the strongest burst may be a revival (common practice: revival heights fall with the modes'
+#: coherence, exp(-π Δσ_mode x) for Lorentzian modes).
+AMBIGUOUS_RATIO = 0.8
+#: The envelope must fall below this fraction of its peak between the burst and either end of
+#: the record: a burst is a rise and a fall, not the start of a decay.
+EDGE_FALL = 0.25
 
 
 @dataclass(frozen=True)
@@ -53,6 +73,13 @@ class ZpdInfo:
     long_side_cm: float
     prominence: float
     reason: str
+    #: Bursts in the record at least :data:`BURST_RATIO` of the strongest, it included.
+    n_bursts: int = 1
+    #: Median distance between neighbouring bursts, cm (NaN with one burst).
+    burst_spacing_cm: float = float("nan")
+    #: True when another burst reaches :data:`AMBIGUOUS_RATIO` of the one taken as ZPD: the
+    #: strongest may then be a coherence revival (or a beat maximum) rather than ZPD.
+    ambiguous: bool = False
 
     @property
     def kind(self) -> str:
@@ -220,6 +247,22 @@ def find_zpd(
             prominence,
             "the centre burst touches the end of the record; ZPD may lie outside the scan",
         )
+    # A burst lies well inside the record: at least its own width (above the threshold) from
+    # either end, with the envelope falling below EDGE_FALL of its peak on both sides. A sweep
+    # that starts on the falling envelope of a broad line has its maximum near the start
+    # (where the analytic signal's edge effect makes a small hump) and no rise before it.
+    margin = max(hi - lo, 8)
+    low = EDGE_FALL * peak
+    if lo < margin or n - 1 - hi < margin or not (
+        env[:lo].min() < low and env[hi + 1 :].min() < low
+    ):
+        return _not_found(
+            prominence,
+            "the strongest part of the envelope lies at the edge of the sweep and does not "
+            "rise and fall within it (the sweep starts or ends on a decaying envelope): ZPD "
+            "is not in the sweep",
+        )
+    n_bursts, spacing, ambiguous = _other_bursts(env, lo, hi, peak, threshold, abs(step))
     idx = np.arange(lo, hi + 1)
     w = np.clip(env[idx] ** 2 - t * t, 0.0, None)
     i_zpd = float(np.sum(idx * w) / np.sum(w))
@@ -235,4 +278,46 @@ def find_zpd(
         float(max(side_a, side_b)),
         float(prominence),
         "",
+        n_bursts,
+        spacing,
+        ambiguous,
     )
+
+
+def _other_bursts(env, lo, hi, peak, threshold, step_cm):
+    """Further bursts of the envelope besides the one at ``lo:hi``: their count (the main one
+    included), the median spacing of neighbouring bursts (cm) and whether one of them reaches
+    :data:`AMBIGUOUS_RATIO` of the peak.
+
+    A further burst is an envelope maximum of at least :data:`BURST_RATIO` × ``peak`` whose
+    region above ``threshold`` × its height is separate from the others'.
+    """
+    n = env.size
+    free = np.ones(n, bool)
+    free[lo : hi + 1] = False
+    centres = [(lo + hi) / 2]
+    heights = [peak]
+    for _ in range(16):
+        cand = np.where(free, env, 0.0)
+        k = int(np.argmax(cand))
+        h = float(cand[k])
+        if h < BURST_RATIO * peak:
+            break
+        t = threshold * h
+        a = k
+        while a > 0 and env[a - 1] >= t and free[a - 1]:
+            a -= 1
+        b = k
+        while b < n - 1 and env[b + 1] >= t and free[b + 1]:
+            b += 1
+        # it must fall below its threshold before meeting another burst's region
+        separate = (a == 0 or env[a - 1] < t) and (b == n - 1 or env[b + 1] < t)
+        free[a : b + 1] = False
+        if separate:
+            centres.append((a + b) / 2)
+            heights.append(h)
+    if len(centres) == 1:
+        return 1, float("nan"), False
+    c = np.sort(np.asarray(centres))
+    spacing = float(np.median(np.diff(c)) * step_cm)
+    return len(centres), spacing, bool(max(heights[1:]) >= AMBIGUOUS_RATIO * peak)
