@@ -26,7 +26,8 @@ __all__ = [
     "uniform_step_cm",
     "BURST_RATIO",
     "AMBIGUOUS_RATIO",
-    "EDGE_FALL",
+    "EDGE_FRINGES",
+    "EDGE_SAMPLES",
 ]
 
 #: Short side at least this fraction of the long side counts as double-sided.
@@ -40,9 +41,11 @@ BURST_RATIO = 0.5
 #: the strongest burst may be a revival (common practice: revival heights fall with the modes'
 #: coherence, exp(-π Δσ_mode x) for Lorentzian modes).
 AMBIGUOUS_RATIO = 0.8
-#: The envelope must fall below this fraction of its peak between the burst and either end of
-#: the record: a burst is a rise and a fall, not the start of a decay.
-EDGE_FALL = 0.25
+#: The burst's region above the centroid threshold must end at least this many periods of its
+#: carrier, and :data:`EDGE_SAMPLES` samples, from either end of the record: a burst rises and
+#: falls inside the record, its fall is not the analytic signal's dip at the record's end.
+EDGE_FRINGES = 4.0
+EDGE_SAMPLES = 16
 
 
 @dataclass(frozen=True)
@@ -247,22 +250,21 @@ def find_zpd(
             prominence,
             "the centre burst touches the end of the record; ZPD may lie outside the scan",
         )
-    # A burst lies well inside the record: at least its own width (above the threshold) from
-    # either end, with the envelope falling below EDGE_FALL of its peak on both sides. A sweep
-    # that starts on the falling envelope of a broad line has its maximum near the start
-    # (where the analytic signal's edge effect makes a small hump) and no rise before it.
-    margin = max(hi - lo, 8)
-    low = EDGE_FALL * peak
-    if lo < margin or n - 1 - hi < margin or not (
-        env[:lo].min() < low and env[hi + 1 :].min() < low
-    ):
+    # The burst's region above the threshold must end well inside the record: at least
+    # EDGE_FRINGES periods of its carrier (and EDGE_SAMPLES samples) from either end. Near an
+    # end the analytic signal's envelope dips (the transform of a truncated record), so a
+    # sweep that starts on the falling envelope of a broad line shows a "burst" bounded by
+    # that dip a few samples from its start, with no rise of its own before it.
+    margin = max(EDGE_SAMPLES, EDGE_FRINGES * _carrier_period(yy[lo : hi + 1]))
+    if lo < margin or n - 1 - hi < margin:
         return _not_found(
             prominence,
             "the strongest part of the envelope lies at the edge of the sweep and does not "
             "rise and fall within it (the sweep starts or ends on a decaying envelope): ZPD "
             "is not in the sweep",
         )
-    n_bursts, spacing, ambiguous = _other_bursts(env, lo, hi, peak, threshold, abs(step))
+    n_bursts, spacing, ambiguous = _other_bursts(env, lo, hi, peak, threshold, abs(step),
+                                                  margin)
     idx = np.arange(lo, hi + 1)
     w = np.clip(env[idx] ** 2 - t * t, 0.0, None)
     i_zpd = float(np.sum(idx * w) / np.sum(w))
@@ -284,13 +286,21 @@ def find_zpd(
     )
 
 
-def _other_bursts(env, lo, hi, peak, threshold, step_cm):
+def _carrier_period(y: np.ndarray) -> float:
+    """Period (samples) of the fringes in ``y``, from its mean-level crossings (two per
+    period); 0 when there are too few."""
+    c = np.flatnonzero(np.diff(np.signbit(y - np.mean(y))))
+    return float(2 * np.median(np.diff(c))) if c.size >= 3 else 0.0
+
+
+def _other_bursts(env, lo, hi, peak, threshold, step_cm, margin):
     """Further bursts of the envelope besides the one at ``lo:hi``: their count (the main one
     included), the median spacing of neighbouring bursts (cm) and whether one of them reaches
     :data:`AMBIGUOUS_RATIO` of the peak.
 
     A further burst is an envelope maximum of at least :data:`BURST_RATIO` × ``peak`` whose
-    region above ``threshold`` × its height is separate from the others'.
+    region above ``threshold`` × its height is separate from the others' and ends at least
+    ``margin`` samples from the record's ends (as the main burst's must).
     """
     n = env.size
     free = np.ones(n, bool)
@@ -310,8 +320,9 @@ def _other_bursts(env, lo, hi, peak, threshold, step_cm):
         b = k
         while b < n - 1 and env[b + 1] >= t and free[b + 1]:
             b += 1
-        # it must fall below its threshold before meeting another burst's region
-        separate = (a == 0 or env[a - 1] < t) and (b == n - 1 or env[b + 1] < t)
+        # it must fall below its threshold on both sides before meeting another burst's
+        # region or the record's end (a burst cut by the end has no measurable centre)
+        separate = margin <= a and b < n - 1 - margin and env[a - 1] < t and env[b + 1] < t
         free[a : b + 1] = False
         if separate:
             centres.append((a + b) / 2)
