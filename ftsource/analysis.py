@@ -503,13 +503,19 @@ def _burst_note(sweep_specs, notes) -> None:
     amb = [s for s in sweep_specs if s.zpd_found and s.zpd_ambiguous]
     if not amb:
         return
-    d_mm = float(np.median([s.burst_spacing_cm for s in amb])) * 10
+    spacings = [s.burst_spacing_cm for s in amb if np.isfinite(s.burst_spacing_cm)]
     L_mm = float(np.median([s.L_cm for s in amb])) * 10
+    if spacings:
+        d_mm = float(np.median(spacings)) * 10
+        apart = (f", {d_mm:.4g} mm of path apart (coherence revivals of a multimode laser whose "
+                 f"modes are {10 / d_mm:.4g} cm⁻¹ apart, or the beat of close lines)")
+    else:
+        apart = (" (one cut by the sweep's end: a coherence revival of a multimode laser, or the "
+                 "beat of close lines)")
     notes.add(
-        f"{len(amb)} sweep(s) hold several bursts of nearly equal height, {d_mm:.4g} mm of path "
-        f"apart (coherence revivals of a multimode laser whose modes are "
-        f"{10 / d_mm:.4g} cm⁻¹ apart, or the beat of close lines): the strongest served as the "
-        "phase reference, but it may be a revival rather than zero path difference. Line "
+        f"{len(amb)} sweep(s) hold several bursts of nearly equal height{apart}: the strongest "
+        "served as the phase reference, but it may be a revival rather than zero path "
+        "difference. Line "
         f"positions do not depend on it; the maximum path difference ({L_mm:.4g} mm) and the "
         "resolution count from that burst, and widths and coherence lengths that take it "
         "for zero path difference are not reliable. Scan across the true zero path "

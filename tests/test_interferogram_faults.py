@@ -273,16 +273,26 @@ def test_zpd_inside_the_sweep_is_still_found(seed):
 @pytest.mark.parametrize("seed", SEEDS)
 def test_revivals_make_zpd_ambiguous(seed):
     """A comb of 7 narrow modes 1/0.775 cm⁻¹ apart scanned from -1 mm to 15 mm: bursts at 0
-    and 7.75 mm (and 15.5 mm beyond) of the same height (Dirichlet kernel). The strongest may
-    be a revival: the result must say so, with the bursts' spacing. With modes wide enough
-    for the revival to fall to 0.3 of ZPD the burst at ZPD is taken, unambiguously."""
+    and 7.75 mm (and 15.5 mm, just beyond) of the same height (Dirichlet kernel). The
+    strongest may be a revival: the result must say so, with the bursts' spacing. With modes
+    wide enough for the revival to fall to 0.3 of ZPD the burst at ZPD is taken,
+    unambiguously."""
     rng = np.random.default_rng(seed)
     dx = rm.HENE_NM * 1e-7 / 8
     x = -0.1 + dx * np.arange(int(1.6 / dx))
     y = rm.comb(x, 650.0, 1 / 0.775, 7) + 0.002 * rng.normal(size=x.size)
     z = find_zpd(x, y)
-    assert z.found and z.n_bursts == 2 and z.ambiguous
+    # two whole bursts and the next revival cut by the sweep's end (at 1.55 cm, 1.5 reached)
+    assert z.found and z.n_bursts == 3 and z.ambiguous
     assert z.burst_spacing_cm == pytest.approx(0.775, rel=0.01)
+    # the issue's sweep: it starts just after ZPD (its burst cut) and holds the first revival
+    # whole; that revival is the strongest visible burst, and it may not be taken for ZPD
+    # silently
+    xs = -0.02 + dx * np.arange(int(1.3 / dx))
+    ys = rm.comb(xs, 650.0, 1 / 0.775, 7) + 0.002 * rng.normal(size=xs.size)
+    z = find_zpd(xs, ys)
+    assert z.found and abs(z.x_zpd_cm - 0.775) < 0.01
+    assert z.ambiguous and z.n_bursts == 2 and np.isnan(z.burst_spacing_cm)
     # exp(-π w 0.775) = 0.3 for Lorentzian modes of FWHM w
     w = -np.log(0.3) / (np.pi * 0.775)
     y = rm.comb(x, 650.0, 1 / 0.775, 7, w) + 0.002 * rng.normal(size=x.size)

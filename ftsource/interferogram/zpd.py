@@ -76,12 +76,14 @@ class ZpdInfo:
     long_side_cm: float
     prominence: float
     reason: str
-    #: Bursts in the record at least :data:`BURST_RATIO` of the strongest, it included.
+    #: Bursts in the record at least :data:`BURST_RATIO` of the strongest, it included (a burst
+    #: cut by an end of the record counts).
     n_bursts: int = 1
-    #: Median distance between neighbouring bursts, cm (NaN with one burst).
+    #: Median distance between neighbouring complete bursts, cm (NaN with one).
     burst_spacing_cm: float = float("nan")
-    #: True when another burst reaches :data:`AMBIGUOUS_RATIO` of the one taken as ZPD: the
-    #: strongest may then be a coherence revival (or a beat maximum) rather than ZPD.
+    #: True when another burst reaches :data:`AMBIGUOUS_RATIO` of the one taken as ZPD, or a
+    #: burst cut by an end of the record reaches :data:`BURST_RATIO` of it: the strongest may
+    #: then be a coherence revival (or a beat maximum) rather than ZPD.
     ambiguous: bool = False
 
     @property
@@ -299,14 +301,16 @@ def _other_bursts(env, lo, hi, peak, threshold, step_cm, margin):
     :data:`AMBIGUOUS_RATIO` of the peak.
 
     A further burst is an envelope maximum of at least :data:`BURST_RATIO` × ``peak`` whose
-    region above ``threshold`` × its height is separate from the others' and ends at least
-    ``margin`` samples from the record's ends (as the main burst's must).
+    region above ``threshold`` × its height is separate from the others'. One that reaches
+    within ``margin`` samples of an end is cut: it counts, makes the choice ambiguous (its
+    top may be higher than the main burst) and has no centre for the spacing.
     """
     n = env.size
     free = np.ones(n, bool)
     free[lo : hi + 1] = False
     centres = [(lo + hi) / 2]
     heights = [peak]
+    cut_heights: list[float] = []
     for _ in range(16):
         cand = np.where(free, env, 0.0)
         k = int(np.argmax(cand))
@@ -321,14 +325,21 @@ def _other_bursts(env, lo, hi, peak, threshold, step_cm, margin):
         while b < n - 1 and env[b + 1] >= t and free[b + 1]:
             b += 1
         # it must fall below its threshold on both sides before meeting another burst's
-        # region or the record's end (a burst cut by the end has no measurable centre)
-        separate = margin <= a and b < n - 1 - margin and env[a - 1] < t and env[b + 1] < t
+        # region; one cut by the record's end (within ``margin``) has no measurable centre but
+        # may be the true ZPD, its top cut off
+        cut = a < margin or b >= n - 1 - margin
+        separate = (a == 0 or env[a - 1] < t) and (b == n - 1 or env[b + 1] < t)
         free[a : b + 1] = False
-        if separate:
+        if separate and cut:
+            cut_heights.append(h)
+        elif separate:
             centres.append((a + b) / 2)
             heights.append(h)
+    n_bursts = len(centres) + len(cut_heights)
+    ambiguous = bool(
+        max(heights[1:], default=0.0) >= AMBIGUOUS_RATIO * peak or cut_heights
+    )
     if len(centres) == 1:
-        return 1, float("nan"), False
+        return n_bursts, float("nan"), ambiguous
     c = np.sort(np.asarray(centres))
-    spacing = float(np.median(np.diff(c)) * step_cm)
-    return len(centres), spacing, bool(max(heights[1:]) >= AMBIGUOUS_RATIO * peak)
+    return n_bursts, float(np.median(np.diff(c)) * step_cm), ambiguous
