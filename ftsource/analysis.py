@@ -428,6 +428,7 @@ def analyze(record, options: AnalysisOptions | None = None, *, planner=None):
         ]
     for c in caught:
         notes.add(str(c.message))
+    sweep_specs = _check_zpd_across_sweeps(sweep_specs, ifgs)
     if any(s.zpd_found for s in sweep_specs) and not all(s.zpd_found for s in sweep_specs):
         # a magnitude spectrum of a sweep that misses ZPD does not mix with phase-corrected
         # ones (different line shapes and noise): keep the sweeps through ZPD
@@ -524,6 +525,28 @@ def analyze(record, options: AnalysisOptions | None = None, *, planner=None):
     return result
 
 
+def _check_zpd_across_sweeps(sweep_specs, ifgs):
+    """Sweep spectra whose ZPD another sweep of the same stretch of reference contradicts
+    (:func:`ftsource.interferogram.zpd.conflicting_zpd`) marked ambiguous: it may be a
+    coherence revival seen in a sweep that does not reach the true ZPD."""
+    from ftsource.interferogram.zpd import conflicting_zpd
+
+    by_index = {ig.sweep.index: ig for ig in ifgs}
+    igs = [by_index[s.sweep_index] for s in sweep_specs]
+    if len(igs) < 2:
+        return sweep_specs
+    spans = [ig.span_cm for ig in igs]
+    bad = conflicting_zpd(
+        [s.x_zpd_cm if s.zpd_found else np.nan for s in sweep_specs],
+        [ig.sweep.segment for ig in igs],
+        [(ig.x0_cm, ig.x0_cm + ig.span_cm) for ig in igs],
+        [s.peak_cm for s in sweep_specs],
+        tolerance_cm=0.05 * float(np.median(spans)),
+    )
+    return [replace(s, zpd_ambiguous=True) if b else s
+            for s, b in zip(sweep_specs, bad, strict=True)]
+
+
 def _burst_note(sweep_specs, notes) -> None:
     """Say when the burst used as a sweep's phase reference may be a coherence revival (or a
     beat maximum of close lines) rather than zero path difference."""
@@ -537,8 +560,8 @@ def _burst_note(sweep_specs, notes) -> None:
         apart = (f", {d_mm:.4g} mm of path apart (coherence revivals of a multimode laser whose "
                  f"modes are {10 / d_mm:.4g} cm⁻¹ apart, or the beat of close lines)")
     else:
-        apart = (" (one cut by the sweep's end: a coherence revival of a multimode laser, or the "
-                 "beat of close lines)")
+        apart = (" (seen in this sweep or, cut by its end, in another sweep over the same "
+                 "path: a coherence revival of a multimode laser, or the beat of close lines)")
     notes.add(
         f"{len(amb)} sweep(s) hold several bursts of nearly equal height{apart}: the strongest "
         "served as the phase reference, but it may be a revival rather than zero path "

@@ -21,7 +21,7 @@ from ftsource.interferogram.channels import (
     reference_samples_per_fringe,
 )
 from ftsource.interferogram.turnarounds import phase_steps, suspect_spans
-from ftsource.interferogram.zpd import find_zpd
+from ftsource.interferogram.zpd import conflicting_zpd, find_zpd
 
 SEEDS = (0, 1, 2)
 FS = 100e3
@@ -298,6 +298,38 @@ def test_revivals_make_zpd_ambiguous(seed):
     y = rm.comb(x, 650.0, 1 / 0.775, 7, w) + 0.002 * rng.normal(size=x.size)
     z = find_zpd(x, y)
     assert z.found and abs(z.x_zpd_cm) < 2 * dx and not z.ambiguous
+
+
+def test_conflicting_zpd_between_sweeps():
+    """Sweeps of one segment share their OPD origin: a sweep whose strongest burst lies 7.75 mm
+    from another sweep's 'ZPD', while covering it, contradicts it. Truth: the positions given
+    (a revival period of 7.75 mm); other segments and sweeps that do not cover it do not."""
+    z = [0.555, np.nan, np.nan, np.nan]
+    seg = [0, 0, 1, 0]
+    ranges = [(0.0, 1.2), (-0.24, 1.2), (-0.24, 1.2), (0.6, 1.2)]
+    peaks = [0.555, -0.22, -0.22, 1.1]
+    assert list(conflicting_zpd(z, seg, ranges, peaks, tolerance_cm=0.05)) == [1, 0, 0, 0]
+    # the same burst seen again (within the tolerance) is no contradiction
+    peaks[1] = 0.556
+    assert not conflicting_zpd(z, seg, ranges, peaks, tolerance_cm=0.05).any()
+
+
+def test_revival_taken_for_zpd_is_flagged_end_to_end():
+    """The issue's record: a multimode laser (7 narrow modes 1/0.775 cm⁻¹ apart) scanned from
+    just after ZPD to past the first revival, quadrature rig with distortion and quantisation.
+    The sweep that holds the revival whole, but not ZPD, used to take it for ZPD silently;
+    now the result says the phase reference may be a revival. Truth: the comb's closed form
+    (revivals at multiples of 7.75 mm)."""
+    rng = np.random.default_rng(1)
+    fs = 100e3
+    t = np.arange(int(4.0 * fs)) / fs
+    x = rm.triangle_opd(t, amplitude_cm=0.8, period_s=4.0, rounding=0.2, phase=0.1,
+                        centre_cm=0.7)
+    sig = rm.comb(x, 650.0, 1 / 0.775, 7) + 0.002 * rng.normal(size=t.size)
+    i, q = rm.quadrature_channels(x, rng)
+    d = analyze(rm.record(sig, fs, ref_i=i, ref_q=q)).to_dict()
+    text = " ".join(d["warnings"])
+    assert "may be a revival rather than zero path difference" in text
 
 
 # ---------------------------------------------------------------- item 11: dead channel

@@ -28,6 +28,7 @@ __all__ = [
     "AMBIGUOUS_RATIO",
     "EDGE_FRINGES",
     "EDGE_SAMPLES",
+    "conflicting_zpd",
 ]
 
 #: Short side at least this fraction of the long side counts as double-sided.
@@ -85,6 +86,10 @@ class ZpdInfo:
     #: burst cut by an end of the record reaches :data:`BURST_RATIO` of it: the strongest may
     #: then be a coherence revival (or a beat maximum) rather than ZPD.
     ambiguous: bool = False
+    #: OPD of the envelope's maximum, cm, also when no ZPD was found (a burst cut by an end
+    #: lies there); NaN for a constant record. Sweeps of one stretch of reference share their
+    #: OPD origin, so this tells where each saw its strongest burst.
+    peak_cm: float = float("nan")
 
     @property
     def kind(self) -> str:
@@ -168,8 +173,9 @@ def uniform_step_cm(x_cm: np.ndarray, *, rtol: float = 1e-6) -> float:
     return float(step)
 
 
-def _not_found(prominence: float, reason: str) -> ZpdInfo:
-    return ZpdInfo(False, float("nan"), -1, float("nan"), float("nan"), prominence, reason)
+def _not_found(prominence: float, reason: str, peak_cm: float = float("nan")) -> ZpdInfo:
+    nan = float("nan")
+    return ZpdInfo(False, nan, -1, nan, nan, prominence, reason, 1, nan, False, peak_cm)
 
 
 def find_zpd(
@@ -239,6 +245,7 @@ def find_zpd(
             f"below {min_prominence:g} (a narrow line has a flat envelope)",
         )
     i_peak = int(np.argmax(env))
+    peak_cm = float(x[0] + i_peak * step)
     t = threshold * peak
     above = env >= t
     lo = i_peak
@@ -251,6 +258,7 @@ def find_zpd(
         return _not_found(
             prominence,
             "the centre burst touches the end of the record; ZPD may lie outside the scan",
+            peak_cm,
         )
     # The burst's region above the threshold must end well inside the record: at least
     # EDGE_FRINGES periods of its carrier (and EDGE_SAMPLES samples) from either end. Near an
@@ -264,6 +272,7 @@ def find_zpd(
             "the strongest part of the envelope lies at the edge of the sweep and does not "
             "rise and fall within it (the sweep starts or ends on a decaying envelope): ZPD "
             "is not in the sweep",
+            peak_cm,
         )
     n_bursts, spacing, ambiguous = _other_bursts(env, lo, hi, peak, threshold, abs(step),
                                                   margin)
@@ -285,6 +294,7 @@ def find_zpd(
         n_bursts,
         spacing,
         ambiguous,
+        peak_cm,
     )
 
 
@@ -343,3 +353,45 @@ def _other_bursts(env, lo, hi, peak, threshold, step_cm, margin):
         return n_bursts, float("nan"), ambiguous
     c = np.sort(np.asarray(centres))
     return n_bursts, float(np.median(np.diff(c)) * step_cm), ambiguous
+
+
+def conflicting_zpd(
+    zpd_cm, segments, ranges_cm, peaks_cm, *, tolerance_cm: float
+) -> np.ndarray:
+    """Which sweeps' ZPD another sweep of the same stretch of reference contradicts.
+
+    ZPD is one OPD for every sweep whose OPD shares an origin (a ``segment``). Sweep j
+    contradicts sweep i's ZPD ``x_i`` when x_i lies inside j's range and j's strongest burst
+    (found as ZPD, or cut by j's end) lies more than ``tolerance_cm`` from x_i: j sees a burst
+    at least as strong elsewhere, so x_i may be a coherence revival rather than ZPD.
+
+    Parameters
+    ----------
+    zpd_cm : array_like
+        Each sweep's ZPD, cm (NaN when none was found).
+    segments : array_like of int
+    ranges_cm : array_like, shape (n, 2)
+        Each sweep's OPD range, cm.
+    peaks_cm : array_like
+        OPD of each sweep's envelope maximum, cm (:attr:`ZpdInfo.peak_cm`; NaN: none).
+    tolerance_cm : float
+        How far apart two sightings of one burst may be (forward/backward sweeps shift it by
+        the channel delay, a few µm).
+
+    Returns
+    -------
+    ndarray of bool
+    """
+    z = np.asarray(zpd_cm, float)
+    seg = np.asarray(segments)
+    rng = np.asarray(ranges_cm, float).reshape(-1, 2)
+    pk = np.asarray(peaks_cm, float)
+    out = np.zeros(z.size, bool)
+    for i in np.flatnonzero(np.isfinite(z)):
+        for j in range(z.size):
+            if j == i or seg[j] != seg[i] or not np.isfinite(pk[j]):
+                continue
+            lo, hi = np.min(rng[j]), np.max(rng[j])
+            if lo < z[i] < hi and abs(pk[j] - z[i]) > tolerance_cm:
+                out[i] = True
+    return out
