@@ -687,7 +687,8 @@ def _sweep_outliers(spec, sweep_specs, found, notes, fit_cache=None):
     if out:
         notes.add(
             f"{len(out)} sweep(s) were left out as outliers of the line centre (listed among "
-            "the rejected sweeps of the result): look for vibration, a slipping reference or a loose mount"
+            "the rejected sweeps of the result): look for vibration, a slipping reference or a "
+            "loose mount"
         )
     return out
 

@@ -10,9 +10,9 @@ from __future__ import annotations
 
 import numpy as np
 import pytest
-
 import rig_model as rm
 from cli_helpers import assert_clean_error, run
+
 from ftsource.analysis import analyze
 from ftsource.errors import AnalysisError, FtsourceWarning
 from ftsource.interferogram import opd, resample
@@ -73,7 +73,8 @@ def test_single_channel_finds_every_turnaround(seed, rounding):
     inner = [(a, b) for a, b in zip(turns[:-1], turns[1:], strict=True)]
     assert len(inner) >= 3
     for a, b in inner:
-        covered = [sw for sw in path.sweeps if sw.start / FS >= a - 1e-3 and sw.stop / FS <= b + 1e-3]
+        covered = [sw for sw in path.sweeps
+                   if sw.start / FS >= a - 1e-3 and sw.stop / FS <= b + 1e-3]
         assert covered, (a, b)
         assert max(sw.opd_span_cm for sw in covered) > 0.8 * full_span
 
