@@ -4,8 +4,8 @@ A single reference channel ``c = cos θ`` gives the fringe phase θ up to its si
 analytic-signal phase ψ only grows, whichever way the mirror moves. Where the mirror reverses
 smoothly the fringe rate falls to zero and the reversal is plain
 (:mod:`ftsource.interferogram.opd`). An *abrupt* reversal (a triangle scan with sharp
-corners, a mirror bouncing off a stop) keeps the fringe rate: the speed jumps from +v to −v between two samples. What it leaves is a step in
-ψ: before the reversal ψ = θ, after it ψ = −θ + 2πk, so ψ jumps by −2θ_r (wrapped into
+corners, a mirror bouncing off a stop) keeps the fringe rate: the speed jumps from +v to −v
+between two samples. What it leaves is a step in ψ: before the reversal ψ = θ, after it ψ = −θ + 2πk, so ψ jumps by −2θ_r (wrapped into
 (−π, π]), θ_r being the fringe phase at the reversal. This module finds such steps by
 comparing quadratic fits of ψ over a few fringes on either side of every sample.
 
