@@ -5,9 +5,10 @@ analytic-signal phase ψ only grows, whichever way the mirror moves. Where the m
 smoothly the fringe rate falls to zero and the reversal is plain
 (:mod:`ftsource.interferogram.opd`). An *abrupt* reversal (a triangle scan with sharp
 corners, a mirror bouncing off a stop) keeps the fringe rate: the speed jumps from +v to −v
-between two samples. What it leaves is a step in ψ: before the reversal ψ = θ, after it ψ = −θ + 2πk, so ψ jumps by −2θ_r (wrapped into
-(−π, π]), θ_r being the fringe phase at the reversal. This module finds such steps by
-comparing quadratic fits of ψ over a few fringes on either side of every sample.
+between two samples. What it leaves is a step in ψ: before the reversal ψ = θ, after it
+ψ = −θ + 2πk, so ψ jumps by −2θ_r (wrapped into (−π, π]), θ_r being the fringe phase at the
+reversal. This module finds such steps by comparing quadratic fits of ψ over a few fringes on
+either side of every sample.
 
 A reversal at a fringe extremum (θ_r a multiple of π) leaves no step: there the channel is
 truly blind, and only another cue can tell (the sweeps' spans, see :func:`suspect_spans`; a
