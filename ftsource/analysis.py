@@ -480,6 +480,7 @@ def analyze(record, options: AnalysisOptions | None = None, *, planner=None):
         for fl, a in zip(flags, aliasing, strict=True)
     ]
     source_lines = [f for f, fl in zip(found, flags, strict=True) if fl is None]
+    _wobble_note(source_lines, path, fs, spec.resolution_per_cm, notes)
     fov = _field_of_view_factor(source_lines, options)
     if fov != 1.0:
         spec = spec.with_axis(spec.sigma_per_cm * fov)
@@ -545,6 +546,42 @@ def _check_zpd_across_sweeps(sweep_specs, ifgs):
     )
     return [replace(s, zpd_ambiguous=True) if b else s
             for s, b in zip(sweep_specs, bad, strict=True)]
+
+
+def _wobble_note(source_lines, path, fs, resolution_per_cm, notes) -> None:
+    """Name the weak lines that sit where an uneven mirror speed would put artefacts
+    (:mod:`ftsource.interferogram.wobble`)."""
+    from ftsource.interferogram.wobble import (
+        ARTEFACT_LEVEL,
+        WOBBLE_NOTE_DEPTH,
+        artefact_offsets,
+        speed_wobble,
+    )
+
+    if len(source_lines) < 2:
+        return
+    wob = speed_wobble(path.opd_cm, path.sweeps, fs)
+    offsets = artefact_offsets(wob)
+    if wob.depth < WOBBLE_NOTE_DEPTH or not offsets.size:
+        return
+    main = max(source_lines, key=lambda f: f.area)
+    suspect = [
+        f for f in source_lines
+        if f is not main and f.area < ARTEFACT_LEVEL * main.area
+        and np.min(np.abs(abs(f.centre_per_cm - main.centre_per_cm) - offsets))
+        < 2 * resolution_per_cm
+    ]
+    if not suspect:
+        return
+    where = ", ".join(f"{1e7 / f.centre_per_cm:.3f} nm" for f in suspect)
+    notes.add(
+        f"the mirror speed varies by ±{wob.depth:.0%} with a period of "
+        f"{wob.period_cm * 10:.3g} mm of path; the weak line(s) at {where} sit where that "
+        f"wobble puts artefacts beside the main line (±{offsets[0]:.3g} cm⁻¹ and multiples) "
+        f"and are weaker than {ARTEFACT_LEVEL:g} of it: they may be artefacts of the scan, not "
+        "side modes. Drive the mirror more evenly, or record again at another speed: an "
+        "artefact moves with the wobble, a side mode does not"
+    )
 
 
 def _burst_note(sweep_specs, notes) -> None:
