@@ -322,10 +322,10 @@ def test_revivals_make_zpd_ambiguous(seed):
     # two whole bursts and the next revival cut by the sweep's end (at 1.55 cm, 1.5 reached)
     assert z.found and z.n_bursts == 3 and z.ambiguous
     assert z.burst_spacing_cm == pytest.approx(0.775, rel=0.01)
-    # the sweep: it starts just after ZPD (its burst cut) and holds the first revival
-    # whole; that revival is the strongest visible burst, and it may not be taken for ZPD
-    # silently
-    xs = -0.02 + dx * np.arange(int(1.3 / dx))
+    # the sweep: it starts just after ZPD (its burst cut: 0.89 of full height is seen
+    # at 0.3 mm, Dirichlet kernel) and holds the first revival whole; that revival is the
+    # strongest visible burst, and it may not be taken for ZPD silently
+    xs = 0.03 + dx * np.arange(int(1.3 / dx))
     ys = rm.comb(xs, 650.0, 1 / 0.775, 7) + 0.002 * rng.normal(size=xs.size)
     z = find_zpd(xs, ys)
     assert z.found and abs(z.x_zpd_cm - 0.775) < 0.01

@@ -33,6 +33,12 @@ MIN_SAMPLES_PER_FRINGE = 4.0
 FAST_QUANTILE = 0.95
 #: Samples per block over which the fringes are counted.
 BLOCK = 256
+#: A reference whose amplitude varies more than this (standard deviation over mean) holds
+#: noise, not fringes: the sampling is then not judged (the optical path says what is wrong).
+#: Noise alone gives 0.52; fringes with turnarounds and dropouts stay well below.
+MAX_AMPLITUDE_VARIATION = 0.4
+#: The fringe test reads at most this many samples from the middle of the record.
+FRINGE_TEST_SAMPLES = 1 << 18
 
 
 def reference_samples_per_fringe(columns, kind: str) -> tuple[float, float]:
@@ -56,6 +62,8 @@ def reference_samples_per_fringe(columns, kind: str) -> tuple[float, float]:
        step of atan2 between samples; for one channel, a fringe holds two crossings of its
        mean level. Both are counted per block of :data:`BLOCK` samples.
     """
+    if not _holds_fringes(columns, kind):
+        return np.inf, np.inf
     if kind == "quadrature":
         i = np.asarray(columns["ref_i"], float)
         q = np.asarray(columns["ref_q"], float)
@@ -95,6 +103,34 @@ def reference_samples_per_fringe(columns, kind: str) -> tuple[float, float]:
     if fr.size < 2 or fr.sum() < 16:
         return np.inf, np.inf
     return float(BLOCK / np.median(fr)), float(BLOCK / np.quantile(fr, FAST_QUANTILE))
+
+
+def _holds_fringes(columns, kind: str) -> bool:
+    """Whether the reference carries fringes rather than noise: fringes have a steady
+    amplitude, noise a Rayleigh-distributed one (coefficient of variation √(4/π − 1) ≈ 0.52).
+    Judged on at most :data:`FRINGE_TEST_SAMPLES` samples from the middle of the record; the
+    amplitude is the analytic signal's modulus (one channel) or the radius of the mean-removed,
+    scaled pair (quadrature).
+
+    References
+    ----------
+    .. [1] D. Gabor, "Theory of communication", J. IEE 93, 429–457 (1946) (analytic signal).
+    """
+    names = ("ref_i", "ref_q") if kind == "quadrature" else ("ref",)
+    cols = [np.asarray(columns[k], float) for k in names]
+    n = cols[0].size
+    a = max((n - FRINGE_TEST_SAMPLES) // 2, 0)
+    cols = [c[a : a + FRINGE_TEST_SAMPLES] for c in cols]
+    if any(not np.std(c) > 0 for c in cols):
+        return False
+    if kind == "quadrature":
+        amp = np.hypot(*((c - c.mean()) / c.std() for c in cols))
+    else:
+        from scipy.signal import hilbert
+
+        c = cols[0]
+        amp = np.abs(hilbert(c - np.median(c)))
+    return bool(np.std(amp) < MAX_AMPLITUDE_VARIATION * np.mean(amp))
 
 
 def check_reference_sampling(

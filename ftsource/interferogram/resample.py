@@ -133,6 +133,15 @@ def _spline_coefficients(signal: np.ndarray) -> np.ndarray:
     return spline_filter1d(np.asarray(signal, float), order=SPLINE_ORDER, mode="mirror")
 
 
+def _spline_at(coeffs: np.ndarray, positions: np.ndarray) -> np.ndarray:
+    """The B-spline of :func:`_spline_coefficients` at fractional sample ``positions`` (one
+    place for the order, so coefficients and evaluation always match)."""
+    from scipy.ndimage import map_coordinates
+
+    return map_coordinates(coeffs, [positions], order=SPLINE_ORDER, mode="mirror",
+                           prefilter=False)
+
+
 def resample_sweeps(
     signal: np.ndarray,
     path: OpticalPath,
@@ -166,8 +175,6 @@ def resample_sweeps(
     .. [1] M. Unser, "Splines: a perfect fit for signal and image processing", IEEE Signal
        Processing Magazine 16(6), 22–38 (1999).
     """
-    from scipy.ndimage import map_coordinates
-
     coeffs = _spline_coefficients(signal)
     out = []
     for sw in sweeps if sweeps is not None else path.sweeps:
@@ -189,7 +196,7 @@ def resample_sweeps(
             continue
         grid = dx_cm * np.arange(k0, k1 + 1)
         frac = np.interp(grid, x, idx)
-        y = map_coordinates(coeffs, [frac], order=SPLINE_ORDER, mode="mirror", prefilter=False)
+        y = _spline_at(coeffs, frac)
         base = running_mean(y, baseline_cm / dx_cm)
         out.append(Interferogram(k0 * dx_cm, dx_cm, y - base, sw, float(np.mean(base))))
     if not out:
