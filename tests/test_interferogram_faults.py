@@ -272,7 +272,6 @@ def test_weak_line_at_a_wobble_offset_is_named():
     sig = sig + 2e-5 * rng.normal(size=x.size)
     i, q = rm.quadrature_channels(x, rng)
     d = analyze(rm.record(sig, fs, ref_i=i, ref_q=q)).to_dict()
-    text = " ".join(d["warnings"])
     note = next(w for w in d["warnings"] if "may be artefacts of the scan" in w)
     assert f"{side_nm:.2f}" in note and "another speed" in note
 
