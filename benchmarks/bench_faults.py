@@ -36,9 +36,8 @@ FS = 400e3
 def make(case: str, n: int):
     rng = np.random.default_rng(1)
     t = np.arange(n) / FS
-    dur = n / FS
-    period = dur / 2.2
     fs = FS
+    spf = 12.0  # samples per reference fringe on the straight parts of the scan
     wob, rounding, amp, centre, src = 0.05, 0.2, 0.5, 0.6, ("line", 0.0)
     single = False
     if case == "abrupt":
@@ -46,14 +45,14 @@ def make(case: str, n: int):
     elif case == "wobble":
         wob = 0.3
     elif case == "undersampled":
-        # 3.4 samples per fringe at this speed
-        amp = 3.4 ** -1 * FS * rm.HENE_NM * 1e-7 * period / 4
+        spf = 3.4
     elif case == "comb":
         src = ("comb", 0.0)
         amp, centre = 0.8, 0.7
     elif case == "edge":
         src = ("line", 0.5)
         amp, centre = 0.15, 0.17
+    period = 4 * amp / (FS * rm.HENE_NM * 1e-7 / spf)  # triangle of OPD speed 4A/T
     tau = rm.wobbled_time(t, depth=wob, freq_hz=3.0)
     x = rm.triangle_opd(tau, amplitude_cm=amp, period_s=period, rounding=rounding, phase=0.1,
                         centre_cm=centre)
@@ -81,7 +80,7 @@ def main() -> None:
     from ftsource.errors import FtsourceError
 
     opts = AnalysisOptions(medium="vacuum")
-    analyze(make("clean", 1 << 18), opts)  # warm-up: imports
+    analyze(make("clean", 1 << 19), opts)  # warm-up: imports
     times = {}
     for case in args.cases.split(","):
         rec = make(case, n)
