@@ -513,10 +513,17 @@ def _setup(record, options) -> _Setup:
 
 def _sampling(record, setup: _Setup) -> _Sampling:
     """The optical path from the reference and the limits of the time sampling."""
-    from ftsource.interferogram import resample
+    from ftsource.interferogram import channels, resample
     from ftsource.interferogram.scale import OpdKind
 
     options, fs, scale = setup.options, setup.sample_rate_hz, setup.scale
+    # refuse at once what cannot give a spectrum (a dead source channel, an undersampled
+    # reference) rather than after the whole chain
+    channels.check_signal_channel(record.columns["signal"])
+    if scale.uses_reference_laser:
+        channels.check_reference_sampling(
+            record.columns, scale.kind.value, fs, scale.fringe_wavelength_nm
+        )
     path = _optical_path(record, options, fs, scale)
     notes = tuple(path.warnings)
     if scale.kind is OpdKind.ENCODER:
@@ -527,11 +534,6 @@ def _sampling(record, setup: _Setup) -> _Sampling:
         beta = options.bandwidth_fraction or resample.BANDWIDTH_FRACTION_ADC
     limits = resample.sampling_limits(path, fs, scale.fringe_wavelength_nm,
                                       bandwidth_fraction=beta)
-    if limits.samples_per_reference_fringe < 4 and scale.uses_reference_laser:
-        notes += (
-            f"only {limits.samples_per_reference_fringe:.1f} samples per reference fringe at the "
-            "fastest mirror speed: sample faster or scan slower (at least 4 per fringe)",
-        )
     return _Sampling(path, limits, beta, notes)
 
 
@@ -576,6 +578,7 @@ def _spectra(setup: _Setup, sampling: _Sampling, sweeps: _Sweeps, planner) -> _S
                                 phase_correction=options.phase_correction, planner=planner)
         for ig in ifgs
     ]
+    sweep_specs = _check_zpd_across_sweeps(sweep_specs, ifgs)
     rejected, notes = sweeps.rejected, ()
     if any(s.zpd_found for s in sweep_specs) and not all(s.zpd_found for s in sweep_specs):
         # a magnitude spectrum of a sweep that misses ZPD does not mix with phase-corrected
@@ -589,15 +592,19 @@ def _spectra(setup: _Setup, sampling: _Sampling, sweeps: _Sweeps, planner) -> _S
             f"{len(dropped)} sweep(s) that do not reach zero path difference were left out "
             "(the others do, and give phase-corrected spectra)",
         )
+    notes += _burst_notes(sweep_specs)
     sigma_app = np.arange(n_fft // 2 + 1) / (n_fft * sampling.limits.dx_cm)
     factor = _index_factor(sigma_app, setup.scale, options)
     spec = spectrum.coadd(sweep_specs, sigma_app, options.apodization).with_axis(
         sigma_app * factor)
     if not any(s.zpd_found for s in sweep_specs):
         notes += (
-            "no sweep reaches zero path difference (no centre burst): magnitude spectra were "
-            "used, so line shapes are only approximate and max_opd_mm is half of each sweep's "
-            "span",
+            "zero path difference could not be located in any sweep (no centre burst: a "
+            "narrow line keeps its fringe contrast over the whole scan, so its centre burst "
+            "cannot be seen even when the scan crosses equal arms, and a broad source shows "
+            "none when the scan misses it): magnitude spectra were used, so line shapes are "
+            "only approximate and the maximum path difference (and resolution) is that of half "
+            "of each sweep's span",
         )
     return _Spectra(tuple(sweep_specs), ifgs, spec, sigma_app, factor, rejected,
                     sweeps.channel_delay, sweeps.notes + notes)
@@ -640,6 +647,8 @@ def _lines(record, setup: _Setup, sampling: _Sampling, spectra: _Spectra) -> _Li
         for fl, a in zip(flags, aliasing, strict=True)
     ]
     source_lines = [f for f, fl in zip(found, flags, strict=True) if fl is None]
+    notes += _wobble_notes(source_lines, sampling.path, setup.sample_rate_hz,
+                           spec.resolution_per_cm)
     fov = _field_of_view_factor(source_lines, options)
     if fov != 1.0:
         spectra = replace(spectra, spectrum=spec.with_axis(spec.sigma_per_cm * fov))
@@ -731,6 +740,90 @@ def _safety_notes(source_lines) -> tuple[str, ...]:
             for f in ir
         )
     return ()
+
+
+def _check_zpd_across_sweeps(sweep_specs, ifgs):
+    """Sweep spectra whose ZPD another sweep of the same stretch of reference contradicts
+    (:func:`ftsource.interferogram.zpd.conflicting_zpd`) marked ambiguous: it may be a
+    coherence revival seen in a sweep that does not reach the true ZPD."""
+    from ftsource.interferogram.zpd import conflicting_zpd
+
+    by_index = {ig.sweep.index: ig for ig in ifgs}
+    igs = [by_index[s.sweep_index] for s in sweep_specs]
+    if len(igs) < 2:
+        return sweep_specs
+    spans = [ig.span_cm for ig in igs]
+    bad = conflicting_zpd(
+        [s.x_zpd_cm if s.zpd_found else np.nan for s in sweep_specs],
+        [ig.sweep.segment for ig in igs],
+        [(ig.x0_cm, ig.x0_cm + ig.span_cm) for ig in igs],
+        [s.peak_cm for s in sweep_specs],
+        tolerance_cm=0.05 * float(np.median(spans)),
+    )
+    return [replace(s, zpd_ambiguous=True) if b else s
+            for s, b in zip(sweep_specs, bad, strict=True)]
+
+
+def _wobble_notes(source_lines, path, fs, resolution_per_cm) -> tuple[str, ...]:
+    """Name the weak lines that sit where an uneven mirror speed would put artefacts
+    (:mod:`ftsource.interferogram.wobble`)."""
+    from ftsource.interferogram.wobble import (
+        ARTEFACT_LEVEL,
+        WOBBLE_NOTE_DEPTH,
+        artefact_offsets,
+        speed_wobble,
+    )
+
+    if len(source_lines) < 2:
+        return ()
+    wob = speed_wobble(path.opd_cm, path.sweeps, fs)
+    offsets = artefact_offsets(wob)
+    if wob.depth < WOBBLE_NOTE_DEPTH or not offsets.size:
+        return ()
+    main = max(source_lines, key=lambda f: f.area)
+    suspect = [
+        f for f in source_lines
+        if f is not main and f.area < ARTEFACT_LEVEL * main.area
+        and np.min(np.abs(abs(f.centre_per_cm - main.centre_per_cm) - offsets))
+        < 2 * resolution_per_cm
+    ]
+    if not suspect:
+        return ()
+    where = ", ".join(f"{1e7 / f.centre_per_cm:.3f} nm" for f in suspect)
+    return (
+        f"the mirror speed varies by ±{wob.depth:.0%} with a period of "
+        f"{wob.period_cm * 10:.3g} mm of path; the weak line(s) at {where} sit where that "
+        f"wobble puts artefacts beside the main line (±{offsets[0]:.3g} cm⁻¹ and multiples) "
+        f"and are weaker than {ARTEFACT_LEVEL:g} of it: they may be artefacts of the scan, not "
+        "side modes. Drive the mirror more evenly, or record again at another speed: an "
+        "artefact moves with the wobble, a side mode does not",
+    )
+
+
+def _burst_notes(sweep_specs) -> tuple[str, ...]:
+    """Say when the burst used as a sweep's phase reference may be a coherence revival (or a
+    beat maximum of close lines) rather than zero path difference."""
+    amb = [s for s in sweep_specs if s.zpd_found and s.zpd_ambiguous]
+    if not amb:
+        return ()
+    spacings = [s.burst_spacing_cm for s in amb if np.isfinite(s.burst_spacing_cm)]
+    L_mm = float(np.median([s.L_cm for s in amb])) * 10
+    if spacings:
+        d_mm = float(np.median(spacings)) * 10
+        apart = (f", {d_mm:.4g} mm of path apart (coherence revivals of a multimode laser whose "
+                 f"modes are {10 / d_mm:.4g} cm⁻¹ apart, or the beat of close lines)")
+    else:
+        apart = (" (seen in this sweep or, cut by its end, in another sweep over the same "
+                 "path: a coherence revival of a multimode laser, or the beat of close lines)")
+    return (
+        f"{len(amb)} sweep(s) hold several bursts of nearly equal height{apart}: the strongest "
+        "served as the phase reference, but it may be a revival rather than zero path "
+        "difference. Line "
+        f"positions do not depend on it; the maximum path difference ({L_mm:.4g} mm) and the "
+        "resolution count from that burst, and widths and coherence lengths that take it "
+        "for zero path difference are not reliable. Scan across the true zero path "
+        "difference (the burst that the revivals' heights fall away from) to measure them",
+    )
 
 
 def _field_of_view_factor(source_lines, options) -> float:
@@ -849,7 +942,8 @@ def _sweep_outliers(spec, sweep_specs, found, fit_cache=None):
         return out, ()
     return out, (
         f"{len(out)} sweep(s) were left out as outliers of the line centre (see "
-        "processing.rejected_sweeps): look for vibration, a slipping reference or a loose mount",
+        "the rejected sweeps of the result): look for vibration, a slipping reference or a "
+        "loose mount",
     )
 
 
@@ -925,6 +1019,6 @@ def _flag_lines(found, lam_ref, sigma_alias, kind, record):
         notes.append(
             f"{n_ghost} spectral feature(s) were flagged as not from the source (reference "
             "ghost, harmonic or intermodulation product of a clipped detector, or beyond the "
-            "alias-free limit); see 'flag' in lines"
+            "alias-free limit); each such line carries its reason"
         )
     return flags, tuple(notes)

@@ -116,6 +116,11 @@ def build_parser() -> argparse.ArgumentParser:
     a.add_argument("--overwrite", action="store_true",
                    help="replace result files already in --out (default: refuse)")
     _add_fft_options(a)
+    a.add_argument(
+        "--strict", action="store_true",
+        help="exit with status 1 (after writing the result) when no source line is found "
+             "(default: exit 0 with a warning)",
+    )
 
     b = sub.add_parser("batch", help="analyse many records in parallel, one summary table",
                        epilog=SAFETY_LINE)
@@ -540,6 +545,12 @@ def _cmd_analyze(args, out, err) -> int:
         write_outputs(result, args.out, overwrite=args.overwrite)
     _save_wisdom(planner, args)
     out.write(text)
+    if args.strict and not any(ln["flag"] is None for ln in result.to_dict()["lines"]):
+        err.write(
+            "error: no source found (--strict): no spectral line stands above the noise; check "
+            "that the source reaches the detector, its gain and the column mapping\n"
+        )
+        return 1
     return 0
 
 
@@ -705,6 +716,10 @@ def _cmd_simulate(args, out, err) -> int:
         wavelength_nm=_qty(args.reference_wavelength, "nm", "--reference-wavelength",
                            positive=True),
     )
+    if ref.kind in ("quadrature", "single"):
+        msg = sim.undersampling_message(scan, ref.wavelength_nm)
+        if msg:
+            raise OptionError(msg)
     result = sim.simulate(model, scan, ref, sim.Detector(noise_rms=args.noise),
                           medium=args.medium, rng=args.seed)
     rec = result.record
@@ -1012,7 +1027,8 @@ def _cmd_response(args, out, err) -> int:
 def main(argv=None) -> int:
     """Run the command line; returns the exit status.
 
-    0: done (a result may carry warnings). 2: the user's input cannot be used, reported as one
+    0: done (a result may carry warnings). 1: ``analyze --strict`` found no source line (the
+    result is still written and printed). 2: the user's input cannot be used, reported as one
     ``error: ...`` line on standard error; nothing is written. 3: a bug in ftsource (one
     ``error: internal error ...`` line). 130: interrupted. No exception leaves this function
     (``--help`` returns 0 instead of raising ``SystemExit``).

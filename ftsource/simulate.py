@@ -40,6 +40,7 @@ __all__ = [
     "led",
     "multimode",
     "simulate",
+    "undersampling_message",
     "mirror_trajectory",
 ]
 
@@ -248,6 +249,32 @@ class Scan:
             2 * np.pi * self.vibration_hz * self.vibration_cm
         )
 
+    def reference_samples_per_fringe(self, reference_wavelength_nm: float) -> float:
+        """Samples per reference fringe at the fastest OPD speed, the wobble's peak included
+        (its relative size ``speed_jitter`` taken twice: a sum of sinusoids of unit RMS peaks
+        near twice its RMS)."""
+        v = self.peak_opd_speed_cm_s * (1 + 2 * self.speed_jitter)
+        return self.sample_rate_hz * reference_wavelength_nm * 1e-7 / v if v > 0 else np.inf
+
+
+def undersampling_message(scan: Scan, reference_wavelength_nm: float) -> str:
+    """Why these settings undersample the reference, and what to change ('' when they do
+    not): the analysis refuses below
+    :data:`ftsource.interferogram.channels.MIN_SAMPLES_PER_FRINGE` samples per fringe."""
+    from ftsource.interferogram.channels import MIN_SAMPLES_PER_FRINGE
+
+    spf = scan.reference_samples_per_fringe(reference_wavelength_nm)
+    if spf >= MIN_SAMPLES_PER_FRINGE:
+        return ""
+    fs_ok = scan.sample_rate_hz * MIN_SAMPLES_PER_FRINGE / spf
+    rate_ok = scan.sweep_rate_hz * spf / MIN_SAMPLES_PER_FRINGE
+    return (
+        f"these settings give {spf:.2f} samples per reference fringe at the fastest mirror "
+        f"speed, below the {MIN_SAMPLES_PER_FRINGE:g} the analysis needs: sample at "
+        f"{fs_ok:.4g} Hz or more (--sample-rate), or sweep at {rate_ok:.3g} Hz or less "
+        "(--sweep-rate), or scan a shorter OPD (--opd-amplitude)"
+    )
+
 
 @dataclass(frozen=True)
 class ReferenceChannel:
@@ -426,6 +453,14 @@ def simulate(
 
         air = AirConditions()
 
+    if reference.kind in ("quadrature", "single"):
+        msg = undersampling_message(scan, reference.wavelength_nm)
+        if msg:
+            import warnings
+
+            from ftsource.errors import FtsourceWarning
+
+            warnings.warn(msg, FtsourceWarning, stacklevel=2)
     n = scan.n_samples
     t = np.arange(n) / scan.sample_rate_hz
     d = mirror_trajectory(scan, t, rng)

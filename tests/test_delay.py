@@ -134,9 +134,9 @@ def test_bad_options():
 
 
 def test_shift_time_for_delay_closed_form():
-    # Closed form: cos(2πf(t + τ)). Cubic B-spline interpolation of a sinusoid at 0.05 f_s errs
-    # by about (πf/f_s)⁴/… < 1e-4 of the amplitude (Unser 1999, the spline's frequency
-    # response); the mirrored ends are excluded.
+    # Closed form: cos(2πf(t + τ)). B-spline interpolation (quintic, as the resampling's) of a
+    # sinusoid at 0.05 f_s errs by about (πf/f_s)⁶/… < 1e-4 of the amplitude (Unser 1999, the
+    # spline's frequency response); the mirrored ends are excluded.
     f, tau = 0.05 * FS, 13.7e-6
     t = np.arange(4000) / FS
     out = D.shift_time_for_delay(np.cos(2 * np.pi * f * t), tau, FS)

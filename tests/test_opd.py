@@ -22,7 +22,7 @@ import numpy as np
 import pytest
 
 from ftsource import simulate as S
-from ftsource.errors import AnalysisError
+from ftsource.errors import AnalysisError, FtsourceWarning
 from ftsource.interferogram import opd
 
 REF_NM = 632.991
@@ -238,7 +238,8 @@ def test_quadrature_lost_samples_are_split_never_rescaled():
 def test_quadrature_sampled_too_slowly_is_split_not_rescaled():
     # At 16 kHz the fastest stretches move 0.54 fringe per sample (steps beyond ±0.6π and
     # aliasing): those stretches are cut out, what remains is right.
-    sim = record("quadrature", sample_rate_hz=16_000.0)
+    with pytest.warns(FtsourceWarning, match="samples per reference fringe"):
+        sim = record("quadrature", sample_rate_hz=16_000.0)  # simulate says it undersamples
     peak = np.max(np.abs(np.diff(sim.opd_cm))) / LAM_CM
     assert 0.5 < peak < 0.6
     path = analyse("quadrature", sim.record.columns, fs=16_000.0)

@@ -503,7 +503,7 @@ def shift_time_for_delay(signal, delay_s: float, sample_rate_hz: float) -> np.nd
 
     Feed the result to :func:`ftsource.interferogram.resample.resample_sweeps` in place of the
     signal: every sample then belongs to the mirror position of its own instant, whatever the
-    speed. The value between samples comes from the cubic B-spline that the resampling uses
+    speed. The value between samples comes from the B-spline that the resampling uses
     (Unser 1999), on coefficients with mirror boundaries; the last ``⌈τ·f_s⌉ + 2`` samples
     (the first, for a negative ``τ``) lean on the mirrored boundary and are unreliable.
 
@@ -525,9 +525,7 @@ def shift_time_for_delay(signal, delay_s: float, sample_rate_hz: float) -> np.nd
     ----------
     .. [1] M. Unser, IEEE Signal Processing Magazine 16(6), 22–38 (1999).
     """
-    from scipy.ndimage import map_coordinates
-
-    from ftsource.interferogram.resample import _spline_coefficients
+    from ftsource.interferogram.resample import _spline_at, _spline_coefficients
 
     if not (sample_rate_hz > 0):
         raise OptionError(f"sample_rate_hz must be positive, got {sample_rate_hz!r}")
@@ -536,4 +534,4 @@ def shift_time_for_delay(signal, delay_s: float, sample_rate_hz: float) -> np.nd
     s = np.asarray(signal, float)
     coeffs = _spline_coefficients(s)
     idx = np.arange(s.size, dtype=float) + delay_s * sample_rate_hz
-    return map_coordinates(coeffs, [idx], order=3, mode="mirror", prefilter=False)
+    return _spline_at(coeffs, idx)

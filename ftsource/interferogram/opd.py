@@ -24,6 +24,11 @@ import numpy as np
 
 from ftsource.errors import AnalysisError, OptionError
 from ftsource.interferogram.scale import HENE_VACUUM_WAVELENGTH_NM, OpdKind
+from ftsource.interferogram.turnarounds import (
+    abrupt_steps_note,
+    drop_suspect_sweeps,
+    phase_steps,
+)
 
 __all__ = [
     "EllipseFit",
@@ -633,7 +638,9 @@ def opd_from_single(
     seg_ids = []
     slips = 0
     noisy = 0
-    for run_id, (a, b) in enumerate(runs):
+    abrupt: list[float] = []  # times (s) of abrupt phase steps
+    n_ids = 0
+    for a, b in runs:
         seg = cn[a:b]
         m = next_fast_len(seg.size)
         spec = fft(seg, m)
@@ -653,13 +660,26 @@ def opd_from_single(
         a2, b2 = a + cut, b - cut
         rate = np.gradient(psi)
         rate_s = uniform_filter1d(rate, max(int(period), 3))
-        # slips: rate spikes far from the smooth rate
-        spikes = np.flatnonzero(np.abs(rate - rate_s) > np.pi / 2)
-        slips += int(spikes.size > 0)
         med = np.median(rate_s)
         slow = rate_s < 0.25 * med
         # one turnaround gives one slow stretch: close gaps shorter than a few fringes
         slow = _close_gaps(slow, max(int(4 * period), 3))
+        # abrupt turnarounds (and fringe-count slips) keep the fringe rate but step the phase
+        # (ftsource.interferogram.turnarounds); they are cut out like slow stretches, and the
+        # OPD after each is a new segment (its origin is not known to a fraction of a fringe)
+        cut_half = int(7 * period) + 1
+        # a smooth turnaround slows the fringes well before the slow stretch; there the
+        # normalisation lags and the phase wanders: steps within the slowing that leads to a
+        # slow stretch (rate below 0.97× the median), or a few fringes from it, belong to it
+        slowing = np.zeros_like(slow)
+        for r0, r1 in _runs(rate_s < 0.97 * med):
+            if slow[r0:r1].any():
+                slowing[r0:r1] = True
+        near_slow = maximum_filter1d(slowing, 2 * (int(12 * period) + 1) + 1)
+        steps = [int(k) for k in phase_steps(psi, period) if not near_slow[k]]
+        for k in steps:
+            slow[max(k - cut_half, 0) : k + cut_half] = True
+        abrupt += [(a2 + k) / sample_rate_hz for k in steps]
         # fringes have a steady analytic-signal envelope; noise alone has a Rayleigh-distributed
         # one (coefficient of variation √(4/π − 1) ≈ 0.52): such a stretch holds no fringes
         env = env[~slow]
@@ -696,7 +716,9 @@ def opd_from_single(
         x[a2:b2] = xs * lam_cm / (2 * np.pi)
         fast_runs = [(a2 + p0, a2 + p1) for p0, p1 in _runs(~slow) if p1 - p0 >= 64]
         seg_runs += fast_runs
-        seg_ids += [run_id] * len(fast_runs)
+        # a new segment after every abrupt step: count the steps before each stretch
+        seg_ids += [n_ids + sum(a2 + k < r0 for k in steps) for r0, _ in fast_runs]
+        n_ids += len(steps) + 1
     if noisy:
         msg = (
             f"{noisy} stretch(es) of the reference channel show noise, not fringes (the analytic "
@@ -706,19 +728,13 @@ def opd_from_single(
         if not seg_runs:
             raise AnalysisError(f"no fringes found on the reference channel: {msg}")
         warnings.append(msg + " They were not used.")
-    if slips:
-        warnings.append(
-            "the reference phase jumped in places (possible fringe-count slips): the affected "
-            "stretches were split; check the reference detector's signal level"
-        )
-    spf = period
-    if spf < 4:
-        warnings.append(
-            f"the reference fringes are sampled only {spf:.1f} times per fringe: sample faster "
-            "than 4 samples per reference fringe"
-        )
+    if abrupt:
+        warnings.append(abrupt_steps_note(abrupt))
     sweeps = _split_sweeps(x, seg_runs, sample_rate_hz, lam_cm, segment_ids=seg_ids)
-    _check_sweeps(sweeps, "single-channel")
+    _check_sweeps(sweeps, OpdKind.SINGLE)
+    sweeps, note = drop_suspect_sweeps(sweeps)
+    if note:
+        warnings.append(note)
     return OpticalPath(
         opd_cm=x,
         kind=OpdKind.SINGLE,

@@ -19,10 +19,34 @@ import numpy as np
 
 from ftsource.errors import OptionError, RecordError
 
-__all__ = ["ZpdInfo", "find_zpd", "interferogram_arrays", "uniform_step_cm"]
+__all__ = [
+    "ZpdInfo",
+    "find_zpd",
+    "interferogram_arrays",
+    "uniform_step_cm",
+    "BURST_RATIO",
+    "AMBIGUOUS_RATIO",
+    "EDGE_FRINGES",
+    "EDGE_SAMPLES",
+    "conflicting_zpd",
+]
 
 #: Short side at least this fraction of the long side counts as double-sided.
 DOUBLE_SIDED_RATIO = 0.8
+#: Another envelope maximum at least this fraction of the strongest, separated from it by a
+#: fall below the centroid threshold, is a further burst (a coherence revival of a multimode
+#: laser, or the beat maximum of close lines).
+BURST_RATIO = 0.5
+#: A further burst at least this fraction of the strongest makes the choice of ZPD ambiguous:
+#: the modes of a laser narrower than the scan's resolution revive to nearly full height, so
+#: the strongest burst may be a revival (common practice: revival heights fall with the modes'
+#: coherence, exp(-π Δσ_mode x) for Lorentzian modes).
+AMBIGUOUS_RATIO = 0.8
+#: The burst's region above the centroid threshold must end at least this many periods of its
+#: carrier, and :data:`EDGE_SAMPLES` samples, from either end of the record: a burst rises and
+#: falls inside the record, its fall is not the analytic signal's dip at the record's end.
+EDGE_FRINGES = 4.0
+EDGE_SAMPLES = 16
 
 
 @dataclass(frozen=True)
@@ -53,6 +77,19 @@ class ZpdInfo:
     long_side_cm: float
     prominence: float
     reason: str
+    #: Bursts in the record at least :data:`BURST_RATIO` of the strongest, it included (a burst
+    #: cut by an end of the record counts).
+    n_bursts: int = 1
+    #: Median distance between neighbouring complete bursts, cm (NaN with one).
+    burst_spacing_cm: float = float("nan")
+    #: True when another burst reaches :data:`AMBIGUOUS_RATIO` of the one taken as ZPD, or a
+    #: burst cut by an end of the record reaches :data:`BURST_RATIO` of it: the strongest may
+    #: then be a coherence revival (or a beat maximum) rather than ZPD.
+    ambiguous: bool = False
+    #: OPD of the envelope's maximum, cm, also when no ZPD was found (a burst cut by an end
+    #: lies there); NaN for a constant record. Sweeps of one stretch of reference share their
+    #: OPD origin, so this tells where each saw its strongest burst.
+    peak_cm: float = float("nan")
 
     @property
     def kind(self) -> str:
@@ -157,8 +194,9 @@ def analytic_envelope(y: np.ndarray) -> np.ndarray:
     return np.hypot(y, h, out=h)
 
 
-def _not_found(prominence: float, reason: str) -> ZpdInfo:
-    return ZpdInfo(False, float("nan"), -1, float("nan"), float("nan"), prominence, reason)
+def _not_found(prominence: float, reason: str, peak_cm: float = float("nan")) -> ZpdInfo:
+    nan = float("nan")
+    return ZpdInfo(False, nan, -1, nan, nan, prominence, reason, 1, nan, False, peak_cm)
 
 
 def find_zpd(
@@ -226,6 +264,7 @@ def find_zpd(
             f"below {min_prominence:g} (a narrow line has a flat envelope)",
         )
     i_peak = int(np.argmax(env))
+    peak_cm = float(x[0] + i_peak * step)
     t = threshold * peak
     above = env >= t
     lo = i_peak
@@ -238,7 +277,24 @@ def find_zpd(
         return _not_found(
             prominence,
             "the centre burst touches the end of the record; ZPD may lie outside the scan",
+            peak_cm,
         )
+    # The burst's region above the threshold must end well inside the record: at least
+    # EDGE_FRINGES periods of its carrier (and EDGE_SAMPLES samples) from either end. Near an
+    # end the analytic signal's envelope dips (the transform of a truncated record), so a
+    # sweep that starts on the falling envelope of a broad line shows a "burst" bounded by
+    # that dip a few samples from its start, with no rise of its own before it.
+    margin = max(EDGE_SAMPLES, EDGE_FRINGES * _carrier_period(yy[lo : hi + 1]))
+    if lo < margin or n - 1 - hi < margin:
+        return _not_found(
+            prominence,
+            "the strongest part of the envelope lies at the edge of the sweep and does not "
+            "rise and fall within it (the sweep starts or ends on a decaying envelope): ZPD "
+            "is not in the sweep",
+            peak_cm,
+        )
+    n_bursts, spacing, ambiguous = _other_bursts(env, lo, hi, peak, threshold, abs(step),
+                                                  margin)
     idx = np.arange(lo, hi + 1)
     w = np.clip(env[idx] ** 2 - t * t, 0.0, None)
     i_zpd = float(np.sum(idx * w) / np.sum(w))
@@ -254,4 +310,107 @@ def find_zpd(
         float(max(side_a, side_b)),
         float(prominence),
         "",
+        n_bursts,
+        spacing,
+        ambiguous,
+        peak_cm,
     )
+
+
+def _carrier_period(y: np.ndarray) -> float:
+    """Period (samples) of the fringes in ``y``, from its mean-level crossings (two per
+    period); 0 when there are too few."""
+    c = np.flatnonzero(np.diff(np.signbit(y - np.mean(y))))
+    return float(2 * np.median(np.diff(c))) if c.size >= 3 else 0.0
+
+
+def _other_bursts(env, lo, hi, peak, threshold, step_cm, margin):
+    """Further bursts of the envelope besides the one at ``lo:hi``: their count (the main one
+    included), the median spacing of neighbouring bursts (cm) and whether one of them reaches
+    :data:`AMBIGUOUS_RATIO` of the peak.
+
+    A further burst is an envelope maximum of at least :data:`BURST_RATIO` × ``peak`` whose
+    region above ``threshold`` × its height is separate from the others'. One that reaches
+    within ``margin`` samples of an end is cut: it counts, makes the choice ambiguous (its
+    top may be higher than the main burst) and has no centre for the spacing.
+    """
+    n = env.size
+    free = np.ones(n, bool)
+    free[lo : hi + 1] = False
+    centres = [(lo + hi) / 2]
+    heights = [peak]
+    cut_heights: list[float] = []
+    for _ in range(16):
+        cand = np.where(free, env, 0.0)
+        k = int(np.argmax(cand))
+        h = float(cand[k])
+        if h < BURST_RATIO * peak:
+            break
+        t = threshold * h
+        a = k
+        while a > 0 and env[a - 1] >= t and free[a - 1]:
+            a -= 1
+        b = k
+        while b < n - 1 and env[b + 1] >= t and free[b + 1]:
+            b += 1
+        # it must fall below its threshold on both sides before meeting another burst's
+        # region; one cut by the record's end (within ``margin``) has no measurable centre but
+        # may be the true ZPD, its top cut off
+        cut = a < margin or b >= n - 1 - margin
+        separate = (a == 0 or env[a - 1] < t) and (b == n - 1 or env[b + 1] < t)
+        free[a : b + 1] = False
+        if separate and cut:
+            cut_heights.append(h)
+        elif separate:
+            centres.append((a + b) / 2)
+            heights.append(h)
+    n_bursts = len(centres) + len(cut_heights)
+    ambiguous = bool(
+        max(heights[1:], default=0.0) >= AMBIGUOUS_RATIO * peak or cut_heights
+    )
+    if len(centres) == 1:
+        return n_bursts, float("nan"), ambiguous
+    c = np.sort(np.asarray(centres))
+    return n_bursts, float(np.median(np.diff(c)) * step_cm), ambiguous
+
+
+def conflicting_zpd(
+    zpd_cm, segments, ranges_cm, peaks_cm, *, tolerance_cm: float
+) -> np.ndarray:
+    """Which sweeps' ZPD another sweep of the same stretch of reference contradicts.
+
+    ZPD is one OPD for every sweep whose OPD shares an origin (a ``segment``). Sweep j
+    contradicts sweep i's ZPD ``x_i`` when x_i lies inside j's range and j's strongest burst
+    (found as ZPD, or cut by j's end) lies more than ``tolerance_cm`` from x_i: j sees a burst
+    at least as strong elsewhere, so x_i may be a coherence revival rather than ZPD.
+
+    Parameters
+    ----------
+    zpd_cm : array_like
+        Each sweep's ZPD, cm (NaN when none was found).
+    segments : array_like of int
+    ranges_cm : array_like, shape (n, 2)
+        Each sweep's OPD range, cm.
+    peaks_cm : array_like
+        OPD of each sweep's envelope maximum, cm (:attr:`ZpdInfo.peak_cm`; NaN: none).
+    tolerance_cm : float
+        How far apart two sightings of one burst may be (forward/backward sweeps shift it by
+        the channel delay, a few µm).
+
+    Returns
+    -------
+    ndarray of bool
+    """
+    z = np.asarray(zpd_cm, float)
+    seg = np.asarray(segments)
+    rng = np.asarray(ranges_cm, float).reshape(-1, 2)
+    pk = np.asarray(peaks_cm, float)
+    out = np.zeros(z.size, bool)
+    for i in np.flatnonzero(np.isfinite(z)):
+        for j in range(z.size):
+            if j == i or seg[j] != seg[i] or not np.isfinite(pk[j]):
+                continue
+            lo, hi = np.min(rng[j]), np.max(rng[j])
+            if lo < z[i] < hi and abs(pk[j] - z[i]) > tolerance_cm:
+                out[i] = True
+    return out

@@ -372,6 +372,14 @@ class SweepSpectrum:
     zpd_found: bool
     x_zpd_cm: float
     sweep_index: int
+    #: Bursts in the sweep (:class:`ftsource.interferogram.zpd.ZpdInfo`), their spacing (cm)
+    #: and whether the one used as the phase reference may be a revival rather than ZPD.
+    n_bursts: int = 0
+    burst_spacing_cm: float = float("nan")
+    zpd_ambiguous: bool = False
+    #: OPD of the sweep's envelope maximum, cm (:attr:`ZpdInfo.peak_cm`; NaN when not looked
+    #: for).
+    peak_cm: float = float("nan")
 
 
 @dataclass(frozen=True)
@@ -468,7 +476,8 @@ def sweep_spectrum(
             zpd = None
     if zpd is not None and zpd.found:
         return SweepSpectrum(
-            ps.real, ps.imag_residual, ps.L_cm, ps.method, True, zpd.x_zpd_cm, ifg.sweep.index
+            ps.real, ps.imag_residual, ps.L_cm, ps.method, True, zpd.x_zpd_cm, ifg.sweep.index,
+            zpd.n_bursts, zpd.burst_spacing_cm, zpd.ambiguous, zpd.peak_cm,
         )
     # no ZPD: magnitude about the sweep's centre, L = half the span
     half = (ifg.y.size - 1) // 2
@@ -479,7 +488,8 @@ def sweep_spectrum(
         planner=planner,
     )
     return SweepSpectrum(
-        ps.real, ps.imag_residual, ps.L_cm, "magnitude", False, float("nan"), ifg.sweep.index
+        ps.real, ps.imag_residual, ps.L_cm, "magnitude", False, float("nan"), ifg.sweep.index,
+        peak_cm=zpd.peak_cm if zpd is not None else float("nan"),
     )
 
 
