@@ -270,9 +270,9 @@ def _add_fft_options(a) -> None:
     """FFT options of the commands that analyse records for their results (analyze, batch)."""
     a.add_argument("--fft-wisdom", metavar="FILE",
                    help="FFTW wisdom file: read when it exists, written back with the plans "
-                        "made (pays off with --fft-planning measure)")
+                        "made (pays off with --fft-planning measure; default: none)")
     a.add_argument("--fft-threads", type=int, default=1, metavar="N",
-                   help="FFTW threads per transform (default 1)")
+                   help="FFTW threads per transform (default: 1)")
 
 
 def _add_analysis_options(a) -> None:
