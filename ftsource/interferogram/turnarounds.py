@@ -140,14 +140,19 @@ def suspect_spans(spans: np.ndarray, *, ratio: float = SPAN_RATIO) -> np.ndarray
     """Which sweeps are much longer than the others (may hold an unseen turnaround).
 
     Each sweep's OPD span is compared with the median span of the longer half of the *other*
-    sweeps; with fewer than three sweeps nothing can be told and nothing is flagged.
+    sweeps inside the record (the first and last sweeps are cut by the record's start and end,
+    so they never serve as the comparison); with no such other sweep nothing can be told and
+    nothing is flagged (a record of one full sweep between two partial ones is normal).
     """
     s = np.asarray(spans, float)
     out = np.zeros(s.size, bool)
     if s.size < 3:
         return out
+    interior = np.arange(1, s.size - 1)
     for k in range(s.size):
-        others = np.sort(np.delete(s, k))
+        others = np.sort(s[interior[interior != k]])
+        if others.size == 0:
+            continue
         # the longer half of the others: partial sweeps at the record's ends and fragments
         # between close steps do not lower the comparison
         out[k] = s[k] > ratio * float(np.median(others[others.size // 2 :]))
