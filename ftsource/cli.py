@@ -118,6 +118,55 @@ def build_parser() -> argparse.ArgumentParser:
     r.add_argument("--save", metavar="FILE", required=True, help="response file (ECSV) to write")
     r.add_argument("--overwrite", action="store_true", help="replace an existing FILE")
     _add_analysis_options(r)
+
+    pl = sub.add_parser(
+        "plan", help="plan a scan and its optics: travel, speed, rates, aperture, lenses",
+        description="Each part runs when its options are given: the scan (--resolution), "
+                    "whether a line is resolved (--linewidth), the collimator (--lens1, "
+                    "--lens2) and a lens's focal length (--object-distance, --image-distance).",
+        epilog=SAFETY_LINE,
+    )
+    pl.add_argument("--resolution", metavar="QTY",
+                    help="wanted resolution (FWHM of the line shape): a wavenumber, e.g. "
+                         "0.5/cm, or a length, then at the band's short end, e.g. 0.02nm "
+                         "(default: no scan plan)")
+    pl.add_argument("--band", metavar="QTY:QTY", default="400nm:1100nm",
+                    help="shortest and longest vacuum wavelength to measure (default "
+                         "400nm:1100nm)")
+    pl.add_argument("--sample-rate", metavar="QTY", default="48kHz",
+                    help="recorder sample rate (default 48kHz)")
+    pl.add_argument("--bandwidth-fraction", type=float, default=0.45,
+                    help="usable fraction of the sample rate: 0.45 for a sound card, 0.5 for "
+                         "an ADC with a sharp anti-alias filter (default 0.45)")
+    pl.add_argument("--reference-wavelength", metavar="QTY", default="632.991nm",
+                    help="vacuum wavelength of the reference laser (default 632.991nm)")
+    pl.add_argument("--apodization", metavar="NAME", default="happ-genzel",
+                    help="apodization the analysis will use (default happ-genzel)")
+    pl.add_argument("--focal-length", metavar="QTY",
+                    help="collimator focal length, for the largest field-stop diameter "
+                         "(default: none, the solid angle only)")
+    pl.add_argument("--linewidth", metavar="QTY",
+                    help="expected FWHM of a source line, e.g. 0.001nm (default: no check)")
+    pl.add_argument("--wavelength", metavar="QTY",
+                    help="wavelength of that line (default: the band's short end)")
+    pl.add_argument("--max-opd", metavar="QTY",
+                    help="maximum OPD of the scan to check, e.g. 5mm (default: the planned "
+                         "scan's)")
+    pl.add_argument("--lens1", metavar="QTY",
+                    help="focal length of the collimator's first lens, e.g. 25mm (negative "
+                         "for a diverging lens; default: no collimator)")
+    pl.add_argument("--lens2", metavar="QTY", help="focal length of the second lens")
+    pl.add_argument("--spacing-error", metavar="QTY", default="0.5mm",
+                    help="error of the lens spacing for the residual divergence (default 0.5mm)")
+    pl.add_argument("--beam-diameter", metavar="QTY", default="2mm",
+                    help="diameter of the beam entering the first lens (default 2mm)")
+    pl.add_argument("--object-distance", metavar="QTY",
+                    help="object-to-lens distance of a sharp image (default: no lens "
+                         "measurement)")
+    pl.add_argument("--image-distance", metavar="QTY", help="lens-to-image distance")
+    pl.add_argument("--distance-uncertainty", metavar="QTY", default="1mm",
+                    help="standard uncertainty of each distance (default 1mm)")
+    pl.add_argument("--json", action="store_true", help="print the plan as JSON (default off)")
     return p
 
 
@@ -729,6 +778,112 @@ def _cmd_response(args, out, err) -> int:
     return 0
 
 
+def _cmd_plan(args, out, err) -> int:
+    import json
+    from dataclasses import asdict
+
+    from ftsource import plan as pl
+    from ftsource.errors import OptionError
+    from ftsource.quantity import parse_quantity
+
+    lo_text, sep, hi_text = args.band.partition(":")
+    if not sep:
+        raise OptionError(f"--band {_show(args.band)} is not QTY:QTY; write e.g. 400nm:1100nm")
+    lo = _qty(lo_text, "nm", "--band", positive=True)
+    hi = _qty(hi_text, "nm", "--band", positive=True)
+    report: dict = {}
+    lines: list[str] = []
+    scan = None
+    if args.resolution is not None:
+        q = parse_quantity(args.resolution, name="--resolution")
+        if q.unit.physical_type == "length":
+            res = _qty(args.resolution, "nm", "--resolution", positive=True) * 1e7 / lo**2
+        else:
+            res = _qty(args.resolution, "1/cm", "--resolution", positive=True)
+        f_coll = None if args.focal_length is None else _qty(args.focal_length, "mm",
+                                                              "--focal-length", positive=True)
+        scan = pl.plan_scan(
+            res, lo, longest_wavelength_nm=hi,
+            sample_rate_hz=_qty(args.sample_rate, "Hz", "--sample-rate", positive=True),
+            bandwidth_fraction=args.bandwidth_fraction,
+            reference_wavelength_nm=_qty(args.reference_wavelength, "nm",
+                                         "--reference-wavelength", positive=True),
+            apodization=args.apodization, focal_length=f_coll,
+        )
+        report["scan"] = {**asdict(scan), "aperture_diameter_mm": scan.aperture_diameter}
+        report["scan"].pop("aperture_diameter")
+        lines += [
+            f"scan for {res:.4g} cm⁻¹ ({res * lo**2 / 1e7:.3g} nm at {lo:g} nm) over "
+            f"{lo:g}–{hi:g} nm, {scan.apodization} apodization:",
+            f"  maximum OPD ±{scan.max_opd_cm * 10:.4g} mm: mirror travel "
+            f"{scan.mirror_travel_cm * 10:.4g} mm (±{scan.mirror_travel_cm * 5:.4g} mm about "
+            "zero path difference)",
+            f"  mirror speed at most {scan.mirror_speed_cm_s * 1e4:.4g} µm/s (OPD speed "
+            f"{scan.opd_speed_cm_s * 1e4:.4g} µm/s) at {scan.sample_rate_hz:g} Hz sampling",
+            f"  fringe rates: {scan.source_fringe_rate_hz:.4g} Hz at {lo:g} nm, reference "
+            f"{scan.reference_fringe_rate_hz:.4g} Hz; one sweep takes {scan.sweep_time_s:.3g} s",
+            f"  largest field (Jacquinot): {scan.solid_angle_sr:.3g} sr"
+            + ("" if scan.aperture_diameter is None else
+               f", a field stop of {scan.aperture_diameter:.3g} mm diameter at "
+               f"{f_coll:g} mm focal length"),
+        ]
+    if args.linewidth is not None:
+        lam = lo if args.wavelength is None else _qty(args.wavelength, "nm", "--wavelength",
+                                                      positive=True)
+        if args.max_opd is not None:
+            L = _qty(args.max_opd, "cm", "--max-opd", positive=True)
+        elif scan is not None:
+            L = scan.max_opd_cm
+        else:
+            raise OptionError("--linewidth needs --max-opd or --resolution (the scan to check)")
+        r = pl.resolvability(_qty(args.linewidth, "nm", "--linewidth", positive=True), lam, L,
+                             apodization=args.apodization)
+        report["resolvability"] = {**asdict(r), "max_opd_cm": L, "wavelength_nm": lam}
+        lines.append(
+            f"a line {r.line_fwhm_per_cm:.3g} cm⁻¹ wide at {lam:g} nm is "
+            + ("resolved" if r.resolved else "NOT resolved")
+            + f" by a scan to ±{L * 10:.4g} mm (line shape {r.ils_fwhm_per_cm:.3g} cm⁻¹); "
+            f"it is just resolved from ±{r.needed_max_opd_cm * 10:.4g} mm, measured well from "
+            f"about ±{2 * r.needed_max_opd_cm * 10:.4g} mm"
+        )
+    if (args.lens1 is None) != (args.lens2 is None):
+        raise OptionError("--lens1 and --lens2 go together: give both focal lengths")
+    if args.lens1 is not None:
+        f1 = _qty(args.lens1, "mm", "--lens1")
+        f2 = _qty(args.lens2, "mm", "--lens2")
+        d = pl.collimator_spacing(f1, f2)
+        err_mm = _qty(args.spacing_error, "mm", "--spacing-error")
+        radius = _qty(args.beam_diameter, "mm", "--beam-diameter", positive=True) / 2
+        theta = pl.residual_divergence(f1, f2, err_mm, radius)
+        report["collimator"] = {"f1_mm": f1, "f2_mm": f2, "spacing_mm": d,
+                                "magnification": -f2 / f1, "spacing_error_mm": err_mm,
+                                "beam_diameter_mm": 2 * radius, "residual_divergence_rad": theta}
+        lines.append(
+            f"collimator: lenses {f1:g} mm and {f2:g} mm spaced {d:.4g} mm (d = f1 + f2) expand "
+            f"the beam {abs(f2 / f1):.3g}×; a spacing error of {err_mm:g} mm leaves a "
+            f"{2 * radius:g} mm beam with a half-angle of {abs(theta) * 1e3:.3g} mrad"
+        )
+    if (args.object_distance is None) != (args.image_distance is None):
+        raise OptionError("--object-distance and --image-distance go together: give both")
+    if args.object_distance is not None:
+        u_d = _qty(args.distance_uncertainty, "mm", "--distance-uncertainty")
+        f, u_f = pl.focal_length_from_distances(
+            _qty(args.object_distance, "mm", "--object-distance", positive=True),
+            _qty(args.image_distance, "mm", "--image-distance", positive=True), u_d, u_d)
+        report["lens"] = {"focal_length_mm": f, "u_focal_length_mm": u_f}
+        lines.append(f"lens: focal length {f:.4g} mm (u = {u_f:.2g} mm, thin-lens equation)")
+    if not report:
+        raise OptionError(
+            "nothing to plan: give --resolution (a scan), --linewidth with --max-opd, --lens1 "
+            "with --lens2, or --object-distance with --image-distance"
+        )
+    if args.json:
+        out.write(json.dumps(report, indent=2) + "\n")
+    else:
+        out.write("\n".join(lines) + "\n")
+    return 0
+
+
 def main(argv=None) -> int:
     """Run the command line; returns the exit status.
 
@@ -760,6 +915,7 @@ def main(argv=None) -> int:
         "lines": _cmd_lines,
         "calibrate": _cmd_calibrate,
         "response": _cmd_response,
+        "plan": _cmd_plan,
     }[args.command]
     import warnings
 
