@@ -474,6 +474,10 @@ def analyze(record, options: AnalysisOptions | None = None, *, planner=None):
         field_of_view_factor=fov,
         sweep_fit_cache=sweep_fits,
     )
+    result.scan_health, result.plot = _health_and_plot(
+        record, path, limits, fs, kind, ifgs, sweep_specs, spec, found, flags, source_lines,
+        result, options, sweep_fits,
+    )
     for ln in source_lines:
         w = green_pointer_warning(ln.wavelength_nm)
         if w:
@@ -491,6 +495,66 @@ def analyze(record, options: AnalysisOptions | None = None, *, planner=None):
                 )
             break
     return result
+
+
+def _health_and_plot(record, path, limits, fs, kind, ifgs, sweep_specs, spec, found, flags,
+                     source_lines, result, options, sweep_fits):
+    """The scan health (:func:`ftsource.measure.health.scan_health`) and the figures' data
+    (:func:`ftsource.report.plotdata.plot_data`) from the stages' outputs."""
+    from ftsource.measure.health import scan_health
+    from ftsource.report.files import spectrum_band
+    from ftsource.report.plotdata import plot_data
+
+    cols = record.columns
+    signal = cols["signal"]
+    refs = [cols[c] for c in ("ref_i", "ref_q", "ref") if c in cols] \
+        if kind in ("quadrature", "single") else []
+    used = {s.sweep_index for s in sweep_specs}
+    main = max(source_lines, key=lambda f: f.area) if source_lines else None
+    health = scan_health(
+        signal=signal, reference_channels=refs, opd_kind=path.kind, opd_cm=path.opd_cm,
+        sweeps=path.sweeps, used_sweeps=used, dropouts=path.dropouts, sample_rate_hz=fs,
+        samples_per_reference_fringe=limits.samples_per_reference_fringe,
+        min_wavelength_nm=limits.min_wavelength_nm, interferograms=ifgs,
+        source_kind=result.summary["kind"], main_snr=None if main is None else main.snr,
+        shortest_line_nm=min((f.wavelength_nm for f in source_lines), default=None),
+        clipped_fraction=_clipped_fraction(signal),
+    )
+    band = spectrum_band(
+        spec.sigma_per_cm, spec.density, spec.noise, spec.resolution_per_cm,
+        line_centres_per_cm=[f.centre_per_cm for f in found],
+        min_wavelength_nm=limits.min_wavelength_nm, zero_fill=options.zero_fill,
+    )
+    centres = []
+    if main is not None and len(sweep_specs) >= 2:
+        from ftsource.lines.sweeps import sweep_line_centres
+
+        try:
+            with _warnings.catch_warnings():
+                _warnings.simplefilter("ignore", FtsourceWarning)
+                fits = sweep_line_centres(spec, sweep_specs, main.centre_per_cm,
+                                          cache=sweep_fits)
+            centres = [(i, 1e7 / c, 1e7 * u / c**2) for i, c, u in fits
+                       if np.isfinite(c) and c > 0]
+        except (AnalysisError, ValueError):
+            centres = []
+    zpd_ig = next((ig for ig, s in zip(ifgs, sweep_specs, strict=False) if s.zpd_found),
+                  ifgs[0] if ifgs else None)
+    zpd_x = next((s.x_zpd_cm for s in sweep_specs if s.zpd_found), None)
+    budget = result.uncertainty or {}
+    plot = plot_data(
+        signal=signal, sample_rate_hz=fs, reference=refs[0] if refs else None,
+        opd_cm=path.opd_cm, sweeps=path.sweeps, used=used, interferogram=zpd_ig,
+        zpd_x_cm=zpd_x, spectrum=spec, band_index=band.index,
+        lines=[(f.wavelength_nm, fl is not None) for f, fl in zip(found, flags, strict=True)],
+        main_centre_per_cm=None if main is None else main.centre_per_cm,
+        sweep_centres=centres,
+        mean_nm=None if main is None else main.wavelength_nm,
+        u_mean_nm=None if main is None else 1e7 * main.u_centre_per_cm / main.centre_per_cm**2,
+        budget=[(c["name"], c["u_nm"]) for c in budget.get("components", ())
+                if c.get("u_nm") is not None],
+    )
+    return health, plot
 
 
 def _field_of_view_factor(source_lines, options) -> float:

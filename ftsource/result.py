@@ -55,6 +55,10 @@ class Result:
     warnings: list = field(default_factory=list)
     spectrum: object = field(default=None, repr=False)
     interferograms: tuple = field(default=(), repr=False)
+    #: :class:`ftsource.measure.health.ScanHealth` of the record
+    scan_health: object = field(default=None, repr=False)
+    #: :class:`ftsource.report.plotdata.PlotData`: what the figures need
+    plot: object = field(default=None, repr=False)
 
     def add_warning(self, msg: str) -> None:
         if msg and msg not in self.warnings:
@@ -74,9 +78,10 @@ class Result:
             "summary": self.summary,
             "lines": self.lines,
             "uncertainty": self.uncertainty,
-            "health": self.health,
+            "health": {**self.health, "items": _health_items(self.scan_health)},
             "warnings": list(self.warnings),
             "safety": LASER_NOTICE,
+            "plot": self.plot.to_dict() if self.plot is not None else None,
         }
 
     # ------------------------------------------------------------------------------------
@@ -258,6 +263,17 @@ class Result:
             )
         return cls(inp, processing, instrument, summary, line_dicts, budget_dict, health,
                    warnings, spec, tuple(interferograms))
+
+
+def _health_items(health) -> list:
+    """The scan health's items as JSON objects (empty without one)."""
+    if health is None:
+        return []
+    return [
+        {"name": i.name, "value": _f(i.value), "unit": i.unit, "verdict": i.verdict,
+         "threshold": i.threshold, "source": i.source, "advice": i.advice}
+        for i in health.items
+    ]
 
 
 def _broadband_sweep_scatter(spec, sweep_spectra, mask, ok, response):

@@ -1,9 +1,11 @@
 """What the user reads and keeps: a text summary, and the result files written atomically.
 
-Files go into an output directory: ``result.json`` (the contract's JSON) and
-``spectrum.ecsv`` (vacuum wavenumber and wavelength, density per unit wavenumber and per unit
-wavelength, and their noise). Both files are first written completely to temporary names in the
-same directory and only then renamed into place; if anything fails, the temporary files are
+Files go into an output directory: ``result.json`` (the contract's JSON), ``spectrum.ecsv``
+(vacuum wavenumber and wavelength, density per unit wavenumber and per unit wavelength, and
+their noise, over the source's band at the instrument's sampling), ``spectrum.fits`` (the same
+on a linear vacuum-wavenumber WCS axis), ``report.html`` (the self-contained report) and the
+report's figures as ``fig-<name>.png``. All files are first written completely to temporary
+names in the same directory and only then renamed into place; if anything fails, the temporary files are
 removed and any file already renamed is taken back (the previous one restored), so a failure
 never leaves a half-written file or half a result. Existing files are replaced only with
 ``overwrite=True``. The file names are fixed: nothing from the record (metadata, column names)
@@ -22,9 +24,14 @@ import numpy as np
 
 from ftsource.errors import OutputError
 
-__all__ = ["result_json", "format_summary", "write_outputs", "check_outputs", "OUTPUT_FILES"]
+__all__ = ["result_json", "format_summary", "write_outputs", "check_outputs", "OUTPUT_FILES",
+           "output_payloads"]
 
-OUTPUT_FILES = ("result.json", "spectrum.ecsv")
+OUTPUT_FILES = (
+    "result.json", "spectrum.ecsv", "spectrum.fits", "report.html",
+    "fig-spectrum.png", "fig-interferogram.png", "fig-speed.png", "fig-record.png",
+    "fig-sweeps.png", "fig-budget.png",
+)
 #: Prefix of the temporary files written next to the outputs (removed on success and failure).
 TEMP_PREFIX = ".ftsource-tmp-"
 
@@ -129,51 +136,56 @@ def format_summary(result) -> str:
         )
     n_src = sum(1 for ln in d["lines"] if ln["flag"] is None)
     out.append(f"lines: {n_src} from the source, {len(d['lines']) - n_src} flagged")
+    for ln in d["lines"]:
+        if ln["flag"] is not None:
+            continue
+        width = (f"FWHM {_fmt(ln['fwhm_nm'], ' nm', 4)}" if ln.get("fwhm_nm") is not None
+                 else f"FWHM < {_fmt(ln.get('fwhm_upper_bound_nm'), ' nm', 4)}")
+        ri = ln.get("relative_intensity")
+        out.append(
+            f"  line {_fmt(ln['wavelength_nm'], ' nm', 5)} (vacuum), relative intensity "
+            f"{'—' if ri is None else f'{ri:.3g}'}, {width}"
+        )
     out.append(
         f"resolution: {_fmt(ins.get('resolution_per_cm'), ' cm⁻¹', 3)} (max OPD "
         f"{_fmt(ins.get('max_opd_mm'), ' mm', 3)}); shortest alias-free wavelength "
         f"{_fmt(ins.get('min_wavelength_nm'), ' nm', 1)}"
     )
+    health = getattr(result, "scan_health", None)
+    for item in health.poor if health is not None else ():
+        value = "—" if item.value is None else f"{item.value:.3g}"
+        out.append(f"health: {item.name} {value} is poor (want {item.threshold}): "
+                   f"{item.advice}")
     for w in d["warnings"]:
         out.append(f"warning: {w}")
-    out.append(f"safety: {d['safety']}")
+    from ftsource.safety import safety_notes
+
+    wls = [ln["wavelength_nm"] for ln in d["lines"]
+           if ln["flag"] is None and ln["wavelength_nm"] is not None]
+    for note in safety_notes(s["kind"], wls,
+                             reference_laser=inp["opd_source"] in ("quadrature", "single")):
+        out.append(f"safety: {note}")
     return "\n".join(_printable(line) for line in out)
 
 
-def _spectrum_ecsv(result) -> bytes:
-    import io
+def output_payloads(result, *, full_spectrum: bool = False) -> dict:
+    """Every output file's bytes, by name (the names of :data:`OUTPUT_FILES`)."""
+    from ftsource.report.page import figure_pngs, report_page, spectrum_files
 
-    from astropy.table import Table
+    ecsv, fits_bytes = spectrum_files(result, full=full_spectrum)
+    pngs = figure_pngs(result.plot) if result.plot is not None else {}
+    if result.plot is None:
+        from ftsource.report.plotdata import PlotData
 
-    spec = result.spectrum
-    sig = spec.sigma_per_cm
-    lo, hi = 1e7 / 3300.0, 1e7 / max(result.instrument["min_wavelength_nm"] or 200.0, 200.0)
-    m = (sig >= lo) & (sig <= hi)
-    t = Table()
-    t["wavenumber"] = sig[m]
-    t["wavenumber"].unit = "1/cm"
-    t["wavelength"] = 1e7 / sig[m]
-    t["wavelength"].unit = "nm"
-    t["density_per_wavenumber"] = spec.density[m]
-    t["noise_per_wavenumber"] = spec.noise[m]
-    t["density_per_wavelength"] = spec.density_per_nm[m]
-    t["noise_per_wavelength"] = spec.noise_per_nm[m]
-    t.meta["description"] = (
-        "ftsource spectrum: vacuum wavenumber and wavelength; spectral density per unit "
-        "wavenumber (arbitrary units x cm) and per unit wavelength (S_lambda = S_sigma*sigma^2/1e7,"
-        " as CIE 127 uses for LEDs), each with its noise (standard uncertainty)"
-    )
-    t.meta["medium_corrected"] = result.input["medium"]
-    t.meta["resolution_per_cm"] = result.instrument["resolution_per_cm"]
-    t.meta["line_shape"] = result.instrument["line_shape"]
-    # the columns are the measured spectrum: no instrument response is divided out of them
-    t.meta["density_weighting"] = "detector-weighted"
-    s = result.summary
-    t.meta["broadband_figures_weighting"] = _weighting(s) if s["kind"] == "broadband" else None
-    buf = io.StringIO()
-    with np.printoptions(legacy=False):
-        t.write(buf, format="ascii.ecsv")
-    return buf.getvalue().encode()
+        pngs = figure_pngs(PlotData())
+    out = {
+        "result.json": result_json(result).encode(),
+        "spectrum.ecsv": ecsv,
+        "spectrum.fits": fits_bytes,
+        "report.html": report_page(result, pngs),
+    }
+    out.update({f"fig-{name}.png": png for name, png in pngs.items()})
+    return {name: out[name] for name in OUTPUT_FILES}
 
 
 def _targets(out_dir) -> tuple[Path, list[Path]]:
@@ -272,10 +284,15 @@ def _place(tmp: str, target: Path, out: Path, *, overwrite: bool) -> None:
     os.unlink(tmp)
 
 
-def write_outputs(result, out_dir, *, overwrite: bool = False) -> list[Path]:
-    """Write ``result.json`` and ``spectrum.ecsv`` into ``out_dir`` (created if missing).
+def write_outputs(result, out_dir, *, overwrite: bool = False,
+                  full_spectrum: bool = False) -> list[Path]:
+    """Write every file of :data:`OUTPUT_FILES` into ``out_dir`` (created if missing) and
+    return their paths.
 
-    All or nothing: both files are written completely to temporary files in ``out_dir``
+    ``full_spectrum=True`` stores every point of the zero-filled spectrum over the detector
+    band instead of the source's band at the instrument's own sampling.
+
+    All or nothing: the files are written completely to temporary files in ``out_dir``
     first and only then renamed into place. If anything fails, the temporary files are
     removed, a file already renamed is taken back (the one it replaced is restored), and
     directories made here are removed again.
@@ -288,7 +305,8 @@ def write_outputs(result, out_dir, *, overwrite: bool = False) -> list[Path]:
     """
     out, targets = _targets(out_dir)
     check_outputs(out, overwrite=overwrite)
-    payloads = [result_json(result).encode(), _spectrum_ecsv(result)]
+    by_name = output_payloads(result, full_spectrum=full_spectrum)
+    payloads = [by_name[p.name] for p in targets]
     created: list[Path] = []
     temps: list[str] = []
     backups: dict[Path, str | None] = {}
