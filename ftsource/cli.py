@@ -50,8 +50,16 @@ def build_parser() -> argparse.ArgumentParser:
     a.add_argument("record", help="record file: .csv/.tsv/.txt/.dat, .npz or .wav")
     _add_analysis_options(a)
     a.add_argument("--json", action="store_true", help="print the result JSON")
-    a.add_argument("--out", metavar="DIR", help="write result.json and spectrum.ecsv into DIR")
+    a.add_argument("--out", metavar="DIR",
+                   help="write result.json, spectrum.ecsv, spectrum.fits, report.html and the "
+                        "figures (fig-*.png) into DIR (default: write nothing)")
     a.add_argument("--overwrite", action="store_true", help="replace files in --out")
+    a.add_argument("--full-spectrum", action="store_true",
+                   help="store every point of the zero-filled spectrum over the detector band "
+                        "in spectrum.ecsv/.fits (default off: the source's band at the "
+                        "instrument's own sampling)")
+    a.add_argument("--quiet", action="store_true",
+                   help="do not print a 'wrote PATH' line per file written (default off)")
 
     s = sub.add_parser("simulate", help="make a record of a known source (planning, testing)")
     s.add_argument("out", help="output record: .csv, .npz or .wav")
@@ -76,6 +84,17 @@ def build_parser() -> argparse.ArgumentParser:
     d = sub.add_parser("demo", help="analyse the bundled demo records (an invented scenario)")
     d.add_argument("--out", metavar="DIR", help="also write each result into DIR/<record>/")
     d.add_argument("--overwrite", action="store_true")
+    d.add_argument("--quiet", action="store_true",
+                   help="do not print a 'wrote PATH' line per file written (default off)")
+
+    pt = sub.add_parser("plot", help="redraw the figures of a saved result.json as PNG files")
+    pt.add_argument("result", help="a result.json written by 'analyze --out'")
+    pt.add_argument("--out", metavar="DIR",
+                    help="folder for the fig-*.png files (default: the result's folder)")
+    pt.add_argument("--overwrite", action="store_true",
+                    help="replace existing figures (default off)")
+    pt.add_argument("--quiet", action="store_true",
+                    help="do not print a 'wrote PATH' line per file written (default off)")
 
     ln = sub.add_parser("lines", help="list and search the bundled reference line lists")
     ln.add_argument("--element", help="e.g. Ne, Hg")
@@ -398,9 +417,49 @@ def _cmd_analyze(args, out, err) -> int:
     # Everything the user will see is made before anything is written: a failure while
     # shaping the output leaves no file behind.
     text = result_json(result) if args.json else format_summary(result) + "\n"
+    written = []
     if args.out is not None:
-        write_outputs(result, args.out, overwrite=args.overwrite)
+        written = write_outputs(result, args.out, overwrite=args.overwrite,
+                                full_spectrum=args.full_spectrum)
     out.write(text)
+    if not args.quiet:
+        # with --json the standard output is the JSON alone
+        (err if args.json else out).write("".join(f"wrote {p}\n" for p in written))
+    return 0
+
+
+def _cmd_plot(args, out, err) -> int:
+    import json
+    from pathlib import Path
+
+    from ftsource.errors import RecordError
+    from ftsource.report.page import figure_pngs
+    from ftsource.report.plotdata import PlotData
+    from ftsource.report.text import write_files
+
+    src = Path(args.result)
+    try:
+        d = json.loads(src.read_text(encoding="utf-8"))
+    except OSError as e:
+        raise RecordError(f"{src}: cannot be read ({e.strerror or e})") from None
+    except (UnicodeDecodeError, json.JSONDecodeError) as e:
+        raise RecordError(f"{src}: is not a result.json ({_one_line(e, 120)})") from None
+    plot = d.get("plot") if isinstance(d, dict) else None
+    if not isinstance(plot, dict):
+        raise RecordError(
+            f"{src}: holds no 'plot' object (it was not written by 'ftsource analyze --out' of "
+            "this version); analyse the record again"
+        )
+    try:
+        data = PlotData.from_dict(plot)
+        files = {f"fig-{n}.png": png for n, png in figure_pngs(data).items()}
+    except (TypeError, ValueError) as e:
+        raise RecordError(f"{src}: its 'plot' object cannot be drawn ({_one_line(e, 120)})") \
+            from None
+    folder = Path(args.out) if args.out is not None else src.parent
+    written = write_files(folder, files, overwrite=args.overwrite)
+    if not args.quiet:
+        out.write("".join(f"wrote {p}\n" for p in written))
     return 0
 
 
@@ -515,7 +574,7 @@ def _cmd_demo(args, out, err) -> int:
         _scenario, records = demo_records()
         for r in records:
             check_outputs(Path(args.out) / Path(r["file"]).stem, overwrite=args.overwrite)
-    return run_demo(out, out_dir=args.out, overwrite=args.overwrite)
+    return run_demo(out, out_dir=args.out, overwrite=args.overwrite, quiet=args.quiet)
 
 
 def _cmd_lines(args, out, err) -> int:
@@ -916,6 +975,7 @@ def main(argv=None) -> int:
         "calibrate": _cmd_calibrate,
         "response": _cmd_response,
         "plan": _cmd_plan,
+        "plot": _cmd_plot,
     }[args.command]
     import warnings
 

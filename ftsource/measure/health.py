@@ -16,9 +16,10 @@ Definitions
   per-window amplitude) is given instead.
 * Source visibility near ZPD: the largest envelope of the DC-free interferogram over its
   DC level.
-* Mirror speed: the median speed in the middle 80 % of the used sweeps; jitter the relative RMS
-  of the speed about its running median over 15 windows of two reference fringes (fast
-  wobble and vibration, not the slow change over a sweep); turnarounds the sweep ends.
+* Mirror speed: the median speed in the middle 80 % of the used sweeps, measured over windows
+  of two reference fringes; jitter the relative RMS of that speed about a degree-4 polynomial
+  in time fitted per sweep (fast wobble and vibration, not the slow change over a sweep);
+  turnarounds the sweep ends.
 * Drift: the range of the sweeps' DC levels over the larger of their mean and the fringe
   amplitude (so that it means something for an AC-coupled channel too).
 * Sampling margin: ``1 − λ_min/λ_s`` for the shortest source line ``λ_s`` and the shortest
@@ -44,9 +45,11 @@ SOURCE_VISIBILITY_MIN = 0.3
 SPEED_JITTER_MAX = 0.10
 CLIPPED_FRACTION_MAX = 1e-3
 DRIFT_MAX = 0.05
-SNR_MIN = 20.0
+SNR_MIN = 100.0
 SAMPLES_PER_FRINGE_MIN = 4.0
 SAMPLING_MARGIN_MIN = 0.10
+#: Degree of the polynomial in time that stands for the slow change of speed over a sweep.
+TREND_DEGREE = 4
 
 
 @dataclass(frozen=True)
@@ -132,8 +135,8 @@ def speed_jitter(opd_cm, sweeps, sample_rate_hz: float, samples_per_fringe: floa
         v = v[np.isfinite(v)]
         if v.size < 20:
             continue
-        pad = np.pad(v, 7, mode="edge")
-        trend = np.median(np.lib.stride_tricks.sliding_window_view(pad, 15), axis=1)
+        tt = np.arange(v.size) / v.size
+        trend = np.polyval(np.polyfit(tt, v, TREND_DEGREE), tt)
         ok = trend > 0
         speeds.append(float(np.median(v)))
         rel.append((v[ok] - trend[ok]) / trend[ok])

@@ -33,8 +33,11 @@ DETECTOR_BAND_NM = (200.0, 3300.0)
 #: to see the line shape's sidelobes and the baseline next to the line).
 MARGIN_RESOLUTIONS = 40.0
 #: The source is where the density exceeds this many times its noise (about 5 standard
-#: uncertainties: a chance excursion of noise this large is rare over 10⁶ points).
+#: uncertainties: a chance excursion of noise this large is rare over 10⁶ points) ...
 SOURCE_THRESHOLD_NOISE = 5.0
+#: ... and this fraction of the band's peak (a magnitude spectrum's noise has a positive
+#: mean, which the noise estimate does not remove; 1e-3 keeps an LED's wings).
+SOURCE_THRESHOLD_PEAK = 1e-3
 
 
 @dataclass(frozen=True)
@@ -64,7 +67,7 @@ def spectrum_band(
     full: bool = False,
 ) -> SpectrumBand:
     """The stored points: the source's extent (density above :data:`SOURCE_THRESHOLD_NOISE`
-    times the noise, and every listed line) widened by :data:`MARGIN_RESOLUTIONS` resolution
+    times the noise and :data:`SOURCE_THRESHOLD_PEAK` times the peak, and every listed line) widened by :data:`MARGIN_RESOLUTIONS` resolution
     elements, inside the detector band and the alias-free limit, every ``zero_fill``-th point.
 
     ``full=True`` keeps every point of the detector band (the zero-filled grid).
@@ -81,7 +84,9 @@ def spectrum_band(
         d = np.asarray(density, float)
         n = np.asarray(noise, float)
         floor = np.where(np.isfinite(n) & (n > 0), n, np.inf)
-        src = inside & np.isfinite(d) & (d > SOURCE_THRESHOLD_NOISE * floor)
+        peak = float(np.nanmax(np.where(inside, d, -np.inf))) if inside.any() else 0.0
+        src = inside & np.isfinite(d) & (d > SOURCE_THRESHOLD_NOISE * floor) & (
+            d > SOURCE_THRESHOLD_PEAK * peak)
         margin = MARGIN_RESOLUTIONS * float(resolution_per_cm)
         keep = np.zeros(sig.size, bool)
         centres = [float(c) for c in line_centres_per_cm if np.isfinite(c)]

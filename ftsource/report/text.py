@@ -25,7 +25,7 @@ import numpy as np
 from ftsource.errors import OutputError
 
 __all__ = ["result_json", "format_summary", "write_outputs", "check_outputs", "OUTPUT_FILES",
-           "output_payloads"]
+           "output_payloads", "write_files"]
 
 OUTPUT_FILES = (
     "result.json", "spectrum.ecsv", "spectrum.fits", "report.html",
@@ -164,7 +164,8 @@ def format_summary(result) -> str:
            if ln["flag"] is None and ln["wavelength_nm"] is not None]
     for note in safety_notes(s["kind"], wls,
                              reference_laser=inp["opd_source"] in ("quadrature", "single")):
-        out.append(f"safety: {note}")
+        if note not in d["warnings"]:
+            out.append(f"safety: {note}")
     return "\n".join(_printable(line) for line in out)
 
 
@@ -188,14 +189,14 @@ def output_payloads(result, *, full_spectrum: bool = False) -> dict:
     return {name: out[name] for name in OUTPUT_FILES}
 
 
-def _targets(out_dir) -> tuple[Path, list[Path]]:
+def _targets(out_dir, names=OUTPUT_FILES) -> tuple[Path, list[Path]]:
     if not str(out_dir).strip():
         raise OutputError("--out: the directory name is empty")
     out = Path(out_dir)
-    return out, [out / name for name in OUTPUT_FILES]
+    return out, [out / name for name in names]
 
 
-def check_outputs(out_dir, *, overwrite: bool = False) -> None:
+def check_outputs(out_dir, *, overwrite: bool = False, names=OUTPUT_FILES) -> None:
     """Refuse early what :func:`write_outputs` would refuse, before any work is done.
 
     Raises
@@ -205,7 +206,7 @@ def check_outputs(out_dir, *, overwrite: bool = False) -> None:
         directory; or an output file (or a link under its name) exists and ``overwrite`` is
         False.
     """
-    out, targets = _targets(out_dir)
+    out, targets = _targets(out_dir, names)
     if os.path.lexists(out) and not out.is_dir():
         raise OutputError(f"--out {out}: exists and is not a directory")
     for p in targets:
@@ -303,10 +304,17 @@ def write_outputs(result, out_dir, *, overwrite: bool = False,
         ``out_dir`` is not a directory, a file exists and ``overwrite`` is False, or a write
         fails. Nothing is left written unless every file could be.
     """
-    out, targets = _targets(out_dir)
-    check_outputs(out, overwrite=overwrite)
-    by_name = output_payloads(result, full_spectrum=full_spectrum)
-    payloads = [by_name[p.name] for p in targets]
+    check_outputs(out_dir, overwrite=overwrite)
+    return write_files(out_dir, output_payloads(result, full_spectrum=full_spectrum),
+                       overwrite=overwrite)
+
+
+def write_files(out_dir, files: dict, *, overwrite: bool = False) -> list[Path]:
+    """Write ``{name: bytes}`` into ``out_dir``, all or nothing (as :func:`write_outputs`
+    describes), and return the paths. Names are fixed by the caller, never from a record."""
+    out, targets = _targets(out_dir, tuple(files))
+    check_outputs(out, overwrite=overwrite, names=tuple(files))
+    payloads = [files[p.name] for p in targets]
     created: list[Path] = []
     temps: list[str] = []
     backups: dict[Path, str | None] = {}
