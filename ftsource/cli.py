@@ -59,7 +59,8 @@ def build_parser() -> argparse.ArgumentParser:
                         "in spectrum.ecsv/.fits (default off: the source's band at the "
                         "instrument's own sampling)")
     a.add_argument("--quiet", action="store_true",
-                   help="do not print a 'wrote PATH' line per file written (default off)")
+                   help="do not print a 'wrote PATH' line per file written (default off; "
+                        "--json prints none either)")
 
     s = sub.add_parser("simulate", help="make a record of a known source (planning, testing)")
     s.add_argument("out", help="output record: .csv, .npz or .wav")
@@ -422,9 +423,9 @@ def _cmd_analyze(args, out, err) -> int:
         written = write_outputs(result, args.out, overwrite=args.overwrite,
                                 full_spectrum=args.full_spectrum)
     out.write(text)
-    if not args.quiet:
-        # with --json the standard output is the JSON alone
-        (err if args.json else out).write("".join(f"wrote {p}\n" for p in written))
+    if not (args.quiet or args.json):
+        # with --json the standard output is the JSON alone and standard error is for errors
+        out.write("".join(f"wrote {p}\n" for p in written))
     return 0
 
 

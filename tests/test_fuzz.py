@@ -31,6 +31,7 @@ from hypothesis import strategies as st
 from ftsource import simulate as sim
 from ftsource.cli import main
 from ftsource.errors import FtsourceError
+from ftsource.report.text import OUTPUT_FILES
 from ftsource.io.records import (
     MIN_SAMPLES,
     Record,
@@ -331,7 +332,7 @@ def test_cli_random_option_values(valid, sandbox, opts):
     event(f"status {status}")
     if status == 0:
         d = json.loads(out)
-        assert sorted(os.listdir(out_dir)) == ["result.json", "spectrum.ecsv"]
+        assert sorted(os.listdir(out_dir)) == sorted(OUTPUT_FILES)
         assert json.loads((out_dir / "result.json").read_text(encoding="utf-8")) == d
     else:
         assert out == ""

@@ -13,7 +13,7 @@ from hypothesis import strategies as st
 
 from ftsource import plan as pl
 from ftsource.errors import OptionError
-from tests.cli_helpers import assert_clean_error, run
+from cli_helpers import assert_clean_error, run
 
 
 def _np_two_lens(f1, f2, d):

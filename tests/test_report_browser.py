@@ -19,7 +19,7 @@ import pytest
 
 from ftsource import simulate as sim
 from ftsource.io.records import write_record_csv
-from tests.cli_helpers import run
+from cli_helpers import run
 
 CRAFTED = {
     "description": "<script>document.title='PWNED'</script>"
