@@ -31,7 +31,6 @@ from hypothesis import strategies as st
 from ftsource import simulate as sim
 from ftsource.cli import main
 from ftsource.errors import FtsourceError
-from ftsource.report.text import OUTPUT_FILES
 from ftsource.io.records import (
     MIN_SAMPLES,
     Record,
@@ -40,6 +39,7 @@ from ftsource.io.records import (
     write_record_npz,
     write_record_wav,
 )
+from ftsource.report.text import OUTPUT_FILES
 
 EXTENSIONS = (".csv", ".tsv", ".txt", ".dat", ".npz", ".wav")
 FS = 48_000.0

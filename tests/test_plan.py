@@ -8,12 +8,12 @@ import math
 
 import numpy as np
 import pytest
+from cli_helpers import assert_clean_error, run
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from ftsource import plan as pl
 from ftsource.errors import OptionError
-from cli_helpers import assert_clean_error, run
 
 
 def _np_two_lens(f1, f2, d):

@@ -16,10 +16,10 @@ from pathlib import Path
 
 import numpy as np
 import pytest
+from cli_helpers import run
 
 from ftsource import simulate as sim
 from ftsource.io.records import write_record_csv
-from cli_helpers import run
 
 CRAFTED = {
     "description": "<script>document.title='PWNED'</script>"
@@ -36,9 +36,8 @@ def _browser() -> str:
         if path:
             return path
     pytest.fail(
-        "no Chromium found: this test needs a real browser (CI=%s); install it with "
-        "'apt-get update && apt-get install -y --no-install-recommends chromium'"
-        % os.environ.get("CI", "")
+        f"no Chromium found: this test needs a real browser (CI={os.environ.get('CI', '')}); "
+        "install it with 'apt-get update && apt-get install -y --no-install-recommends chromium'"
     )
 
 

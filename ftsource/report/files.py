@@ -25,10 +25,12 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from ftsource.analysis import SEARCH_BAND_NM
+
 __all__ = ["SpectrumBand", "spectrum_band", "spectrum_fits", "spectrum_ecsv"]
 
-#: Detector band: silicon and InGaAs detectors see nothing beyond these (vacuum nm).
-DETECTOR_BAND_NM = (200.0, 3300.0)
+#: Detector band (vacuum nm): the band the analysis searches for lines.
+DETECTOR_BAND_NM = SEARCH_BAND_NM
 #: Margin kept around the source's extent, in resolution elements (common practice: enough
 #: to see the line shape's sidelobes and the baseline next to the line).
 MARGIN_RESOLUTIONS = 40.0
@@ -67,8 +69,9 @@ def spectrum_band(
     full: bool = False,
 ) -> SpectrumBand:
     """The stored points: the source's extent (density above :data:`SOURCE_THRESHOLD_NOISE`
-    times the noise and :data:`SOURCE_THRESHOLD_PEAK` times the peak, and every listed line) widened by :data:`MARGIN_RESOLUTIONS` resolution
-    elements, inside the detector band and the alias-free limit, every ``zero_fill``-th point.
+    times the noise and :data:`SOURCE_THRESHOLD_PEAK` times the peak, and every listed line)
+    widened by :data:`MARGIN_RESOLUTIONS` resolution elements, inside the detector band and the
+    alias-free limit, every ``zero_fill``-th point.
 
     ``full=True`` keeps every point of the detector band (the zero-filled grid).
     """
