@@ -412,6 +412,7 @@ def analyze(record, options: AnalysisOptions | None = None, *, planner=None):
             f"{len(dropped)} sweep(s) that do not reach zero path difference were left out "
             "(the others do, and give phase-corrected spectra)"
         )
+    sweep_specs, ifgs = _dispersion_sweeps(sweep_specs, ifgs, rejected)
     sigma_app = np.arange(n_fft // 2 + 1) / (n_fft * limits.dx_cm)
     spec = spectrum.coadd(sweep_specs, sigma_app, options.apodization)
     factor = _index_factor(sigma_app, lam_ref or 632.991, options, kind)
@@ -491,6 +492,23 @@ def analyze(record, options: AnalysisOptions | None = None, *, planner=None):
                 )
             break
     return result
+
+
+def _dispersion_sweeps(sweep_specs, ifgs, rejected):
+    """Leave out the sweeps through ZPD whose phase missed the dispersion treatment when
+    others got it (:func:`ftsource.spectrum.spectrum.dispersed_mertz`): with unequal glass,
+    such a sweep's chirped burst runs off its short side (a partial sweep), and its Mertz
+    spectrum is distorted though its short double-sided part shows no residual."""
+    treated = [np.isfinite(s.dispersion_cm2) for s in sweep_specs]
+    if not any(treated) or all(t or not s.zpd_found for s, t in zip(sweep_specs, treated,
+                                                                        strict=True)):
+        return sweep_specs, ifgs
+    drop = {s.sweep_index for s, t in zip(sweep_specs, treated, strict=True)
+            if s.zpd_found and not t}
+    rejected += [(i, "the chirped centre burst (unequal glass in the arms) runs off this "
+                  "sweep's short side: its phase cannot be corrected") for i in sorted(drop)]
+    return ([s for s in sweep_specs if s.sweep_index not in drop],
+            tuple(ig for ig in ifgs if ig.sweep.index not in drop))
 
 
 def _field_of_view_factor(source_lines, options) -> float:

@@ -226,6 +226,8 @@ class Result:
             )
         line_dicts.sort(key=lambda d: d["wavelength_nm"] or 0.0)
 
+        processing["glass_imbalance"] = _glass_imbalance(sweep_spectra, strongest, warnings)
+
         # ---- instrument
         res = spec.resolution_per_cm
         main_sigma = strongest.centre_per_cm if strongest else None
@@ -456,6 +458,37 @@ def _air_range_warnings(source_lines, options, warnings) -> None:
             )
 
 
+def _glass_imbalance(sweep_spectra, strongest, warnings):
+    """``processing.glass_imbalance`` from the sweeps' phase curvature, with its advice."""
+    from ftsource.spectrum.dispersion import glass_imbalance
+
+    if strongest is None:
+        return None
+    g = glass_imbalance([s.dispersion_cm2 for s in sweep_spectra],
+                        [s.u_dispersion_cm2 for s in sweep_spectra], strongest.centre_per_cm)
+    if g is None:
+        return None
+    warnings.append(
+        f"the centre burst is chirped: the two arms hold unequal glass, about "
+        f"{g.thickness_cm * 10:.2g} mm of N-BK7-like glass in excess in one arm (an "
+        f"optical-thickness difference of {g.optical_thickness_cm * 10:.2g} mm); the phase was "
+        "corrected with a smooth polynomial in wavenumber. Add a compensator plate of the "
+        "beamsplitter's glass and thickness to the other arm"
+    )
+    return {
+        "group_delay_dispersion_um2": _f(g.dispersion_cm2 * 1e8),
+        "u_group_delay_dispersion_um2": _f(g.u_dispersion_cm2 * 1e8),
+        "bk7_thickness_mm": _f(g.thickness_cm * 10),
+        "u_bk7_thickness_mm": _f(g.u_thickness_cm * 10),
+        "optical_thickness_difference_mm": _f(g.optical_thickness_cm * 10),
+        "definition": (
+            "D = (1/2pi) d2(phase)/d(sigma)2 at the band's centre, the group-delay dispersion "
+            "in optical path; bk7_thickness_mm = |D| / (dn_g/dsigma) of SCHOTT N-BK7 (total "
+            "extra glass path, all passes); optical_thickness_difference_mm = n(N-BK7) x that"
+        ),
+    }
+
+
 def _empty_summary():
     keys = [
         "centre_wavelength_nm", "centre_wavelength_air_nm", "u_centre_wavelength_nm",
@@ -631,7 +664,7 @@ def _summary(spec, source_lines, strongest, sweep_spectra, ifgs, options, path, 
         s["u_fwhm_nm"] = _f(u_fwhm)
         from ftsource.measure.colour import chromaticity_xy, dominant_wavelength_nm
 
-        xy = chromaticity_xy(wl, np.clip(dens, 0, None))
+        xy = chromaticity_xy(wl, np.clip(dens, 0, None), scale="vacuum")
         if xy is not None:
             s["chromaticity_xy"] = [_f(xy[0]), _f(xy[1])]
             s["dominant_wavelength_nm"] = _f(dominant_wavelength_nm(xy))
