@@ -237,7 +237,10 @@ def _air_conditions(record, options, notes):
     for cond, key, ptype, fld in _AIR_KEYS:
         if cond in options.air_given or getattr(air, fld) != getattr(nominal, fld):
             continue  # stated by the caller: it wins
-        q = record.metadata_quantity(key, ptype)
+        if cond == "humidity":
+            q = _metadata_humidity(record, key)
+        else:
+            q = record.metadata_quantity(key, ptype)
         if q is None:
             continue
         try:
@@ -269,6 +272,20 @@ def _air_conditions(record, options, notes):
         notes.add("air conditions from the record's metadata: " + ", ".join(taken)
                   + " (command-line values win)")
     return replace(options, air=air, air_given=tuple(sorted(given)))
+
+
+def _metadata_humidity(record, key):
+    """The record's humidity metadata in percent (bare numbers above 1 are percent,
+    :func:`ftsource.quantity.parse_humidity`), or None when absent."""
+    from ftsource.errors import RecordError
+    from ftsource.quantity import parse_humidity
+
+    if key not in record.metadata:
+        return None
+    try:
+        return parse_humidity(record.metadata[key], name=f"{record.path}: metadata {key}")
+    except OptionError as exc:
+        raise RecordError(str(exc)) from None
 
 
 def _index_factor(sigma, lam_ref, options, kind):
