@@ -10,7 +10,7 @@ from __future__ import annotations
 
 import hashlib
 import math
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 
 import numpy as np
 
@@ -300,6 +300,55 @@ def _broadband_sweep_scatter(spec, sweep_spectra, mask, ok, response):
     return np.std(a, axis=0, ddof=1) / np.sqrt(len(rows)), len(rows)
 
 
+def _band_baseline(sigma, density, noise, bb, main, warnings):
+    """The constant baseline of S_σ to remove from a broad band, or 0.0.
+
+    Estimated on the window's points beyond the band's 1 % edges widened by one FWHM (where
+    even a skewed LED's tail has fallen far below 1 %); removed only when it differs from
+    zero by more than three standard uncertainties
+    (:func:`ftsource.measure.broadband.flank_baseline`).
+    """
+    from ftsource.measure.broadband import flank_baseline
+
+    lo_nm, hi_nm = bb.band_nm
+    pad = bb.fwhm_nm
+    band = (1e7 / (hi_nm + pad), 1e7 / max(lo_nm - pad, 1.0))
+    base, u_base = flank_baseline(sigma, density, band, noise)
+    if not (u_base > 0 and abs(base) > 3 * u_base):
+        return 0.0
+    peak_s = float(np.max(density))
+    warnings.append(
+        f"the spectrum around the band sits on a baseline of {base / peak_s:.2g} of the peak "
+        "(estimated beyond the band): it was removed before the band's figures and colour "
+        "were taken; a magnitude spectrum or a detector offset drifting during the sweeps "
+        "can cause it"
+    )
+    return base
+
+
+def _broadband_coherence(spec, main, baseline):
+    """Coherence length of a broad band: over ±6 FWHM, baseline removed, the instrument line
+    shape's bias corrected to first order
+    (:func:`ftsource.measure.coherence.line_shape_corrected`), and the choice of the band
+    (±6 against ±4 FWHM, rectangular) in its uncertainty."""
+    from ftsource.measure import coherence as coh
+    from ftsource.spectrum.spectrum import reconvolve
+
+    def band(k):
+        return (main.centre_per_cm - k * main.fwhm_per_cm,
+                main.centre_per_cm + k * main.fwhm_per_cm)
+
+    dens = spec.density - baseline
+    raw = coh.coherence_from_spectrum(spec.sigma_per_cm, dens, noise=spec.noise, band=band(6))
+    twice = reconvolve(spec, band(6)) - baseline
+    ok = np.isfinite(twice)
+    ce2 = coh.coherence_from_spectrum(spec.sigma_per_cm[ok], twice[ok], band=band(6))
+    ce = coh.line_shape_corrected(raw, ce2)
+    narrow = coh.coherence_from_spectrum(spec.sigma_per_cm, dens, noise=spec.noise, band=band(4))
+    u_band = abs(raw.length_cm - narrow.length_cm) / (2 * np.sqrt(3))
+    return replace(ce, u_length_cm=float(np.hypot(ce.u_length_cm, u_band)))
+
+
 def _line_shape_corrected(bb, bb2, resolution_nm, warnings):
     """Peak and FWHM of a broad band with the instrument line shape's first-order bias removed.
 
@@ -513,6 +562,7 @@ def _summary(spec, source_lines, strongest, sweep_spectra, ifgs, options, path, 
 
     s = _empty_summary()
     s["detector_weighted"] = options.response is None
+    broadband_baseline = 0.0
     if strongest is None:
         warnings.append(
             "no line stands above the noise: check that the source reaches the detector, the "
@@ -603,14 +653,24 @@ def _summary(spec, source_lines, strongest, sweep_spectra, ifgs, options, path, 
         with _w.catch_warnings(record=True) as caught:
             _w.simplefilter("always", FtsourceWarning)
             bb = broadband_metrics(wl, dens, noise)
+            base = _band_baseline(sig_m[ok], dens_s[ok], noise_s[ok], bb, main, warnings)
+            if base:
+                dens = (dens_s[ok] - base) * sig_m[ok] ** 2 / 1e7
+                twice = (twice_s[ok] - base) * sig_m[ok] ** 2 / 1e7
+                bb = broadband_metrics(wl, dens, noise)
             bb2 = broadband_metrics(wl, twice, None, n_monte_carlo=0)
         for c in caught:
             if str(c.message) not in warnings:
                 warnings.append(str(c.message))
+        broadband_baseline = base if weighted else 0.0
         peak_nm, u_peak, fwhm_nm, u_fwhm = _line_shape_corrected(
             bb, bb2, _u_nm(sig0, spec.resolution_per_cm), warnings
         )
-        u_centroid = bb.u_centroid_nm
+        from ftsource.measure.broadband import band_edge_uncertainty
+
+        # the band-edge rule tested against its own choice (docs/measurements.md)
+        u_edge = band_edge_uncertainty(wl, dens)
+        u_centroid = float(np.hypot(bb.u_centroid_nm, u_edge if np.isfinite(u_edge) else 0.0))
         dof_bb = 50.0
         scatter = _broadband_sweep_scatter(
             spec, sweep_spectra, m, ok, None if weighted else options.response
@@ -664,7 +724,10 @@ def _summary(spec, source_lines, strongest, sweep_spectra, ifgs, options, path, 
         s["u_fwhm_nm"] = _f(u_fwhm)
         from ftsource.measure.colour import chromaticity_xy, dominant_wavelength_nm
 
-        xy = chromaticity_xy(wl, np.clip(dens, 0, None), scale="vacuum")
+        # colour over the band only (the centroid's 1 % rule), baseline removed: clipped or
+        # rectified noise far from the band biased it (issue 12, part 2)
+        in_band = (wl >= bb.band_nm[0]) & (wl <= bb.band_nm[1])
+        xy = chromaticity_xy(wl[in_band], dens[in_band], scale="vacuum")
         if xy is not None:
             s["chromaticity_xy"] = [_f(xy[0]), _f(xy[1])]
             s["dominant_wavelength_nm"] = _f(dominant_wavelength_nm(xy))
@@ -782,9 +845,7 @@ def _summary(spec, source_lines, strongest, sweep_spectra, ifgs, options, path, 
                 s["u_fwhm_nm"] = _f(_u_nm(sig0, main.u_fwhm_per_cm))
             try:
                 if kind == "broadband":
-                    band = (sig0 - 6 * main.fwhm_per_cm, sig0 + 6 * main.fwhm_per_cm)
-                    ce = coh.coherence_from_spectrum(spec.sigma_per_cm, spec.density,
-                                                     noise=spec.noise, band=band)
+                    ce = _broadband_coherence(spec, main, broadband_baseline)
                 else:
                     # the fitted intrinsic profile (instrument shape removed, wings complete)
                     ce = _profile_coherence(main)

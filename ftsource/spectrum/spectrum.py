@@ -340,6 +340,13 @@ def dispersed_mertz(x_cm, y, zpd, first, *, apodization="happ-genzel", n_fft=Non
     half = disp.burst_half_width_cm(x_cm, y, zpd.x_zpd_cm)
     if half >= zpd.short_side_cm:
         return first  # the burst runs off the short side: no double-sided phase can hold it
+    if zpd.kind == "one-sided":
+        # the Mertz ramp weights each component by ½ + Δx(σ)/2l, Δx its group delay from ZPD:
+        # on a chirped burst that tilts the band (±5 % across an 850/60 nm LED behind 6 mm of
+        # N-BK7 with l = 0.1 mm); only the double-sided part is used (lower resolution)
+        x_cm, y, zpd = _double_sided_part(x_cm, y, zpd)
+        if zpd is None:
+            return first
     seg = zpd.short_side_cm * (1 - 1e-9)
     try:
         poly = phase.mertz(x_cm, y, zpd, apodization=apodization, n_fft=n_fft,
@@ -355,6 +362,19 @@ def dispersed_mertz(x_cm, y, zpd, first, *, apodization="happ-genzel", n_fft=Non
         return replace(mag, dispersion_cm2=poly.dispersion_cm2,
                        u_dispersion_cm2=poly.u_dispersion_cm2)
     return poly if r1 <= 0.5 * r0 else first
+
+
+def _double_sided_part(x_cm, y, zpd):
+    """The samples within the short side of ZPD on both sides, with their ZPD (or Nones)."""
+    from ftsource.interferogram.zpd import find_zpd
+
+    x = np.asarray(x_cm, dtype=float)
+    keep = np.abs(x - zpd.x_zpd_cm) <= zpd.short_side_cm
+    if keep.sum() < 16:
+        return x_cm, y, None
+    xs, ys = x[keep], np.asarray(y, dtype=float)[keep]
+    z = find_zpd(xs, ys)
+    return xs, ys, (z if z.found else None)
 
 
 def coadd(
