@@ -17,7 +17,7 @@ import numpy as np
 
 from ftsource.errors import AnalysisError, FtsourceWarning, OptionError
 
-__all__ = ["AnalysisOptions", "analyze", "SEARCH_BAND_NM"]
+__all__ = ["AnalysisOptions", "analyze", "opd_scale", "SEARCH_BAND_NM"]
 
 #: Lines are searched for between these vacuum wavelengths (nm) unless the sampling limits
 #: the short end further. Silicon and InGaAs detectors see nothing beyond 3.3 µm.
@@ -30,9 +30,6 @@ ALIAS_CHECK_REL_MIN = 0.02
 #: Largest signal-to-reference delay corrected (s); acquisition delays are µs to a few
 #: hundred µs (multiplexed ADCs, amplifier bandwidths, sound-card coupling: common practice).
 MAX_CHANNEL_DELAY_S = 2e-3
-#: Default relative standard uncertainty of the reference wavelength: an unstabilised He–Ne
-#: laser (CIPM 2007 recommendation, u_r = 1.5e-6).
-DEFAULT_REFERENCE_UNCERTAINTY_PPM = 1.5
 
 
 @dataclass(frozen=True)
@@ -58,9 +55,11 @@ class AnalysisOptions:
     """
 
     reference_wavelength_nm: float | None = None
-    reference_uncertainty_ppm: float = DEFAULT_REFERENCE_UNCERTAINTY_PPM
-    #: The reference's uncertainty given as a length (nm) before its wavelength was known; it
-    #: replaces ``reference_uncertainty_ppm`` once the wavelength is (option or metadata).
+    #: The reference's relative standard uncertainty (ppm), or ``reference_uncertainty_nm`` as
+    #: a length; with neither, the default of
+    #: :func:`ftsource.interferogram.scale.reference_uncertainty` (1.5 ppm for a He-Ne's
+    #: vacuum wavelength, a bundled standard's own; else an error).
+    reference_uncertainty_ppm: float | None = None
     reference_uncertainty_nm: float | None = None
     alignment_allowance_ppm: float = 0.0
     medium: str = "air"
@@ -90,9 +89,9 @@ class AnalysisOptions:
                 f"--phase-correction {self.phase_correction!r} is not known; use auto, mertz, "
                 "forman or magnitude"
             )
-        ref_u = self.reference_uncertainty_ppm
-        if not (np.isfinite(ref_u) and ref_u >= 0):
-            raise OptionError("--reference-uncertainty must be a finite value ≥ 0")
+        for ref_u in (self.reference_uncertainty_ppm, self.reference_uncertainty_nm):
+            if ref_u is not None and not (np.isfinite(ref_u) and ref_u >= 0):
+                raise OptionError("--reference-uncertainty must be a finite value ≥ 0")
         if not np.isfinite(self.alignment_allowance_ppm):
             raise OptionError("--alignment-allowance must be finite")
         if self.air_model not in ("ciddor", "edlen"):
@@ -131,56 +130,96 @@ def _reference_wavelength(record, options: AnalysisOptions) -> float | None:
     return to_float(meta, "nm", name="reference_wavelength (metadata)")
 
 
-def _apply_calibration(kind, lam_ref, options, notes):
-    """Rescale what the rig calibration calibrated: the reference wavelength, the encoder's
-    scale (applied in :func:`_optical_path`) or the assumed mirror speed."""
-    cal = options.calibration
-    if cal is None or kind is None:
-        return lam_ref, options
-    wanted = kind if kind in ("encoder", "constant-speed") else "reference"
-    made = cal.opd_scale
-    names = {"reference": "a reference laser", "encoder": "a position encoder",
-             "constant-speed": "an assumed constant mirror speed"}
-    if made != wanted:
-        raise OptionError(
-            f"the rig calibration was made on a record whose OPD came from {names[made]}, but "
-            f"this record's OPD comes from {names[wanted]}: calibrate with a record of the same "
-            "kind"
+def opd_scale(record, options: AnalysisOptions):
+    """The OPD scale of ``record`` under ``options``
+    (:class:`ftsource.interferogram.scale.OpdScale`): its kind, the reference's vacuum
+    wavelength (option, else the record's metadata) with its uncertainty, and the rig
+    calibration.
+
+    Raises
+    ------
+    AnalysisError
+        When the record has no reference, no position and no mirror speed is given.
+    OptionError
+        When a reference laser's wavelength or uncertainty is unknown or out of range, or the
+        calibration was made with another kind of scale.
+    """
+    from ftsource.interferogram.scale import (
+        HENE_VACUUM_WAVELENGTH_NM,
+        OpdKind,
+        OpdScale,
+        reference_uncertainty,
+    )
+
+    src = record.opd_source()
+    if src is None and options.mirror_speed_m_s is None:
+        raise AnalysisError(
+            "the record has no reference channel (ref, or ref_i and ref_q) and no position "
+            "column; map one with --columns, or give --mirror-speed to assume a constant speed"
         )
-    if wanted == "reference":
-        lam_ref = float(cal.effective_reference_wavelength_nm)
+    kind = OpdKind(src or OpdKind.CONSTANT_SPEED)
+    lam_ref = _reference_wavelength(record, options)
+    if kind.uses_reference_laser and lam_ref is None:
+        raise OptionError(
+            "the reference wavelength is unknown: give --reference-wavelength (vacuum), e.g. "
+            f"{HENE_VACUUM_WAVELENGTH_NM}nm for a He-Ne laser"
+        )
+    if lam_ref is not None and not 200.0 <= lam_ref <= 2000.0:
+        raise OptionError(f"--reference-wavelength {lam_ref:g} nm is outside 200–2000 nm")
+    u_rel = 0.0
+    if kind.uses_reference_laser:
+        ppm = options.reference_uncertainty_ppm
+        u_rel, _source = reference_uncertainty(
+            lam_ref, relative=None if ppm is None else ppm * 1e-6,
+            length_nm=options.reference_uncertainty_nm,
+        )
+    return OpdScale(kind, lam_ref if kind.uses_reference_laser else None, u_rel,
+                    options.calibration)
+
+
+def _scale_notes(scale, options, notes):
+    """What the OPD scale changed or doubts, for the result's warnings; ``options`` with the
+    calibrated mirror speed and the reference's resolved uncertainty."""
+    from ftsource.interferogram.scale import OpdKind, air_wavelength_warning
+
+    if scale.uses_reference_laser:
+        air = air_wavelength_warning(scale.reference_wavelength_nm)
+        if air:
+            notes.add(air + ": give the reference's vacuum wavelength")
+    # the one resolved value (0 without a reference laser) for the stages after this one
+    options = replace(options, reference_uncertainty_ppm=scale.u_reference_rel * 1e6,
+                      reference_uncertainty_nm=None)
+    cal = scale.calibration
+    if cal is None:
+        return options
+    if scale.uses_reference_laser:
         notes.add(
             "the reference wavelength was replaced by the rig calibration's effective value "
-            f"{lam_ref:.6f} nm"
+            f"{scale.wavelength_nm:.6f} nm"
         )
-    elif wanted == "encoder":
+    elif scale.kind is OpdKind.ENCODER:
         notes.add(f"the encoder's scale was multiplied by the rig calibration's {cal.scale:.9f}")
     else:
-        speed = options.mirror_speed_m_s * cal.scale
+        speed = options.mirror_speed_m_s * scale.factor
         notes.add(
             f"the assumed mirror speed was replaced by the rig calibration's {speed:.6g} m/s "
             f"({cal.scale:.6f} × the stated one)"
         )
         options = replace(options, mirror_speed_m_s=speed)
-    return lam_ref, options
+    return options
 
 
-def _optical_path(record, options, fs, lam_ref, notes):
+def _optical_path(record, options, fs, scale):
     from ftsource.interferogram import opd
-    kind = record.opd_source()
+    from ftsource.interferogram.scale import OpdKind
+
     cols = record.columns
-    if kind == "quadrature":
-        return opd.opd_from_quadrature(cols["ref_i"], cols["ref_q"], fs, lam_ref)
-    if kind == "single":
-        return opd.opd_from_single(cols["ref"], fs, lam_ref)
-    if kind == "encoder":
-        scale = options.calibration.scale if options.calibration is not None else 1.0
-        return opd.opd_from_position(record.position_m * scale, fs)
-    if options.mirror_speed_m_s is None:
-        raise AnalysisError(
-            "the record has no reference channel (ref, or ref_i and ref_q) and no position "
-            "column; map one with --columns, or give --mirror-speed to assume a constant speed"
-        )
+    if scale.kind is OpdKind.QUADRATURE:
+        return opd.opd_from_quadrature(cols["ref_i"], cols["ref_q"], fs, scale.wavelength_nm)
+    if scale.kind is OpdKind.SINGLE:
+        return opd.opd_from_single(cols["ref"], fs, scale.wavelength_nm)
+    if scale.kind is OpdKind.ENCODER:
+        return opd.opd_from_position(record.position_m * scale.factor, fs)
     return opd.opd_from_constant_speed(record.n_samples, fs, options.mirror_speed_m_s)
 
 
@@ -219,7 +258,8 @@ _AIR_KEYS = (  # condition, metadata key, physical type, AirConditions field
 
 def _air_conditions(record, options, notes):
     """``options`` with the air of the analysis: the caller's stated conditions, else the
-    record's ``air_*`` metadata, else the nominal laboratory (:class:`ftsource.physics.air.AirConditions`).
+    record's ``air_*`` metadata, else the nominal laboratory
+    (:class:`ftsource.physics.air.AirConditions`).
 
     A value from metadata gets the caller's stated uncertainty for it, or else
     :data:`ftsource.physics.air.MEASURED_UNCERTAINTY`; it then counts as given (``air_given``).
@@ -288,13 +328,13 @@ def _metadata_humidity(record, key):
         raise RecordError(str(exc)) from None
 
 
-def _index_factor(sigma, lam_ref, options, kind):
-    """σ_vac/σ_apparent = n_scale/n(σ) for the medium (1 in vacuum), by ``options.air_model``.
+def _index_factor(sigma, scale, options):
+    """σ_vac/σ_apparent = n_scale/n(σ) for the medium (1 in vacuum), by ``options.air_model``;
+    n_scale is the index at the reference laser's wavelength (1 for a geometric scale).
 
-    The air equations hold for 300–1700 nm (:data:`ftsource.physics.air.WAVELENGTH_RANGE_NM`); beyond,
-    the index at
-    the nearer end is used. The axis covers far more than the lines, so this is silent
-    here: :mod:`ftsource.result` warns for each reported line outside the range.
+    The air equations hold for 300–1700 nm (:data:`ftsource.physics.air.WAVELENGTH_RANGE_NM`);
+    beyond, the index at the nearer end is used. The axis covers far more than the lines, so
+    this is silent here: :mod:`ftsource.result` warns for each reported line outside the range.
     """
     if options.medium == "vacuum":
         return np.ones_like(sigma)
@@ -306,8 +346,8 @@ def _index_factor(sigma, lam_ref, options, kind):
     n_at = air_index(uniq, options.air, model=model)
     n = np.interp(wl, uniq, n_at) if wl.size > 256 else n_at
     n_scale = (
-        float(air_index(lam_ref, options.air, model=model))
-        if kind in ("quadrature", "single") else 1.0
+        float(air_index(scale.wavelength_nm, options.air, model=model))
+        if scale.uses_reference_laser else 1.0
     )
     return n_scale / n
 
@@ -335,6 +375,7 @@ def analyze(record, options: AnalysisOptions | None = None, *, planner=None):
         For missing or inconsistent options (e.g. no reference wavelength).
     """
     from ftsource.interferogram import resample
+    from ftsource.interferogram.scale import OpdKind
     from ftsource.lines import fitting as lines_mod
     from ftsource.result import Result
     from ftsource.safety import green_pointer_warning
@@ -350,37 +391,21 @@ def analyze(record, options: AnalysisOptions | None = None, *, planner=None):
             "the sample rate is unknown: the record has no time column and no sample_rate "
             "metadata; give --sample-rate"
         )
-    kind = record.opd_source() or ("constant-speed" if options.mirror_speed_m_s else None)
-    lam_ref = _reference_wavelength(record, options)
-    if kind in ("quadrature", "single") and lam_ref is None:
-        raise OptionError(
-            "the reference wavelength is unknown: give --reference-wavelength (vacuum), e.g. "
-            "632.991nm for a He-Ne laser"
-        )
-    if lam_ref is not None and not 200.0 <= lam_ref <= 2000.0:
-        raise OptionError(f"--reference-wavelength {lam_ref:g} nm is outside 200–2000 nm")
-    if options.reference_uncertainty_nm is not None:
-        if lam_ref is None:
-            raise OptionError(
-                "--reference-uncertainty given as a length needs the reference wavelength: give "
-                "--reference-wavelength or a reference_wavelength in the record's metadata"
-            )
-        options = replace(
-            options, reference_uncertainty_nm=None,
-            reference_uncertainty_ppm=options.reference_uncertainty_nm / lam_ref * 1e6,
-        )
-    lam_ref, options = _apply_calibration(kind, lam_ref, options, notes)
-    path = _optical_path(record, options, fs, lam_ref or 632.991, notes)
+    scale = opd_scale(record, options)
+    options = _scale_notes(scale, options, notes)
+    kind, lam_ref = scale.kind, scale.wavelength_nm
+    path = _optical_path(record, options, fs, scale)
     for w in path.warnings:
         notes.add(w)
-    if kind == "encoder":
+    if kind is OpdKind.ENCODER:
         _encoder_note(options, notes)
     if record.source_format == "wav":
         beta = options.bandwidth_fraction or resample.BANDWIDTH_FRACTION_SOUND_CARD
     else:
         beta = options.bandwidth_fraction or resample.BANDWIDTH_FRACTION_ADC
-    limits = resample.sampling_limits(path, fs, lam_ref or 632.991, bandwidth_fraction=beta)
-    if limits.samples_per_reference_fringe < 4 and kind in ("quadrature", "single"):
+    limits = resample.sampling_limits(path, fs, scale.fringe_wavelength_nm,
+                                      bandwidth_fraction=beta)
+    if limits.samples_per_reference_fringe < 4 and kind.uses_reference_laser:
         notes.add(
             f"only {limits.samples_per_reference_fringe:.1f} samples per reference fringe at the "
             "fastest mirror speed: sample faster or scan slower (at least 4 per fringe)"
@@ -389,7 +414,7 @@ def analyze(record, options: AnalysisOptions | None = None, *, planner=None):
     ifgs = resample.resample_sweeps(signal, path, limits.dx_cm)
     delay = _channel_delay(ifgs, path, fs, kind, notes)
     if delay is not None:
-        from ftsource.lines.sweeps import shift_time_for_delay
+        from ftsource.interferogram.delay import shift_time_for_delay
 
         ifgs = resample.resample_sweeps(
             shift_time_for_delay(signal, delay.delay_s, fs), path, limits.dx_cm
@@ -432,7 +457,7 @@ def analyze(record, options: AnalysisOptions | None = None, *, planner=None):
     sweep_specs, ifgs = _dispersion_sweeps(sweep_specs, ifgs, rejected)
     sigma_app = np.arange(n_fft // 2 + 1) / (n_fft * limits.dx_cm)
     spec = spectrum.coadd(sweep_specs, sigma_app, options.apodization)
-    factor = _index_factor(sigma_app, lam_ref or 632.991, options, kind)
+    factor = _index_factor(sigma_app, scale, options)
     spec = spec.with_axis(sigma_app * factor)
     if not any(s.zpd_found for s in sweep_specs):
         notes.add(
@@ -576,8 +601,9 @@ def _rescale_line(fit, factor: float):
 def _aliasing(found, spec, sweep_specs, ifgs, path, fs, beta, sigma_app, factor, sigma_alias):
     """The band where aliases of detectable light may land, and each line's verdict from it
     and from the sweeps' speed diversity (:mod:`ftsource.lines.aliasing`)."""
+    from ftsource.interferogram.opd import sweep_speed_at
     from ftsource.lines.aliasing import assess_lines, band_at_risk, speed_step_needed
-    from ftsource.lines.sweeps import aliasing_check, sweep_speed_at
+    from ftsource.lines.sweeps import aliasing_check
 
     by_index = {ig.sweep.index: ig for ig in ifgs}
     medians, lows, highs, spreads = [], [], [], []
@@ -649,10 +675,10 @@ def _sweep_outliers(spec, sweep_specs, found, notes, fit_cache=None):
 def _channel_delay(ifgs, path, fs, kind, notes):
     """Estimate the signal channel's delay from forward/backward disagreement; return it
     when it is significant (then the caller corrects it), else None."""
-    from ftsource.lines.sweeps import estimate_channel_delay
+    from ftsource.interferogram.delay import estimate_channel_delay
 
     directions = {ig.sweep.direction for ig in ifgs}
-    if kind not in ("quadrature", "encoder") or directions != {-1, 1}:
+    if not kind.knows_direction or directions != {-1, 1}:
         return None  # a single channel cannot tell absolute direction across dropouts
     est = None
     for method in ("zpd", "phase"):
@@ -694,7 +720,7 @@ def _flag_lines(found, lam_ref, sigma_alias, kind, record, notes):
         [f.centre_per_cm for f in found],
         [f.area for f in found],
         [3 * f.instrument_fwhm_per_cm for f in found],
-        reference_per_cm=1e7 / lam_ref if lam_ref and kind in ("quadrature", "single") else None,
+        reference_per_cm=1e7 / lam_ref if kind.uses_reference_laser else None,
         clipped=_clipped_fraction(record.columns["signal"]) > 1e-3,
         band_edge_per_cm=1e7 / SEARCH_BAND_NM[0],
         # ghosts of a laser are as narrow as the instrument line shape
@@ -704,7 +730,7 @@ def _flag_lines(found, lam_ref, sigma_alias, kind, record, notes):
         "alias" if fl is None and f.centre_per_cm > sigma_alias else fl
         for f, fl in zip(found, flags, strict=True)
     ]
-    if lam_ref and kind in ("quadrature", "single") and found:
+    if kind.uses_reference_laser and found:
         main = max(found, key=lambda f: f.area)
         kept = flags[found.index(main)] is None
         if kept and abs(main.centre_per_cm - 1e7 / lam_ref) < 3 * main.instrument_fwhm_per_cm:

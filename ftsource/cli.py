@@ -34,6 +34,8 @@ class _Parser(argparse.ArgumentParser):
 
 
 def build_parser() -> argparse.ArgumentParser:
+    from ftsource.interferogram.scale import HENE_VACUUM_WAVELENGTH_NM  # standard library only
+
     p = _Parser(
         prog="ftsource",
         description=(
@@ -62,7 +64,8 @@ def build_parser() -> argparse.ArgumentParser:
                         "analyze reports")
     s.add_argument("--reference", default="quadrature",
                    choices=("quadrature", "single", "encoder", "none"))
-    s.add_argument("--reference-wavelength", default="632.991nm", metavar="QTY")
+    s.add_argument("--reference-wavelength", default=f"{HENE_VACUUM_WAVELENGTH_NM}nm",
+                   metavar="QTY", help="vacuum wavelength of the simulated reference laser")
     s.add_argument("--sample-rate", default="48kHz", metavar="QTY")
     s.add_argument("--duration", default="2s", metavar="QTY")
     s.add_argument("--opd-centre", default="0mm", metavar="QTY",
@@ -127,9 +130,10 @@ def _add_analysis_options(a) -> None:
     """Options shared by analyze, calibrate and response."""
     a.add_argument("--reference-wavelength", metavar="QTY",
                    help="vacuum wavelength of the reference laser, e.g. 632.991nm")
-    a.add_argument("--reference-uncertainty", metavar="QTY", default="1.5ppm",
-                   help="its standard uncertainty, as a length or ppm (default 1.5ppm, an "
-                        "unstabilised He-Ne laser)")
+    a.add_argument("--reference-uncertainty", metavar="QTY",
+                   help="its standard uncertainty, as a length or ppm; default 1.5ppm only "
+                        "for a He-Ne's vacuum wavelength (CIPM 2007) or a bundled standard's "
+                        "own, required for any other laser")
     a.add_argument("--alignment-allowance", metavar="QTY", default="0ppm",
                    help="cosine-error allowance a (ratio): the result may be too long by up to a "
                         "(negative: too short); corrected by a/2, u = |a|/sqrt(12)")
@@ -206,13 +210,16 @@ def _ratio(text, name):
     return float(q.to_value("")) * 1e6
 
 
-def _reference_uncertainty_ppm(text, lam_nm):
-    """``--reference-uncertainty`` as a ratio (ppm, %, a bare fraction) or as a length (then
-    relative to ``--reference-wavelength``): ``(ppm, None)``, or ``(None, nm)`` when no
-    reference wavelength was given (the record's metadata may give it)."""
+def _reference_uncertainty(text):
+    """``--reference-uncertainty`` as written: ``(ppm, None)`` for a ratio (ppm, %, a bare
+    fraction), ``(None, nm)`` for a length, ``(None, None)`` when not given. A length is turned
+    into a ratio once, by the OPD scale, when the reference wavelength is known (option or
+    the record's metadata)."""
     from ftsource.errors import OptionError
     from ftsource.quantity import parse_quantity
 
+    if text is None:
+        return None, None
     name = "--reference-uncertainty"
     try:
         return _ratio(text, name), None
@@ -223,10 +230,7 @@ def _reference_uncertainty_ppm(text, lam_nm):
             f"{name}: {_show(text)} is neither a ratio nor a length; write e.g. '1.5ppm' or "
             "'0.001nm'"
         )
-    if lam_nm is None:
-        # the record's metadata may name the reference: the pipeline converts it then
-        return None, _qty(text, "nm", name)
-    return _qty(text, "nm", name) / lam_nm * 1e6, None
+    return None, _qty(text, "nm", name)
 
 
 def _options(args):
@@ -271,7 +275,7 @@ def _options(args):
     lam = None
     if args.reference_wavelength is not None:
         lam = _qty(args.reference_wavelength, "nm", "--reference-wavelength", positive=True)
-    ref_u_ppm, ref_u_nm = _reference_uncertainty_ppm(args.reference_uncertainty, lam)
+    ref_u_ppm, ref_u_nm = _reference_uncertainty(args.reference_uncertainty)
     esu = None
     if args.encoder_scale_uncertainty is not None:
         esu = _ratio(args.encoder_scale_uncertainty, "--encoder-scale-uncertainty")
@@ -298,7 +302,7 @@ def _options(args):
         resp = ResponseCurve.from_file(args.response)
     return AnalysisOptions(
         reference_wavelength_nm=lam,
-        reference_uncertainty_ppm=0.0 if ref_u_ppm is None else ref_u_ppm,
+        reference_uncertainty_ppm=ref_u_ppm,
         reference_uncertainty_nm=ref_u_nm,
         alignment_allowance_ppm=_ratio(args.alignment_allowance, "--alignment-allowance"),
         medium=args.medium,

@@ -43,6 +43,7 @@ __all__ = [
     "ReferenceEntry",
     "pick_entry",
     "entries_with_value",
+    "standard_entries",
     "standard_air_to_vacuum_nm",
     "standard_vacuum_to_air_nm",
 ]
@@ -479,6 +480,9 @@ class ReferenceEntry:
         The stored vacuum and standard-air values.
     u_vac_nm : float
         Standard uncertainty stated by the source; NaN where none is stated.
+    u_r : float
+        Relative standard uncertainty where the list states one (laser standards), else
+        ``u_vac_nm / wavelength_vac_nm`` (NaN where neither is stated).
     """
 
     list_name: str
@@ -488,6 +492,7 @@ class ReferenceEntry:
     wavelength_air_nm: float
     u_vac_nm: float
     status: str
+    u_r: float = float("nan")
 
     @property
     def is_standard(self) -> bool:
@@ -511,6 +516,8 @@ def _entries(name: str) -> list[ReferenceEntry]:
             wavelength_air_nm=float(t["wavelength_air_nm"][i]),
             u_vac_nm=float(t["u_vac_nm"][i]),
             status=str(t["status"][i]),
+            u_r=float(t["u_r"][i]) if "u_r" in t.colnames
+            else float(t["u_vac_nm"][i]) / float(t["wavelength_vac_nm"][i]),
         )
         for i in range(len(t))
     ]
@@ -562,6 +569,17 @@ def pick_entry(list_name: str, wavelength_nm: float) -> ReferenceEntry:
                 f"{other.wavelength_vac_nm:.12g} nm (vacuum) are both near; give more digits"
             )
     return best
+
+
+def standard_entries() -> list[ReferenceEntry]:
+    """Every bundled wavelength standard (CIPM recommended values), from all lists.
+
+    Returns
+    -------
+    list of ReferenceEntry
+        The entries whose ``kind`` is ``"standard"``.
+    """
+    return [e for name in line_list_names() for e in _entries(name) if e.is_standard]
 
 
 def entries_with_value(wavelength_vac_nm: float, *, rel: float = 1e-12) -> list[ReferenceEntry]:

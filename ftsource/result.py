@@ -15,6 +15,7 @@ from dataclasses import dataclass, field, replace
 import numpy as np
 
 from ftsource import __version__
+from ftsource.interferogram.scale import OpdKind
 
 __all__ = ["Result", "SCHEMA_ID", "SCHEMA_VERSION"]
 
@@ -105,7 +106,7 @@ class Result:
     ) -> Result:
         warnings = list(notes.items)
         spec = spectrum
-        kind_opd = path.kind
+        kind_opd = path.kind.value
         air = options.air if options.medium == "air" else None
 
         def to_air(wl):
@@ -129,7 +130,8 @@ class Result:
             "sample_rate_hz": _f(options.sample_rate_hz or record.sample_rate_hz),
             "opd_source": kind_opd,
             "reference_wavelength_nm": _f(reference_wavelength_nm),
-            "reference_uncertainty_ppm": _f(_reference_u_ppm(options)),
+            "reference_uncertainty_ppm": _f(_reference_u_ppm(options))
+            if path.kind.uses_reference_laser or options.calibration is not None else None,
             "medium": options.medium,
             "air": None
             if air is None
@@ -460,7 +462,7 @@ def _air_ratio_rel_u(options, path, lam_ref, wl) -> float:
 
     model = options.air_model
     wl_c = float(np.clip(wl, *WAVELENGTH_RANGE_NM))
-    if path.kind in ("quadrature", "single"):
+    if path.kind.uses_reference_laser:
         return float(index_ratio_uncertainty(lam_ref, wl_c, options.air, model=model))
     return float(index_uncertainty(wl_c, options.air, model=model))
 
@@ -749,7 +751,7 @@ def _summary(spec, source_lines, strongest, sweep_spectra, ifgs, options, path, 
     from ftsource.measure.uncertainty import Component
 
     _air_range_warnings(source_lines, options, warnings)
-    opd_scale = path.kind if path.kind in ("encoder", "constant-speed") else "reference"
+    opd_scale = path.kind.calibrated_quantity
 
     extra = []
     if field_of_view_factor != 1.0:
@@ -768,15 +770,15 @@ def _summary(spec, source_lines, strongest, sweep_spectra, ifgs, options, path, 
         ))
     ref_rel = _reference_u_ppm(options) * 1e-6
     cal = options.calibration
-    if cal is not None and path.kind in ("encoder", "constant-speed"):
+    if cal is not None and not path.kind.uses_reference_laser:
         ref_rel = 0.0
-        what = "encoder's scale" if path.kind == "encoder" else "mirror speed"
+        what = "encoder's scale" if path.kind is OpdKind.ENCODER else "mirror speed"
         extra.append(Component(
             "rig calibration", centre_nm * cal.u_effective_rel,
             note=f"relative standard uncertainty {cal.u_effective_rel * 1e6:.3g} ppm of the "
                  f"{what} calibrated from the known line {cal.known_wavelength_nm:.6g} nm",
         ))
-    elif path.kind == "encoder":
+    elif path.kind is OpdKind.ENCODER:
         ref_rel = 0.0
         if options.encoder_scale_uncertainty_ppm is not None:
             extra.append(Component(
@@ -785,7 +787,7 @@ def _summary(spec, source_lines, strongest, sweep_spectra, ifgs, options, path, 
                      "of the encoder's scale (user input)",
             ))
         # not given: the pipeline's note says it is missing from the budget
-    elif path.kind == "constant-speed":
+    elif path.kind is OpdKind.CONSTANT_SPEED:
         ref_rel = 0.0
         extra.append(Component(
             "assumed mirror speed", centre_nm * options.mirror_speed_uncertainty_ppm * 1e-6,
@@ -820,12 +822,12 @@ def _summary(spec, source_lines, strongest, sweep_spectra, ifgs, options, path, 
     s["coverage_factor"] = _f(budget.coverage_factor)
     s["wavenumber_per_cm"] = _f(1e7 / corrected)
     s["frequency_thz"] = _f(C_M_S / (corrected * 1e-9) / 1e12)
-    if path.kind == "constant-speed" and cal is not None:
+    if path.kind is OpdKind.CONSTANT_SPEED and cal is not None:
         warnings.append(
             "NO REFERENCE: every wavelength scales with the mirror speed, calibrated here from a "
             "known line; this holds only while the drive runs exactly as it did then"
         )
-    elif path.kind == "constant-speed":
+    elif path.kind is OpdKind.CONSTANT_SPEED:
         warnings.append(
             "NO REFERENCE: every wavelength scales with the assumed mirror speed; the budget "
             "carries its stated uncertainty (default 5 %), which dominates. Calibrate the speed "

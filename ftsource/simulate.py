@@ -26,6 +26,8 @@ from dataclasses import dataclass, field, replace
 
 import numpy as np
 
+from ftsource.interferogram.scale import HENE_VACUUM_WAVELENGTH_NM, OpdKind
+
 __all__ = [
     "SpectralLine",
     "SourceModel",
@@ -283,7 +285,7 @@ class ReferenceChannel:
     """
 
     kind: str = "quadrature"
-    wavelength_nm: float = 632.991
+    wavelength_nm: float = HENE_VACUUM_WAVELENGTH_NM
     offsets: tuple[float, float] = (0.05, -0.03)
     gains: tuple[float, float] = (1.0, 0.9)
     quadrature_deg: float = 90.0
@@ -469,14 +471,17 @@ def simulate(
 
     cols: dict[str, np.ndarray] = {"time": t, "signal": sig}
     ref = reference
-    if ref.kind in ("quadrature", "single"):
+    if ref.kind != "none" and ref.kind not in set(OpdKind) - {OpdKind.CONSTANT_SPEED}:
+        raise ValueError("reference.kind must be quadrature, single, encoder or none")
+    kind = None if ref.kind == "none" else OpdKind(ref.kind)
+    if kind is not None and kind.uses_reference_laser:
         n_ref = float(_index(medium, air, ref.wavelength_nm))
         phase = 2 * np.pi * n_ref * d / (ref.wavelength_nm * 1e-7)
         amp = np.ones(n)
         for start, length in ref.dropouts:
             amp[(t >= start) & (t < start + length)] = 0.0
         drift = 1.0 + ref.level_drift * _smooth_noise(rng, t, f_max=0.5)
-        if ref.kind == "quadrature":
+        if kind is OpdKind.QUADRATURE:
             q = np.deg2rad(ref.quadrature_deg)
             cols["ref_i"] = ref.offsets[0] * drift + ref.gains[0] * amp * np.cos(phase)
             cols["ref_q"] = (
@@ -488,12 +493,10 @@ def simulate(
             level = 1.0 + ref.level_drift * _smooth_noise(rng, t, f_max=0.5)
             gain = ref.gains[0] * (1.0 + 0.5 * ref.level_drift * _smooth_noise(rng, t, f_max=0.5))
             cols["ref"] = level + gain * amp * np.cos(phase) + rng.normal(0, ref.noise_rms, n)
-    elif ref.kind == "encoder":
+    elif kind is OpdKind.ENCODER:
         pos_m = d / 2 * 1e-2
         q = ref.encoder_resolution_m
         cols["position"] = np.round(pos_m / q) * q if q > 0 else pos_m
-    elif ref.kind != "none":
-        raise ValueError("reference.kind must be quadrature, single, encoder or none")
 
     if wav_channels:
         cols.pop("time")
@@ -501,9 +504,9 @@ def simulate(
         "sample_rate": f"{scan.sample_rate_hz:g} Hz",
         "description": f"simulated record of {source.label} (invented, made by ftsource.simulate)",
     }
-    if ref.kind in ("quadrature", "single"):
+    if kind is not None and kind.uses_reference_laser:
         meta["reference_wavelength"] = f"{ref.wavelength_nm:.6f} nm"
-    if ref.kind == "encoder":
+    if kind is OpdKind.ENCODER:
         meta["position_unit"] = "m"
     ro = {k: _readonly(np.asarray(v, dtype=float)) for k, v in cols.items()}
     record = Record(

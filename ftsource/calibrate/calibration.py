@@ -25,6 +25,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from ftsource.errors import AnalysisError, OptionError
+from ftsource.interferogram.scale import CALIBRATED_QUANTITIES
 
 __all__ = ["RigCalibration", "calibrate_reference", "save_calibration", "load_calibration"]
 
@@ -48,9 +49,10 @@ _DERIVED_KEYS = (
     "u_deviation_ppm",
 )
 _TEXT_KEYS = ("label", "date")
-#: What the rig's OPD scale comes from, and so what a calibration rescales: the reference
-#: laser's effective wavelength, the encoder's scale or the assumed constant mirror speed.
-OPD_SCALES = ("reference", "encoder", "constant-speed")
+#: What sets the optical-path scale, and so what a calibration rescales: a reference laser's
+#: fringes, a position encoder, or an assumed constant mirror speed (one list, in
+#: :mod:`ftsource.interferogram.scale`).
+OPD_SCALES = CALIBRATED_QUANTITIES
 #: Largest |λ_known/λ_measured − 1| a calibration file may hold, per OPD scale: a cosine error
 #: of a laser reference or an encoder stays far below 1 %; an assumed mirror speed is a guess.
 MAX_FILE_DEVIATION = {"reference": 0.01, "encoder": 0.01, "constant-speed": 0.5}

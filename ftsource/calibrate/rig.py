@@ -34,16 +34,19 @@ def calibrate_rig(record, options, known_wavelength_nm: float, u_known_nm: float
     ----------
     .. [1] JCGM 100:2008 (GUM), §5.1 (propagation for a ratio of measured quantities).
     """
-    from ftsource.analysis import analyze
+    from ftsource.analysis import analyze, opd_scale
     from ftsource.calibrate.calibration import calibrate_reference
     from ftsource.errors import AnalysisError
+    from ftsource.interferogram.scale import OpdKind
 
-    nominal_u = options.reference_uncertainty_ppm
+    # the scale the calibration is made against, without any earlier calibration
+    scale = opd_scale(record, replace(options, calibration=None))
     # what the calibration determines is left out of the measured line's uncertainty: the
     # reference wavelength, the encoder's scale or the assumed mirror speed (and the cosine
     # allowance, which the calibration absorbs)
     res = analyze(record, replace(
-        options, reference_uncertainty_ppm=0.0, calibration=None, alignment_allowance_ppm=0.0,
+        options, reference_uncertainty_ppm=0.0, reference_uncertainty_nm=None,
+        calibration=None, alignment_allowance_ppm=0.0,
         mirror_speed_uncertainty_ppm=0.0, encoder_scale_uncertainty_ppm=0.0,
     ))
     s = res.summary
@@ -53,21 +56,18 @@ def calibrate_rig(record, options, known_wavelength_nm: float, u_known_nm: float
         raise AnalysisError(
             f"the calibration record's source is {s['kind']}; calibrate with a single narrow line"
         )
-    opd_source = res.input["opd_source"]
-    opd_scale = opd_source if opd_source in ("encoder", "constant-speed") else "reference"
     # for an encoder or an assumed speed there is no reference laser: the nominal He-Ne value
     # only labels the ratio λ_known/λ_measured that the calibration stores
-    lam_ref = res.input["reference_wavelength_nm"] or 632.991
     cal = calibrate_reference(
         s["centre_wavelength_nm"],
         s["u_centre_wavelength_nm"],
         known_wavelength_nm,
         u_known_nm,
-        lam_ref,
-        nominal_u * 1e-6 if opd_scale == "reference" else 0.0,
+        scale.fringe_wavelength_nm,
+        scale.u_reference_rel,
         label=label,
-        opd_scale=opd_scale,
-        max_deviation_rel=0.5 if opd_scale == "constant-speed" else 1e-3,
+        opd_scale=scale.kind.calibrated_quantity,
+        max_deviation_rel=0.5 if scale.kind is OpdKind.CONSTANT_SPEED else 1e-3,
     )
     if not math.isfinite(cal.effective_reference_wavelength_nm):  # pragma: no cover
         raise AnalysisError("the calibration did not give a finite reference wavelength")

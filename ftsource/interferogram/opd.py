@@ -22,7 +22,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from ftsource.errors import AnalysisError
+from ftsource.errors import AnalysisError, OptionError
+from ftsource.interferogram.scale import HENE_VACUUM_WAVELENGTH_NM, OpdKind
 
 __all__ = [
     "EllipseFit",
@@ -34,6 +35,7 @@ __all__ = [
     "opd_from_single",
     "opd_from_position",
     "opd_from_constant_speed",
+    "sweep_speed_at",
 ]
 
 #: Reference amplitude below this fraction of the record's median counts as a dropout.
@@ -83,7 +85,7 @@ class OpticalPath:
     """OPD for every sample (NaN where unknown) and the sweeps found in it."""
 
     opd_cm: np.ndarray
-    kind: str
+    kind: OpdKind
     sweeps: tuple[Sweep, ...]
     ellipse_residual: float | None
     fringe_slips: int
@@ -405,7 +407,7 @@ def opd_from_quadrature(
         )
     x *= lam_cm / (2 * np.pi)
     sweeps = _split_sweeps(x, seg_runs, sample_rate_hz, lam_cm)
-    _check_sweeps(sweeps, "quadrature")
+    _check_sweeps(sweeps, OpdKind.QUADRATURE)
     # refine: one ellipse fit per sweep, phase kept continuous with the first pass
     residuals = []
     for sw in sweeps:
@@ -424,7 +426,7 @@ def opd_from_quadrature(
             x[a:b] = _smooth_phase(x[a:b], spf)
     return OpticalPath(
         opd_cm=x,
-        kind="quadrature",
+        kind=OpdKind.QUADRATURE,
         sweeps=tuple(sweeps),
         ellipse_residual=float(np.sqrt(np.mean(np.square(residuals)))) if residuals else None,
         fringe_slips=slips,
@@ -576,7 +578,7 @@ def opd_from_single(
     _check_sweeps(sweeps, "single-channel")
     return OpticalPath(
         opd_cm=x,
-        kind="single",
+        kind=OpdKind.SINGLE,
         sweeps=tuple(sweeps),
         ellipse_residual=None,
         fringe_slips=slips,
@@ -604,9 +606,10 @@ def opd_from_position(
         if x.size > w:
             x = savgol_filter(x, w, 3, mode="interp")
     runs = [(0, x.size)]
-    sweeps = _split_sweeps(x, runs, sample_rate_hz, 632.991e-7)
-    _check_sweeps(sweeps, "encoder")
-    return OpticalPath(x, "encoder", tuple(sweeps), None, 0, 0, ())
+    # sweeps are told apart by a nominal fringe of travel, as for a He-Ne reference
+    sweeps = _split_sweeps(x, runs, sample_rate_hz, HENE_VACUUM_WAVELENGTH_NM * 1e-7)
+    _check_sweeps(sweeps, OpdKind.ENCODER)
+    return OpticalPath(x, OpdKind.ENCODER, tuple(sweeps), None, 0, 0, ())
 
 
 def opd_from_constant_speed(n_samples: int, sample_rate_hz: float, mirror_speed_m_s: float):
@@ -620,4 +623,48 @@ def opd_from_constant_speed(n_samples: int, sample_rate_hz: float, mirror_speed_
         f"{mirror_speed_m_s * 1e3:g} mm/s; every wavelength is only as good as that speed and "
         "any speed variation broadens and shifts the lines"
     )
-    return OpticalPath(x, "constant-speed", (sw,), None, 0, 0, (msg,))
+    return OpticalPath(x, OpdKind.CONSTANT_SPEED, (sw,), None, 0, 0, (msg,))
+
+
+def sweep_speed_at(path, sweep, sample_rate_hz: float, x_cm, *, smooth_s: float = 1e-3):
+    """Local OPD speed |dx/dt| (cm/s) of one sweep at OPD values ``x_cm``.
+
+    The speed is the gradient of the sweep's own OPD (``path.opd_cm[sweep.start:sweep.stop]``)
+    times the sample rate, smoothed by a running mean of ``smooth_s`` (1 ms by default, the
+    window :mod:`ftsource.interferogram.opd` uses to find sweeps), and interpolated linearly in OPD.
+
+    Parameters
+    ----------
+    path : ftsource.interferogram.opd.OpticalPath
+        The OPD of the whole record.
+    sweep : ftsource.interferogram.opd.Sweep
+        The sweep (its ``start``/``stop``/``direction``).
+    sample_rate_hz : float
+        Sample rate of the record.
+    x_cm : float or array_like
+        Where to evaluate the speed (OPD, cm); values outside the sweep take the end speed.
+
+    Returns
+    -------
+    float or ndarray
+        Speed in cm/s of OPD, positive.
+
+    References
+    ----------
+    .. [1] Common practice: speed as the smoothed finite difference of the position.
+    """
+    from scipy.ndimage import uniform_filter1d
+
+    x = np.asarray(path.opd_cm[sweep.start : sweep.stop], float)
+    good = np.isfinite(x)
+    x = x[good]
+    if x.size < 4:
+        raise OptionError(f"sweep {sweep.index} has fewer than 4 samples with a known OPD")
+    v = np.abs(np.gradient(x)) * sample_rate_hz
+    v = uniform_filter1d(v, max(int(round(smooth_s * sample_rate_hz)), 1), mode="nearest")
+    if sweep.direction < 0:
+        x, v = x[::-1], v[::-1]
+    keep = np.concatenate([[True], np.diff(x) > 0])
+    keep &= x >= np.maximum.accumulate(x)
+    out = np.interp(np.asarray(x_cm, float), x[keep], v[keep])
+    return float(out) if np.ndim(x_cm) == 0 else out

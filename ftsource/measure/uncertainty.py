@@ -50,6 +50,7 @@ from typing import NamedTuple
 import numpy as np
 
 from ftsource.errors import OptionError
+from ftsource.interferogram.scale import CALIBRATED_QUANTITIES
 
 __all__ = [
     "Component",
@@ -68,9 +69,10 @@ _KINDS = ("A", "B")
 #: one: t_0.975(10⁶) − z_0.975 = 2.4×10⁻⁶ (scipy.stats), far below any stated digit, and
 #: scipy's t quantile refuses a floor(ν) too large for its integer conversion (e.g. 10²⁶).
 DOF_AS_INFINITE = 1e6
-#: What sets the optical-path scale of :func:`wavelength_budget`: a reference laser's fringes,
-#: a position encoder, or an assumed constant mirror speed (the last two are geometric).
-OPD_SCALES = ("reference", "encoder", "constant-speed")
+#: What sets the optical-path scale, and so what a calibration rescales: a reference laser's
+#: fringes, a position encoder, or an assumed constant mirror speed (one list, in
+#: :mod:`ftsource.interferogram.scale`).
+OPD_SCALES = CALIBRATED_QUANTITIES
 
 
 def _finite(name: str, value, *, minimum: float | None = None, strict: bool = False) -> float:
