@@ -123,3 +123,19 @@ def test_coherence_line_shape_correction_is_second_order():
     assert abs(m.length_cm / lc - 1) > 0.01  # the bias: 1.1 %
     assert abs(out.length_cm / lc - 1) < (k / w) ** 4  # second order: (k/w)⁴ = 5e-4
     assert out.u_length_cm == pytest.approx(0.25 * abs(out.length_cm - m.length_cm), rel=1e-3)
+
+
+def test_line_set_figures_of_a_doublet():
+    # IES centroid (first moment) and JCGM 100 §5.1.2, closed form for two lines: the Na D
+    # doublet 588.9950/589.5924 nm (standard air; NIST ASD, from memory) with intensities 2:1
+    from ftsource.measure.figures import line_set_figures
+
+    f = line_set_figures([588.9950, 589.5924], [0.001, 0.002], [2.0, 1.0], [0.1, 0.1])
+    assert f.peak_nm == 588.9950 and f.u_peak_nm == 0.001  # the stronger line
+    c = (2 * 588.9950 + 589.5924) / 3
+    assert f.centroid_nm == pytest.approx(c, abs=1e-12)
+    u2 = (2 / 3 * 0.001) ** 2 + (1 / 3 * 0.002) ** 2 + ((588.9950 - c) / 3 * 0.1) ** 2 \
+        + ((589.5924 - c) / 3 * 0.1) ** 2
+    assert f.u_centroid_nm == pytest.approx(math.sqrt(u2), rel=1e-12)
+    one = line_set_figures([632.8], [0.01], [1.0])
+    assert (one.peak_nm, one.centroid_nm, one.u_centroid_nm) == (632.8, 632.8, 0.01)
