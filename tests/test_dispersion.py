@@ -128,7 +128,7 @@ def test_coherence_line_shape_correction_is_second_order():
 def test_line_set_figures_of_a_doublet():
     # IES centroid (first moment) and JCGM 100 §5.1.2, closed form for two lines: the Na D
     # doublet 588.9950/589.5924 nm (standard air; NIST ASD, from memory) with intensities 2:1
-    from ftsource.measure.figures import line_set_figures
+    from ftsource.measure.lineset import line_set_figures
 
     f = line_set_figures([588.9950, 589.5924], [0.001, 0.002], [2.0, 1.0], [0.1, 0.1])
     assert f.peak_nm == 588.9950 and f.u_peak_nm == 0.001  # the stronger line

@@ -111,9 +111,17 @@ def format_summary(result) -> str:
                 f"colour: x = {_fmt(x, '', 4)}, y = {_fmt(y, '', 4)}, dominant wavelength "
                 f"{_fmt(s['dominant_wavelength_nm'], ' nm', 1)}"
             )
-    elif s.get("resolved"):
+    elif s.get("peak_wavelength_nm") is not None:
+        # every kind has a peak (strongest line) and a centroid (intensity-weighted mean)
+        out.append(
+            f"peak {_fmt(s['peak_wavelength_nm'], ' nm', 4)} (strongest line), centroid "
+            f"{_fmt(s.get('centroid_wavelength_nm'), ' nm', 4)} (intensity-weighted)"
+        )
+    if s["kind"] == "multimode" and s.get("fwhm_nm") is not None:
+        out.append(f"envelope FWHM of the modes: {_fmt(s['fwhm_nm'], ' nm', 3)}")
+    elif s["kind"] != "broadband" and s.get("resolved"):
         out.append(f"linewidth (FWHM): {_fmt(s.get('fwhm_nm'), ' nm', 4)}")
-    elif s.get("fwhm_upper_bound_nm") is not None:
+    elif s["kind"] != "broadband" and s.get("fwhm_upper_bound_nm") is not None:
         out.append(
             f"linewidth: not resolved, below {_fmt(s['fwhm_upper_bound_nm'], ' nm', 4)}; "
             f"coherence length above {_fmt(s.get('coherence_length_lower_bound_mm'), ' mm', 2)}"
