@@ -144,6 +144,7 @@ def broadband_metrics(
     window_nm: tuple[float, float] | None = None,
     n_monte_carlo: int = 200,
     rng=0,
+    warn: bool = True,
 ) -> BroadbandMetrics:
     """Peak, centroid, centre and FWHM of a band on S_λ, with uncertainties from the noise.
 
@@ -169,6 +170,10 @@ def broadband_metrics(
     rng : int or numpy.random.Generator
         Seed or generator of the Monte Carlo (fixed by default: the same input gives the
         same uncertainties).
+    warn : bool
+        Issue the notes below as ``FtsourceWarning`` (default); with False they are only
+        returned in ``warnings`` of the result (the pipeline's route: each stage returns its
+        notes).
 
     Returns
     -------
@@ -247,7 +252,7 @@ def broadband_metrics(
                 f"{n_mc - int(ok.sum())} of {n_mc} Monte Carlo copies had no half-maximum "
                 "crossing on one side; the uncertainties use the others"
             )
-    for msg in dict.fromkeys(notes):
+    for msg in dict.fromkeys(notes) if warn else ():
         warnings.warn(msg, FtsourceWarning, stacklevel=2)
     peak, centroid, lo_h, hi_h, (b_lo, b_hi), height = vals
     return BroadbandMetrics(
@@ -494,10 +499,9 @@ def band_edge_uncertainty(wavelength_nm, density_per_nm, *, fractions=EDGE_FRACT
     values = []
     for f in fractions:
         try:
-            with warnings.catch_warnings():
-                warnings.simplefilter("ignore", FtsourceWarning)
-                values.append(broadband_metrics(wavelength_nm, density_per_nm, None,
-                                                band_fraction=f, n_monte_carlo=0).centroid_nm)
+            values.append(broadband_metrics(wavelength_nm, density_per_nm, None,
+                                            band_fraction=f, n_monte_carlo=0,
+                                            warn=False).centroid_nm)
         except AnalysisError:
             return math.nan
     return (max(values) - min(values)) / (2 * math.sqrt(3))
