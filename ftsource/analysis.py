@@ -647,9 +647,16 @@ def _result(record, setup: _Setup, sampling: _Sampling, spectra: _Spectra, lines
         reference_uncertainty_ppm=ref_u_ppm,
     )
     health, health_notes = facts.health_facts(record, path, sweep_specs)
+    from functools import partial
+
+    from ftsource.measure.budget import line_budget
+
     reports, line_notes = facts.line_reports(
         lines.found, lines.flags, lines.aliasing, options=options,
         reference_uncertainty_ppm=ref_u_ppm, main=main,
+        budget=partial(line_budget, opd_kind=path.kind, options=options,
+                       reference_wavelength_nm=setup.reference_wavelength_nm,
+                       field_of_view_factor=lines.field_of_view_factor),
     )
     figures = source_figures(
         spec, lines.source_lines, sweep_specs, spectra.interferograms, options=options,

@@ -182,6 +182,10 @@ class LineReport:
     aliasing: str | None
     identification: object | None  # ftsource.linelists.Candidate
     nearest_entries: tuple = ()
+    #: The line's own expanded uncertainty and coverage factor, by the summary's budget
+    #: (:func:`ftsource.measure.budget.line_budget`).
+    expanded_uncertainty_nm: float | None = None
+    coverage_factor: float | None = None
 
 
 def clipped_fraction(signal) -> float:
@@ -302,11 +306,13 @@ def instrument_facts(spec, limits, main, apodization) -> InstrumentFacts:
 
 
 def line_reports(lines, flags, aliasing, *, options, reference_uncertainty_ppm,
-                 main=None) -> tuple[tuple[LineReport, ...], tuple[str, ...]]:
+                 main=None, budget=None) -> tuple[tuple[LineReport, ...], tuple[str, ...]]:
     """The table of lines, sorted by wavelength, and the aliasing notes of its lines.
 
     ``main`` is the strongest source line (intensities are relative to it); ``aliasing``
-    holds each line's verdict (:mod:`ftsource.lines.aliasing`) or is None.
+    holds each line's verdict (:mod:`ftsource.lines.aliasing`) or is None. ``budget``, when
+    given, maps a line fit to its ``(expanded_uncertainty_nm, coverage_factor)``
+    (:func:`ftsource.measure.budget.line_budget`).
     """
     from ftsource.lines.identify import identify_line
 
@@ -321,6 +327,7 @@ def line_reports(lines, flags, aliasing, *, options, reference_uncertainty_ppm,
             notes.append(alias.message)
         ident = identify_line(wl, u_wl, reference_uncertainty_ppm, source_line=flag is None,
                               tables=tables)
+        big_u, k = budget(f) if budget is not None else (None, None)
         out.append(LineReport(
             wavelength_nm=finite_or_none(wl),
             wavelength_air_nm=finite_or_none(air_wavelength_nm(wl, options)),
@@ -339,6 +346,8 @@ def line_reports(lines, flags, aliasing, *, options, reference_uncertainty_ppm,
             aliasing=alias.verdict if alias is not None else None,
             identification=ident.best,
             nearest_entries=ident.nearest,
+            expanded_uncertainty_nm=finite_or_none(big_u),
+            coverage_factor=finite_or_none(k),
         ))
     out.sort(key=lambda r: r.wavelength_nm or 0.0)
     return tuple(out), tuple(notes)
