@@ -107,11 +107,14 @@ def glass_facts(sweep_spectra, main) -> tuple[GlassFacts | None, tuple[str, ...]
     (None and no note when no sweep needed the dispersion treatment)."""
     from ftsource.spectrum.dispersion import glass_imbalance
 
-    if main is None:
-        return None, ()
+    from ftsource.measure.classify import BROADBAND_FWHM_NM
+
+    if main is None or not main.resolved or (
+            u_nm_from_per_cm(main.centre_per_cm, main.fwhm_per_cm) <= BROADBAND_FWHM_NM):
+        return None, ()  # a narrow line's few bins cannot tell a phase curvature
     g = glass_imbalance([s.dispersion_cm2 for s in sweep_spectra],
                         [s.u_dispersion_cm2 for s in sweep_spectra], main.centre_per_cm)
-    if g is None:
+    if g is None or not g.dispersion_cm2 > 3 * g.u_dispersion_cm2:
         return None, ()
     note = (
         f"the centre burst is chirped: the two arms hold unequal glass, about "
