@@ -83,24 +83,24 @@ class AnalysisOptions:
 
     def __post_init__(self):
         if self.medium not in ("air", "vacuum"):
-            raise OptionError(f"--medium must be 'air' or 'vacuum', not {self.medium!r}")
+            raise OptionError(f"medium must be 'air' or 'vacuum', not {self.medium!r}")
         if self.phase_correction not in ("auto", "mertz", "forman", "magnitude"):
             raise OptionError(
-                f"--phase-correction {self.phase_correction!r} is not known; use auto, mertz, "
+                f"phase_correction {self.phase_correction!r} is not known; use auto, mertz, "
                 "forman or magnitude"
             )
         for ref_u in (self.reference_uncertainty_ppm, self.reference_uncertainty_nm):
             if ref_u is not None and not (np.isfinite(ref_u) and ref_u >= 0):
-                raise OptionError("--reference-uncertainty must be a finite value ≥ 0")
+                raise OptionError("reference_uncertainty must be a finite value ≥ 0")
         if not np.isfinite(self.alignment_allowance_ppm):
-            raise OptionError("--alignment-allowance must be finite")
+            raise OptionError("alignment_allowance must be finite")
         if self.air_model not in ("ciddor", "edlen"):
             raise OptionError(
-                f"--air-model {self.air_model!r} is not known; use ciddor or edlen"
+                f"air_model {self.air_model!r} is not known; use ciddor or edlen"
             )
         esu = self.encoder_scale_uncertainty_ppm
         if esu is not None and not (np.isfinite(esu) and esu >= 0):
-            raise OptionError("--encoder-scale-uncertainty must be a finite value ≥ 0")
+            raise OptionError("encoder_scale_uncertainty must be a finite value ≥ 0")
         if self.zero_fill < 1:
             raise OptionError("zero_fill must be at least 1")
         from ftsource.spectrum.apodization import get_apodization
@@ -144,17 +144,17 @@ def opd_scale(record, options: AnalysisOptions):
     if src is None and options.mirror_speed_m_s is None:
         raise AnalysisError(
             "the record has no reference channel (ref, or ref_i and ref_q) and no position "
-            "column; map one with --columns, or give --mirror-speed to assume a constant speed"
+            "column; map one with columns='...', or give mirror_speed to assume a constant speed"
         )
     kind = OpdKind(src or OpdKind.CONSTANT_SPEED)
     lam_ref = _reference_wavelength(record, options)
     if kind.uses_reference_laser and lam_ref is None:
         raise OptionError(
-            "the reference wavelength is unknown: give --reference-wavelength (vacuum), e.g. "
+            "the reference wavelength is unknown: give reference_wavelength (vacuum), e.g. "
             f"{HENE_VACUUM_WAVELENGTH_NM}nm for a He-Ne laser"
         )
     if lam_ref is not None and not 200.0 <= lam_ref <= 2000.0:
-        raise OptionError(f"--reference-wavelength {lam_ref:g} nm is outside 200–2000 nm")
+        raise OptionError(f"reference_wavelength {lam_ref:g} nm is outside 200–2000 nm")
     u_rel = 0.0
     if kind.uses_reference_laser:
         ppm = options.reference_uncertainty_ppm
@@ -293,8 +293,8 @@ def _air_conditions(record, options):
                if c in ("temperature", "pressure", "humidity") and c not in given]
     if missing:
         raise OptionError(
-            f"--air-{missing[0]}-uncertainty was given without --air-{missing[0]}, and the "
-            f"record's metadata has no air_{missing[0]}: give the value it belongs to"
+            f"air_{missing[0]}_uncertainty was given without air_{missing[0]}, and the "
+            f"record's metadata has no 'air_{missing[0]}': give the value it belongs to"
         )
     notes = ()
     if values:
@@ -332,7 +332,7 @@ def _index_factor(sigma, scale, options):
     return n_scale / n
 
 
-def analyze(record, options: AnalysisOptions | None = None, *, planner=None):
+def analyze(record, options: AnalysisOptions | None = None, *, planner=None, **parameters):
     """Characterize the source in ``record``.
 
     Every stage returns its notes (what the data could not support, and what to change) with
@@ -342,24 +342,49 @@ def analyze(record, options: AnalysisOptions | None = None, *, planner=None):
 
     Parameters
     ----------
-    record : ftsource.io.records.Record
-        Samples with ``signal`` and a reference (``ref_i``/``ref_q``, ``ref`` or ``position``).
+    record : ftsource.io.records.Record, str or path-like
+        The samples, or a record file (``.csv``/``.tsv``/``.txt``/``.dat``, ``.npz``,
+        ``.wav``) read with :func:`ftsource.io.records.read_record`. They hold ``signal`` and
+        a reference (``ref_i``/``ref_q``, ``ref`` or ``position``).
     options : AnalysisOptions, optional
+        All options as one object (plain floats in the units of its field names); or give
+        them as keyword ``parameters`` instead.
     planner : ftsource.spectrum.transform.FFTPlanner, optional
         Reuse FFT plans across calls (e.g. over several records).
+    **parameters
+        The options as keywords with units (:data:`ftsource.parameters.PARAMETERS`):
+        astropy Quantities or text such as ``reference_wavelength=632.991 * u.nm``,
+        ``air_temperature="21 degC"``, ``air_pressure=1013 * u.hPa``, ``air_humidity="45%"``,
+        ``reference_uncertainty="1.5 ppm"``, ``medium="vacuum"``; ``columns`` maps the
+        columns of a record file.
 
     Returns
     -------
     ftsource.result.Result
+        Its figures are also astropy Quantities (``result.centre_wavelength``, ...);
+        ``result.to_dict()`` is the JSON.
 
     Raises
     ------
     AnalysisError
         When the record cannot support any spectrum (no fringes, no sweep, no reference).
     OptionError
-        For missing or inconsistent options (e.g. no reference wavelength).
+        For missing, inconsistent or badly written options (e.g. no reference wavelength, a
+        value without its unit), naming the parameter.
+    RecordError
+        When a record file cannot be read.
+
+    Examples
+    --------
+    >>> import astropy.units as u
+    >>> import ftsource
+    >>> result = ftsource.analyze("scan.csv", reference_wavelength=632.991 * u.nm,
+    ...                           medium="air", air_temperature=21 * u.deg_C)  # doctest: +SKIP
+    >>> result.centre_wavelength  # doctest: +SKIP
+    <Quantity 532.18 nm>
     """
-    setup = _setup(record, options or AnalysisOptions())
+    options, record = _inputs(record, options, parameters)
+    setup = _setup(record, options)
     sampling = _sampling(record, setup)
     sweeps = _sweeps(record, setup, sampling)
     spectra = _spectra(setup, sampling, sweeps, planner)
@@ -368,6 +393,37 @@ def analyze(record, options: AnalysisOptions | None = None, *, planner=None):
     for msg in result.warnings:
         _warnings.warn(msg, AnalysisWarning, stacklevel=2)
     return result
+
+
+def _inputs(record, options, parameters):
+    """The options (from ``options`` or keyword ``parameters``) and the record (read from a
+    file when a path is given)."""
+    import os
+
+    from ftsource.io.records import Record, read_record
+
+    columns = parameters.pop("columns", None)
+    if parameters:
+        if options is not None:
+            raise OptionError(
+                "give the options either as options=AnalysisOptions(...) or as keyword "
+                f"parameters, not both (got options and {', '.join(sorted(parameters))})"
+            )
+        from ftsource.parameters import option_fields
+
+        options = AnalysisOptions(**option_fields(**parameters))
+    options = options if options is not None else AnalysisOptions()
+    if not isinstance(options, AnalysisOptions):
+        raise OptionError(f"options must be an AnalysisOptions, not {type(options).__name__}")
+    if isinstance(record, (str, os.PathLike)):
+        record = read_record(record, columns=columns, sample_rate=options.sample_rate_hz)
+    elif not isinstance(record, Record):
+        raise OptionError(
+            f"record must be a Record or the path of a record file, not {type(record).__name__}"
+        )
+    elif columns is not None:
+        raise OptionError("columns applies to a record file; this record is read already")
+    return options, record
 
 
 @dataclass(frozen=True)
@@ -451,7 +507,7 @@ def _setup(record, options) -> _Setup:
     if not fs:
         raise OptionError(
             "the sample rate is unknown: the record has no time column and no sample_rate "
-            "metadata; give --sample-rate"
+            "metadata; give sample_rate"
         )
     scale = opd_scale(record, options)
     options, scale_notes = _scale_notes(scale, options)

@@ -65,6 +65,10 @@ class Result:
         What the data could not support and what to change, in the order found.
     spectrum : ftsource.spectrum.spectrum.Spectrum
     interferograms : tuple of ftsource.interferogram.resample.Interferogram
+
+    The main figures are also properties giving astropy Quantities (``centre_wavelength``,
+    ``expanded_uncertainty``, ``linewidth``, ``coherence_length``, ...), None where the data
+    gave none; :meth:`to_dict` gives the same numbers as JSON.
     """
 
     input: object
@@ -102,6 +106,104 @@ class Result:
             "warnings": list(self.warnings),
             "safety": LASER_NOTICE,
         }
+
+    # ---- the figures as astropy Quantities (None where the data gave none) -------------
+    @property
+    def kind(self) -> str:
+        """The source's kind: ``"narrow"``, ``"multimode"``, ``"broadband"`` or ``"none"``."""
+        return self.figures.kind
+
+    @property
+    def centre_wavelength(self):
+        """Centre wavelength in vacuum (corrected, the budget's measurand)."""
+        return _quantity(self.figures.centre_wavelength_nm, "nm")
+
+    @property
+    def centre_wavelength_air(self):
+        """Centre wavelength in the analysis's air (None in vacuum or outside 300–1700 nm)."""
+        return _quantity(self.figures.centre_wavelength_air_nm, "nm")
+
+    @property
+    def u_centre_wavelength(self):
+        """Combined standard uncertainty of the centre wavelength (JCGM 100)."""
+        return _quantity(self.figures.u_centre_wavelength_nm, "nm")
+
+    @property
+    def expanded_uncertainty(self):
+        """Expanded uncertainty of the centre wavelength (about 95 % coverage)."""
+        return _quantity(self.figures.expanded_uncertainty_nm, "nm")
+
+    @property
+    def coverage_factor(self) -> float | None:
+        """The coverage factor k of :attr:`expanded_uncertainty`."""
+        return self.figures.coverage_factor
+
+    @property
+    def wavenumber(self):
+        """Vacuum wavenumber of the centre."""
+        return _quantity(self.figures.wavenumber_per_cm, "1/cm")
+
+    @property
+    def frequency(self):
+        """Optical frequency of the centre."""
+        return _quantity(self.figures.frequency_thz, "THz")
+
+    @property
+    def linewidth(self):
+        """FWHM of the main line or band (None when not resolved: see
+        :attr:`linewidth_upper_bound`)."""
+        return _quantity(self.figures.fwhm_nm, "nm")
+
+    @property
+    def u_linewidth(self):
+        """Standard uncertainty of :attr:`linewidth`."""
+        return _quantity(self.figures.u_fwhm_nm, "nm")
+
+    @property
+    def linewidth_upper_bound(self):
+        """Upper bound of the FWHM of an unresolved line (about 95 % coverage)."""
+        return _quantity(self.figures.fwhm_upper_bound_nm, "nm")
+
+    @property
+    def coherence_length(self):
+        """Coherence length from the spectrum (Goodman's integral definition)."""
+        return _quantity(self.figures.coherence_length_mm, "mm")
+
+    @property
+    def u_coherence_length(self):
+        """Standard uncertainty of :attr:`coherence_length`."""
+        return _quantity(self.figures.u_coherence_length_mm, "mm")
+
+    @property
+    def coherence_length_lower_bound(self):
+        """Lower bound of the coherence length of an unresolved line."""
+        return _quantity(self.figures.coherence_length_lower_bound_mm, "mm")
+
+    @property
+    def peak_wavelength(self):
+        """Peak wavelength of a broad band (vacuum)."""
+        return _quantity(self.figures.peak_wavelength_nm, "nm")
+
+    @property
+    def centroid_wavelength(self):
+        """Centroid wavelength of a broad band (vacuum)."""
+        return _quantity(self.figures.centroid_wavelength_nm, "nm")
+
+    @property
+    def mode_spacing(self):
+        """Mode spacing of a multimode laser (wavelength)."""
+        m = self.figures.modes
+        return None if m is None else _quantity(m.spacing_nm, "nm")
+
+
+def _quantity(value, unit):
+    """``value`` in ``unit`` as an astropy Quantity, or None."""
+    if value is None:
+        return None
+    import astropy.units as u
+
+    return value * u.Unit(unit)
+
 
 
 def _input(i) -> dict:
