@@ -16,14 +16,12 @@ from dataclasses import dataclass, replace
 import numpy as np
 
 from ftsource.errors import AnalysisError, FtsourceWarning, OptionError
+from ftsource.interferogram.scale import REFERENCE_WAVELENGTH_RANGE_NM
+from ftsource.lines.fitting import SEARCH_BAND_NM
+from ftsource.measure.broadband import BROADBAND_FWHM_NM
 
 __all__ = ["AnalysisOptions", "analyze", "opd_scale", "SEARCH_BAND_NM"]
 
-#: Lines are searched for between these vacuum wavelengths (nm) unless the sampling limits
-#: the short end further. Silicon and InGaAs detectors see nothing beyond 3.3 µm.
-SEARCH_BAND_NM = (200.0, 3300.0)
-#: A line is "broadband" when its FWHM exceeds this many nm (LEDs, lamps, SLEDs).
-BROADBAND_FWHM_NM = 2.0
 #: Peaks down to this fraction of each sweep's strongest enter the speed-diversity alias check
 #: (weaker ones are reported as not checked).
 ALIAS_CHECK_REL_MIN = 0.02
@@ -164,8 +162,9 @@ def opd_scale(record, options: AnalysisOptions):
             "the reference wavelength is unknown: give --reference-wavelength (vacuum), e.g. "
             f"{HENE_VACUUM_WAVELENGTH_NM}nm for a He-Ne laser"
         )
-    if lam_ref is not None and not 200.0 <= lam_ref <= 2000.0:
-        raise OptionError(f"--reference-wavelength {lam_ref:g} nm is outside 200–2000 nm")
+    lo, hi = REFERENCE_WAVELENGTH_RANGE_NM
+    if lam_ref is not None and not lo <= lam_ref <= hi:
+        raise OptionError(f"--reference-wavelength {lam_ref:g} nm is outside {lo:g}–{hi:g} nm")
     u_rel = 0.0
     if kind.uses_reference_laser:
         ppm = options.reference_uncertainty_ppm
@@ -679,14 +678,14 @@ def _flag_lines(found, lam_ref, sigma_alias, kind, record, notes):
     """Why each line is not a source line (None when it is): a ghost (reference light,
     harmonic or intermodulation product of a clipped detector; :mod:`ftsource.lines.ghosts`) or a
     line beyond the alias-free limit."""
-    from ftsource.lines.ghosts import flag_ghosts
+    from ftsource.lines.ghosts import clipped_fraction, flag_ghosts
 
     flags = flag_ghosts(
         [f.centre_per_cm for f in found],
         [f.area for f in found],
         [3 * f.instrument_fwhm_per_cm for f in found],
         reference_per_cm=1e7 / lam_ref if kind.uses_reference_laser else None,
-        clipped=_clipped_fraction(record.columns["signal"]) > 1e-3,
+        clipped=clipped_fraction(record.columns["signal"]) > 1e-3,
         band_edge_per_cm=1e7 / SEARCH_BAND_NM[0],
         # ghosts of a laser are as narrow as the instrument line shape
         eligible=[not f.resolved or f.fwhm_per_cm < 3 * f.instrument_fwhm_per_cm for f in found],
@@ -713,10 +712,3 @@ def _flag_lines(found, lam_ref, sigma_alias, kind, record, notes):
             "alias-free limit); see 'flag' in lines"
         )
     return flags
-
-
-def _clipped_fraction(signal: np.ndarray) -> float:
-    """Fraction of samples sitting at the record's extreme values (a flat top or bottom)."""
-    s = np.asarray(signal)
-    hi, lo = s.max(), s.min()
-    return float(max(np.mean(s == hi), np.mean(s == lo))) if s.size else 0.0

@@ -16,6 +16,7 @@ import numpy as np
 
 from ftsource import __version__
 from ftsource.interferogram.scale import OpdKind
+from ftsource.measure.broadband import BROADBAND_FWHM_NM
 
 __all__ = ["Result", "SCHEMA_ID", "SCHEMA_VERSION"]
 
@@ -112,9 +113,9 @@ class Result:
         def to_air(wl):
             if air is None:
                 return None
-            from ftsource.physics.air import vacuum_to_air_nm
+            from ftsource.physics.air import WAVELENGTH_RANGE_NM, vacuum_to_air_nm
 
-            if not 300.0 <= wl <= 1700.0:
+            if not WAVELENGTH_RANGE_NM[0] <= wl <= WAVELENGTH_RANGE_NM[1]:
                 return None
             return float(vacuum_to_air_nm(wl, air, model=options.air_model))
 
@@ -163,9 +164,9 @@ class Result:
             "zero_fill": int(options.zero_fill),
             "channel_delay_s": _f(channel_delay.delay_s) if channel_delay is not None else None,
         }
-        from ftsource.analysis import _clipped_fraction
+        from ftsource.lines.ghosts import clipped_fraction
 
-        clipped = _clipped_fraction(record.columns["signal"])
+        clipped = clipped_fraction(record.columns["signal"])
         if clipped > 1e-3:
             warnings.append(
                 f"{clipped:.1%} of the source samples sit at the record's extreme value: the "
@@ -423,11 +424,15 @@ def _air_range_warnings(source_lines, options, warnings) -> None:
     formula of Morton 2000 (eq. 8, valid 200–2000 nm)."""
     if options.medium != "air" or not source_lines:
         return
-    from ftsource.physics.air import EDLEN_VERIFIED_RANGE_NM, WAVELENGTH_RANGE_NM
+    from ftsource.physics.air import (
+        EDLEN_VERIFIED_RANGE_NM,
+        STANDARD_AIR_RANGE_NM,
+        WAVELENGTH_RANGE_NM,
+        standard_air_index,
+    )
 
-    def n_std(wl):  # Morton 2000, eq. 8 (standard air)
-        s2 = (1e3 / float(np.clip(wl, 200.0, 2000.0))) ** 2
-        return 1.0 + 8.34254e-5 + 2.406147e-2 / (130.0 - s2) + 1.5998e-4 / (38.9 - s2)
+    def n_std(wl):  # Morton 2000, eq. 8 (standard air), within its range
+        return float(standard_air_index(float(np.clip(wl, *STANDARD_AIR_RANGE_NM))))
 
     lo, hi = WAVELENGTH_RANGE_NM
     wls = sorted(_nm(f.centre_per_cm) for f in source_lines)
@@ -437,7 +442,8 @@ def _air_range_warnings(source_lines, options, warnings) -> None:
         worst = max(out, key=lambda w: abs(w - np.clip(w, lo, hi)))
         edge = float(np.clip(worst, lo, hi))
         size = abs(n_std(worst) / n_std(edge) - 1) * 1e6
-        bound = "at least " if not 200.0 <= worst <= 2000.0 else "about "
+        bound = "about " if STANDARD_AIR_RANGE_NM[0] <= worst <= STANDARD_AIR_RANGE_NM[1] else (
+            "at least ")
         shown = ", ".join(f"{w:.2f}" for w in out[:5]) + (
             f" and {len(out) - 5} more" if len(out) > 5 else "")
         warnings.append(
@@ -493,7 +499,7 @@ def _summary(spec, source_lines, strongest, sweep_spectra, ifgs, options, path, 
     wl0 = _nm(sig0)
     fwhm_nm = _u_nm(sig0, main.fwhm_per_cm)
     kind = "narrow"
-    if main.resolved and fwhm_nm > 2.0:
+    if main.resolved and fwhm_nm > BROADBAND_FWHM_NM:
         kind = "broadband"
     comb = None
     if kind == "narrow" and len(source_lines) >= 3:

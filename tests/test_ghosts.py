@@ -28,8 +28,8 @@ import numpy as np
 import pytest
 
 from ftsource import simulate as sim
-from ftsource.analysis import AnalysisOptions, _clipped_fraction, analyze
-from ftsource.lines.ghosts import IN_BAND_MARGIN, MAX_INTERMOD_ORDER, flag_ghosts
+from ftsource.analysis import AnalysisOptions, analyze
+from ftsource.lines.ghosts import IN_BAND_MARGIN, MAX_INTERMOD_ORDER, clipped_fraction, flag_ghosts
 
 S1, S2 = 9000.0, 7000.0  # two source lines, cm⁻¹ (invented)
 TOL = 5.0  # cm⁻¹
@@ -236,7 +236,7 @@ def _two_lines(clip_level):
 def test_a_clipped_two_line_record_flags_harmonics_and_intermodulation():
     # signal = 0.1 + (1 + cos) + 0.6·(1 + cos), scaled to span 0.1–2.1: clipped at 1.6
     record, d = _two_lines(1.6)
-    assert _clipped_fraction(record.columns["signal"]) > 0.05
+    assert clipped_fraction(record.columns["signal"]) > 0.05
     lines = d["lines"]
     s1, s2 = 1e7 / L1, 1e7 / L2
     for wl in (L1, L2):
@@ -260,7 +260,7 @@ def test_a_clipped_two_line_record_flags_harmonics_and_intermodulation():
 
 def test_the_same_record_unclipped_has_no_ghosts():
     record, d = _two_lines(None)
-    assert _clipped_fraction(record.columns["signal"]) < 1e-3
+    assert clipped_fraction(record.columns["signal"]) < 1e-3
     assert [ln["flag"] for ln in d["lines"]] == [None, None]
     assert [round(ln["wavelength_nm"]) for ln in d["lines"]] == [L1, L2]
 

@@ -22,6 +22,7 @@ from ftsource.interferogram.opd import OpticalPath, Sweep
 
 __all__ = [
     "Interferogram",
+    "spline_coefficients",
     "SamplingLimits",
     "sampling_limits",
     "resample_sweeps",
@@ -119,7 +120,7 @@ def running_mean(y: np.ndarray, sigma_samples: float) -> np.ndarray:
     return out
 
 
-def _spline_coefficients(signal: np.ndarray) -> np.ndarray:
+def spline_coefficients(signal: np.ndarray) -> np.ndarray:
     from scipy.ndimage import spline_filter1d
 
     return spline_filter1d(np.asarray(signal, float), order=3, mode="mirror")
@@ -160,7 +161,7 @@ def resample_sweeps(
     """
     from scipy.ndimage import map_coordinates
 
-    coeffs = _spline_coefficients(signal)
+    coeffs = spline_coefficients(signal)
     out = []
     for sw in sweeps if sweeps is not None else path.sweeps:
         x = path.opd_cm[sw.start : sw.stop]

@@ -68,6 +68,8 @@ __all__ = [
     "wavenumber_centroid_per_cm",
 ]
 
+#: A resolved line is "broadband" when its FWHM exceeds this many nm (LEDs, lamps, SLEDs).
+BROADBAND_FWHM_NM = 2.0
 PEAK_FIT_FRACTION = 0.8
 PEAK_QUARTIC_MIN = 9
 SMOOTH_PER_FWHM = 0.1

@@ -29,11 +29,12 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from ftsource._arrays import finite_pair
+from ftsource._checks import finite_pair
 from ftsource.errors import AnalysisError, OptionError, RecordError
 
 __all__ = [
     "GOODMAN_DEFINITION",
+    "analytic_envelope",
     "CoherenceEstimate",
     "coherence_from_spectrum",
     "coherence_from_visibility",
@@ -266,7 +267,7 @@ def coherence_from_spectrum(
 # visibility route
 
 
-def _envelope(y: np.ndarray) -> tuple[np.ndarray, int]:
+def analytic_envelope(y: np.ndarray) -> tuple[np.ndarray, int]:
     """|analytic signal| of y − mean, and the number of end samples not to trust.
 
     The record is extended by its mirror image (even extension, period 2n − 2) before the
@@ -404,7 +405,7 @@ def coherence_from_visibility(
                 f"zpd_x_cm must lie inside the record [{x[0]:.6g}, {x[-1]:.6g}] cm, got "
                 f"{zpd_x_cm!r}"
             )
-    env, margin = _envelope(yy)
+    env, margin = analytic_envelope(yy)
     v0 = float(np.interp(x0, x, env))
     if not v0 > 0:
         return None
