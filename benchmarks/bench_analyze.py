@@ -74,7 +74,7 @@ def main() -> None:
     print(f"resampling to a uniform OPD grid:     {t_res:.3f} s  ({t_res / t_fft:.0f}x FFT)")
     print(f"whole analyze():                      {t_all:.3f} s  ({t_all / t_fft:.0f}x FFT)")
     print(f"ratio analyze / FFT = {t_all / t_fft:.1f}")
-    print(f"(centre found: {res.summary['centre_wavelength_nm']:.6f} nm, truth 632.000000 nm)")
+    print(f"(centre found: {res.figures.centre_wavelength_nm:.6f} nm, truth 632.000000 nm)")
 
 
 if __name__ == "__main__":

@@ -3,7 +3,8 @@
 Public API (imported lazily, so ``import ftsource`` and ``ftsource --help`` stay fast):
 
 =======================  ============================================================
-``analyze``              the whole job: a record in, a :class:`Result` out
+``analyze``              the whole job: a record (or its file) and keyword quantities in,
+                         a :class:`Result` out
 ``AnalysisOptions``      reference wavelength, air, apodization, phase correction, ...
 ``read_record``          read a CSV/TSV/whitespace table, ``.npz`` or ``.wav`` record
 ``Record``               the samples of one recording
@@ -13,11 +14,21 @@ Public API (imported lazily, so ``import ftsource`` and ``ftsource --help`` stay
 ``simulate``             the forward model (module): records from a known source
 ``FtsourceError``        base of every error ftsource raises on purpose
 ``FtsourceWarning``      the warning class (texts are also in ``Result.warnings``)
+``AnalysisWarning``      what ``analyze`` issues: each of ``Result.warnings``, once
 =======================  ============================================================
 
-Stage modules (``opd``, ``resample``, ``apodization``, ``zpd``, ``phase``, ``spectrum``,
-``lines``, ``air``, ``coherence``, ``modes``, ``broadband``, ``uncertainty``, ``colour``,
-``response``, ``calibration``, ``reference``, ``instrument``) are importable on their own.
+Example (``scan.csv`` is a record file)::
+
+    import astropy.units as u
+    import ftsource
+
+    result = ftsource.analyze("scan.csv", reference_wavelength=632.991 * u.nm,
+                              medium="air", air_temperature=21 * u.deg_C)
+    result.centre_wavelength, result.expanded_uncertainty   # astropy Quantities
+    result.to_dict()                                          # the JSON
+
+The stage packages (``io``, ``interferogram``, ``spectrum``, ``lines``, ``measure``,
+``calibrate``, ``physics``, ``report``) are importable on their own; DEVELOPERS.md maps them.
 """
 
 __version__ = "0.1.0"
@@ -33,6 +44,7 @@ __all__ = [
     "simulate",
     "FtsourceError",
     "FtsourceWarning",
+    "AnalysisWarning",
     "__version__",
 ]
 
@@ -47,6 +59,7 @@ _LAZY = {
     "simulate": ("ftsource.simulate", None),
     "FtsourceError": ("ftsource.errors", "FtsourceError"),
     "FtsourceWarning": ("ftsource.errors", "FtsourceWarning"),
+    "AnalysisWarning": ("ftsource.errors", "AnalysisWarning"),
 }
 
 

@@ -15,10 +15,11 @@ from dataclasses import dataclass, replace
 
 import numpy as np
 
-from ftsource.errors import AnalysisError, FtsourceWarning, OptionError
+from ftsource.errors import AnalysisError, AnalysisWarning, OptionError
 from ftsource.interferogram.scale import REFERENCE_WAVELENGTH_RANGE_NM
 from ftsource.lines.fitting import SEARCH_BAND_NM
-from ftsource.measure.broadband import BROADBAND_FWHM_NM
+from ftsource.measure.classify import BROADBAND_FWHM_NM
+from ftsource.measure.facts import CLIPPED_FRACTION_LIMIT, clipped_fraction
 
 __all__ = ["AnalysisOptions", "analyze", "opd_scale", "SEARCH_BAND_NM"]
 
@@ -81,40 +82,29 @@ class AnalysisOptions:
 
     def __post_init__(self):
         if self.medium not in ("air", "vacuum"):
-            raise OptionError(f"--medium must be 'air' or 'vacuum', not {self.medium!r}")
+            raise OptionError(f"medium must be 'air' or 'vacuum', not {self.medium!r}")
         if self.phase_correction not in ("auto", "mertz", "forman", "magnitude"):
             raise OptionError(
-                f"--phase-correction {self.phase_correction!r} is not known; use auto, mertz, "
+                f"phase_correction {self.phase_correction!r} is not known; use auto, mertz, "
                 "forman or magnitude"
             )
         for ref_u in (self.reference_uncertainty_ppm, self.reference_uncertainty_nm):
             if ref_u is not None and not (np.isfinite(ref_u) and ref_u >= 0):
-                raise OptionError("--reference-uncertainty must be a finite value ≥ 0")
+                raise OptionError("reference_uncertainty must be a finite value ≥ 0")
         if not np.isfinite(self.alignment_allowance_ppm):
-            raise OptionError("--alignment-allowance must be finite")
+            raise OptionError("alignment_allowance must be finite")
         if self.air_model not in ("ciddor", "edlen"):
             raise OptionError(
-                f"--air-model {self.air_model!r} is not known; use ciddor or edlen"
+                f"air_model {self.air_model!r} is not known; use ciddor or edlen"
             )
         esu = self.encoder_scale_uncertainty_ppm
         if esu is not None and not (np.isfinite(esu) and esu >= 0):
-            raise OptionError("--encoder-scale-uncertainty must be a finite value ≥ 0")
+            raise OptionError("encoder_scale_uncertainty must be a finite value ≥ 0")
         if self.zero_fill < 1:
             raise OptionError("zero_fill must be at least 1")
         from ftsource.spectrum.apodization import get_apodization
 
         get_apodization(self.apodization)
-
-
-class Notes:
-    """Warnings collected along the way (in order, without repeats)."""
-
-    def __init__(self):
-        self.items: list[str] = []
-
-    def add(self, msg: str) -> None:
-        if msg and msg not in self.items:
-            self.items.append(msg)
 
 
 def _reference_wavelength(record, options: AnalysisOptions) -> float | None:
@@ -153,18 +143,18 @@ def opd_scale(record, options: AnalysisOptions):
     if src is None and options.mirror_speed_m_s is None:
         raise AnalysisError(
             "the record has no reference channel (ref, or ref_i and ref_q) and no position "
-            "column; map one with --columns, or give --mirror-speed to assume a constant speed"
+            "column; map one with columns='...', or give mirror_speed to assume a constant speed"
         )
     kind = OpdKind(src or OpdKind.CONSTANT_SPEED)
     lam_ref = _reference_wavelength(record, options)
     if kind.uses_reference_laser and lam_ref is None:
         raise OptionError(
-            "the reference wavelength is unknown: give --reference-wavelength (vacuum), e.g. "
+            "the reference wavelength is unknown: give reference_wavelength (vacuum), e.g. "
             f"{HENE_VACUUM_WAVELENGTH_NM}nm for a He-Ne laser"
         )
     lo, hi = REFERENCE_WAVELENGTH_RANGE_NM
     if lam_ref is not None and not lo <= lam_ref <= hi:
-        raise OptionError(f"--reference-wavelength {lam_ref:g} nm is outside {lo:g}–{hi:g} nm")
+        raise OptionError(f"reference_wavelength {lam_ref:g} nm is outside {lo:g}–{hi:g} nm")
     u_rel = 0.0
     if kind.uses_reference_laser:
         ppm = options.reference_uncertainty_ppm
@@ -176,36 +166,37 @@ def opd_scale(record, options: AnalysisOptions):
                     options.calibration)
 
 
-def _scale_notes(scale, options, notes):
-    """What the OPD scale changed or doubts, for the result's warnings; ``options`` with the
-    calibrated mirror speed and the reference's resolved uncertainty."""
+def _scale_notes(scale, options):
+    """What the OPD scale changed or doubts, for the result's warnings, and ``options`` with
+    the calibrated mirror speed and the reference's resolved uncertainty: ``(options, notes)``."""
     from ftsource.interferogram.scale import OpdKind, air_wavelength_warning
 
+    notes = []
     if scale.uses_reference_laser:
         air = air_wavelength_warning(scale.reference_wavelength_nm)
         if air:
-            notes.add(air + ": give the reference's vacuum wavelength")
+            notes.append(air + ": give the reference's vacuum wavelength")
     # the one resolved value (0 without a reference laser) for the stages after this one
     options = replace(options, reference_uncertainty_ppm=scale.u_reference_rel * 1e6,
                       reference_uncertainty_nm=None)
     cal = scale.calibration
     if cal is None:
-        return options
+        return options, tuple(notes)
     if scale.uses_reference_laser:
-        notes.add(
+        notes.append(
             "the reference wavelength was replaced by the rig calibration's effective value "
             f"{scale.wavelength_nm:.6f} nm"
         )
     elif scale.kind is OpdKind.ENCODER:
-        notes.add(f"the encoder's scale was multiplied by the rig calibration's {cal.scale:.9f}")
+        notes.append(f"the encoder's scale was multiplied by the rig calibration's {cal.scale:.9f}")
     else:
         speed = options.mirror_speed_m_s * scale.factor
-        notes.add(
+        notes.append(
             f"the assumed mirror speed was replaced by the rig calibration's {speed:.6g} m/s "
             f"({cal.scale:.6f} × the stated one)"
         )
         options = replace(options, mirror_speed_m_s=speed)
-    return options
+    return options, tuple(notes)
 
 
 def _optical_path(record, options, fs, scale):
@@ -222,30 +213,31 @@ def _optical_path(record, options, fs, scale):
     return opd.opd_from_constant_speed(record.n_samples, fs, options.mirror_speed_m_s)
 
 
-def _encoder_note(options, notes):
+def _encoder_notes(options) -> tuple[str, ...]:
     """Say which of an encoder's scale uncertainty and cosine/Abbe allowance the budget lacks
     (a rig calibration covers both: it measured the scale with the alignment in place)."""
     if options.calibration is not None:
-        return
+        return ()
     scale = options.encoder_scale_uncertainty_ppm is None
     abbe = options.alignment_allowance_ppm == 0
     if scale and abbe:
-        notes.add(
+        return (
             "the OPD scale comes from a position encoder: its scale uncertainty and any "
             "cosine/Abbe error are not known to ftsource and are not in the budget; give "
-            "--encoder-scale-uncertainty and --alignment-allowance"
+            "--encoder-scale-uncertainty and --alignment-allowance",
         )
-    elif scale:
-        notes.add(
+    if scale:
+        return (
             "the OPD scale comes from a position encoder: its scale uncertainty is not known "
             "to ftsource and is not in the budget, which is then too small; give "
-            "--encoder-scale-uncertainty"
+            "--encoder-scale-uncertainty",
         )
-    elif abbe:
-        notes.add(
+    if abbe:
+        return (
             "the OPD scale comes from a position encoder: any cosine/Abbe error is not in the "
-            "budget; give --alignment-allowance"
+            "budget; give --alignment-allowance",
         )
+    return ()
 
 
 _AIR_KEYS = (  # condition, metadata key, physical type, AirConditions field
@@ -255,16 +247,17 @@ _AIR_KEYS = (  # condition, metadata key, physical type, AirConditions field
 )
 
 
-def _air_conditions(record, options, notes):
+def _air_conditions(record, options):
     """``options`` with the air of the analysis: the caller's stated conditions, else the
     record's ``air_*`` metadata, else the nominal laboratory
     (:class:`ftsource.physics.air.AirConditions`).
 
     A value from metadata gets the caller's stated uncertainty for it, or else
     :data:`ftsource.physics.air.MEASURED_UNCERTAINTY`; it then counts as given (``air_given``).
+    Returns ``(options, notes)``.
     """
     if options.medium != "air":
-        return options
+        return options, ()
     import astropy.units as u
 
     from ftsource.errors import RecordError
@@ -297,17 +290,18 @@ def _air_conditions(record, options, notes):
                if c in ("temperature", "pressure", "humidity") and c not in given]
     if missing:
         raise OptionError(
-            f"--air-{missing[0]}-uncertainty was given without --air-{missing[0]}, and the "
-            f"record's metadata has no air_{missing[0]}: give the value it belongs to"
+            f"air_{missing[0]}_uncertainty was given without air_{missing[0]}, and the "
+            f"record's metadata has no 'air_{missing[0]}': give the value it belongs to"
         )
+    notes = ()
     if values:
         try:
             air = replace(air, **values)
         except OptionError as exc:
             raise RecordError(f"{record.path}: the air conditions of its metadata: {exc}") from None
-        notes.add("air conditions from the record's metadata: " + ", ".join(taken)
-                  + " (command-line values win)")
-    return replace(options, air=air, air_given=tuple(sorted(given)))
+        notes = ("air conditions from the record's metadata: " + ", ".join(taken)
+                 + " (command-line values win)",)
+    return replace(options, air=air, air_given=tuple(sorted(given))), notes
 
 
 def _index_factor(sigma, scale, options):
@@ -316,7 +310,8 @@ def _index_factor(sigma, scale, options):
 
     The air equations hold for 300–1700 nm (:data:`ftsource.physics.air.WAVELENGTH_RANGE_NM`);
     beyond, the index at the nearer end is used. The axis covers far more than the lines, so
-    this is silent here: :mod:`ftsource.result` warns for each reported line outside the range.
+    this is silent here: :func:`ftsource.measure.budget.air_range_notes` warns for each
+    reported line outside the range.
     """
     if options.medium == "vacuum":
         return np.ones_like(sigma)
@@ -334,74 +329,226 @@ def _index_factor(sigma, scale, options):
     return n_scale / n
 
 
-def analyze(record, options: AnalysisOptions | None = None, *, planner=None):
+def analyze(record, options: AnalysisOptions | None = None, *, planner=None, **parameters):
     """Characterize the source in ``record``.
+
+    Every stage returns its notes (what the data could not support, and what to change) with
+    its result; they are gathered in order, issued once each as
+    :class:`~ftsource.errors.AnalysisWarning` (a :class:`~ftsource.errors.FtsourceWarning`)
+    and kept in ``Result.warnings``.
 
     Parameters
     ----------
-    record : ftsource.io.records.Record
-        Samples with ``signal`` and a reference (``ref_i``/``ref_q``, ``ref`` or ``position``).
+    record : ftsource.io.records.Record, str or path-like
+        The samples, or a record file (``.csv``/``.tsv``/``.txt``/``.dat``, ``.npz``,
+        ``.wav``) read with :func:`ftsource.io.records.read_record`. They hold ``signal`` and
+        a reference (``ref_i``/``ref_q``, ``ref`` or ``position``).
     options : AnalysisOptions, optional
+        All options as one object (plain floats in the units of its field names); or give
+        them as keyword ``parameters`` instead.
     planner : ftsource.spectrum.transform.FFTPlanner, optional
         Reuse FFT plans across calls (e.g. over several records).
+    **parameters
+        The options as keywords with units (:data:`ftsource.parameters.PARAMETERS`):
+        astropy Quantities or text such as ``reference_wavelength=632.991 * u.nm``,
+        ``air_temperature="21 degC"``, ``air_pressure=1013 * u.hPa``, ``air_humidity="45%"``,
+        ``reference_uncertainty="1.5 ppm"``, ``medium="vacuum"``; ``columns`` maps the
+        columns of a record file.
 
     Returns
     -------
     ftsource.result.Result
+        Its figures are also astropy Quantities (``result.centre_wavelength``, ...);
+        ``result.to_dict()`` is the JSON.
 
     Raises
     ------
     AnalysisError
         When the record cannot support any spectrum (no fringes, no sweep, no reference).
     OptionError
-        For missing or inconsistent options (e.g. no reference wavelength).
-    """
-    from ftsource.interferogram import resample
-    from ftsource.interferogram.scale import OpdKind
-    from ftsource.lines import fitting as lines_mod
-    from ftsource.result import Result
-    from ftsource.safety import green_pointer_warning
-    from ftsource.spectrum import spectrum
-    from ftsource.spectrum.transform import FFTPlanner, next_fft_length
+        For missing, inconsistent or badly written options (e.g. no reference wavelength, a
+        value without its unit), naming the parameter.
+    RecordError
+        When a record file cannot be read.
 
-    options = options or AnalysisOptions()
-    notes = Notes()
-    options = _air_conditions(record, options, notes)
+    Examples
+    --------
+    >>> import astropy.units as u
+    >>> import ftsource
+    >>> result = ftsource.analyze("scan.csv", reference_wavelength=632.991 * u.nm,
+    ...                           medium="air", air_temperature=21 * u.deg_C)  # doctest: +SKIP
+    >>> result.centre_wavelength  # doctest: +SKIP
+    <Quantity 532.18 nm>
+    """
+    options, record = _inputs(record, options, parameters)
+    setup = _setup(record, options)
+    sampling = _sampling(record, setup)
+    sweeps = _sweeps(record, setup, sampling)
+    spectra = _spectra(setup, sampling, sweeps, planner)
+    lines = _lines(record, setup, sampling, spectra)
+    result = _result(record, setup, sampling, spectra, lines)
+    for msg in result.warnings:
+        _warnings.warn(msg, AnalysisWarning, stacklevel=2)
+    return result
+
+
+def _inputs(record, options, parameters):
+    """The options (from ``options`` or keyword ``parameters``) and the record (read from a
+    file when a path is given)."""
+    import os
+
+    from ftsource.io.records import Record, read_record
+
+    columns = parameters.pop("columns", None)
+    if parameters:
+        if options is not None:
+            raise OptionError(
+                "give the options either as options=AnalysisOptions(...) or as keyword "
+                f"parameters, not both (got options and {', '.join(sorted(parameters))})"
+            )
+        from ftsource.parameters import option_fields
+
+        options = AnalysisOptions(**option_fields(**parameters))
+    options = options if options is not None else AnalysisOptions()
+    if not isinstance(options, AnalysisOptions):
+        raise OptionError(f"options must be an AnalysisOptions, not {type(options).__name__}")
+    if isinstance(record, (str, os.PathLike)):
+        record = read_record(record, columns=columns, sample_rate=options.sample_rate_hz)
+    elif not isinstance(record, Record):
+        raise OptionError(
+            f"record must be a Record or the path of a record file, not {type(record).__name__}"
+        )
+    elif columns is not None:
+        raise OptionError("columns applies to a record file; this record is read already")
+    return options, record
+
+
+@dataclass(frozen=True)
+class _Setup:
+    """The options as the analysis uses them (air and calibration applied), the sample rate,
+    the OPD scale's kind and the reference wavelength."""
+
+    options: AnalysisOptions
+    sample_rate_hz: float
+    scale: object  # ftsource.interferogram.scale.OpdScale
+    notes: tuple[str, ...]
+
+    @property
+    def opd_kind(self):
+        """The OPD scale's :class:`~ftsource.interferogram.scale.OpdKind`."""
+        return self.scale.kind
+
+    @property
+    def reference_wavelength_nm(self) -> float | None:
+        """The reference laser's vacuum wavelength in use (calibrated), None without one."""
+        return self.scale.wavelength_nm
+
+
+@dataclass(frozen=True)
+class _Sampling:
+    """The optical path, the sampling limits and the bandwidth fraction they assume."""
+
+    path: object
+    limits: object
+    bandwidth_fraction: float
+    notes: tuple[str, ...]
+
+
+@dataclass(frozen=True)
+class _Sweeps:
+    """The resampled sweeps kept for the spectrum, the channel delay corrected (or None) and
+    the sweeps left out with why."""
+
+    interferograms: tuple
+    channel_delay: object | None
+    rejected: tuple[tuple[int, str], ...]
+    notes: tuple[str, ...]
+
+
+@dataclass(frozen=True)
+class _Spectra:
+    """The sweeps' spectra, their co-added spectrum (vacuum axis) and the axes behind it."""
+
+    sweep_spectra: tuple
+    interferograms: tuple
+    spectrum: object
+    sigma_apparent: np.ndarray
+    index_factor: np.ndarray
+    rejected: tuple[tuple[int, str], ...]
+    channel_delay: object | None
+    notes: tuple[str, ...]
+
+
+@dataclass(frozen=True)
+class _Lines:
+    """Lines found, why each is not a source line (None when it is), their aliasing verdicts,
+    and the spectrum and sweeps they were found in (outlier sweeps removed, field of view
+    corrected)."""
+
+    found: tuple
+    flags: tuple
+    aliasing: tuple
+    alias_band: object
+    source_lines: tuple
+    field_of_view_factor: float
+    spectra: _Spectra
+    sweep_fits: dict
+    notes: tuple[str, ...]
+
+
+def _setup(record, options) -> _Setup:
+    """Air conditions, sample rate, the OPD scale's kind, the reference wavelength and the
+    rig calibration, checked."""
+    options, notes = _air_conditions(record, options)
     fs = options.sample_rate_hz or record.sample_rate_hz
     if not fs:
         raise OptionError(
             "the sample rate is unknown: the record has no time column and no sample_rate "
-            "metadata; give --sample-rate"
+            "metadata; give sample_rate"
         )
     scale = opd_scale(record, options)
-    options = _scale_notes(scale, options, notes)
-    kind, lam_ref = scale.kind, scale.wavelength_nm
+    options, scale_notes = _scale_notes(scale, options)
+    return _Setup(options, fs, scale, notes + scale_notes)
+
+
+def _sampling(record, setup: _Setup) -> _Sampling:
+    """The optical path from the reference and the limits of the time sampling."""
+    from ftsource.interferogram import resample
+    from ftsource.interferogram.scale import OpdKind
+
+    options, fs, scale = setup.options, setup.sample_rate_hz, setup.scale
     path = _optical_path(record, options, fs, scale)
-    for w in path.warnings:
-        notes.add(w)
-    if kind is OpdKind.ENCODER:
-        _encoder_note(options, notes)
+    notes = tuple(path.warnings)
+    if scale.kind is OpdKind.ENCODER:
+        notes += _encoder_notes(options)
     if record.source_format == "wav":
         beta = options.bandwidth_fraction or resample.BANDWIDTH_FRACTION_SOUND_CARD
     else:
         beta = options.bandwidth_fraction or resample.BANDWIDTH_FRACTION_ADC
     limits = resample.sampling_limits(path, fs, scale.fringe_wavelength_nm,
                                       bandwidth_fraction=beta)
-    if limits.samples_per_reference_fringe < 4 and kind.uses_reference_laser:
-        notes.add(
+    if limits.samples_per_reference_fringe < 4 and scale.uses_reference_laser:
+        notes += (
             f"only {limits.samples_per_reference_fringe:.1f} samples per reference fringe at the "
-            "fastest mirror speed: sample faster or scan slower (at least 4 per fringe)"
+            "fastest mirror speed: sample faster or scan slower (at least 4 per fringe)",
         )
+    return _Sampling(path, limits, beta, notes)
+
+
+def _sweeps(record, setup: _Setup, sampling: _Sampling) -> _Sweeps:
+    """The signal resampled on the uniform OPD grid, sweep by sweep, after the channel delay
+    (when significant) is corrected; partial sweeps left out."""
+    from ftsource.interferogram import resample
+
+    path, dx, fs = sampling.path, sampling.limits.dx_cm, setup.sample_rate_hz
     signal = record.columns["signal"]
-    ifgs = resample.resample_sweeps(signal, path, limits.dx_cm)
-    delay = _channel_delay(ifgs, path, fs, kind, notes)
+    ifgs = resample.resample_sweeps(signal, path, dx)
+    delay, notes = _channel_delay(ifgs, path, fs, setup.opd_kind)
     if delay is not None:
         from ftsource.interferogram.delay import shift_time_for_delay
 
-        ifgs = resample.resample_sweeps(
-            shift_time_for_delay(signal, delay.delay_s, fs), path, limits.dx_cm
-        )
-    rejected: list[tuple[int, str]] = []
+        ifgs = resample.resample_sweeps(shift_time_for_delay(signal, delay.delay_s, fs), path, dx)
+    rejected = []
     # partial sweeps (the record's first and last) would loosen the resolution of the co-add
     spans = np.array([ig.span_cm for ig in ifgs])
     if len(ifgs) >= 3:
@@ -412,60 +559,81 @@ def analyze(record, options: AnalysisOptions | None = None, *, planner=None):
                 rejected.append((ig.sweep.index, f"partial sweep: {ig.span_cm * 10:.3f} mm of OPD, "
                                  f"less than half the median {med * 10:.3f} mm"))
         ifgs = tuple(ig for ig, k in zip(ifgs, keep, strict=False) if k)
+    return _Sweeps(tuple(ifgs), delay, tuple(rejected), notes)
+
+
+def _spectra(setup: _Setup, sampling: _Sampling, sweeps: _Sweeps, planner) -> _Spectra:
+    """Each sweep's phase-corrected, apodized spectrum and their co-added spectrum on the
+    vacuum wavenumber axis (the medium's index removed)."""
+    from ftsource.spectrum import spectrum
+    from ftsource.spectrum.transform import FFTPlanner, next_fft_length
+
+    options, ifgs = setup.options, sweeps.interferograms
     planner = planner or FFTPlanner(effort=options.fft_planning)
     n_fft = next_fft_length(options.zero_fill * max(ig.y.size for ig in ifgs))
-    with _warnings.catch_warnings(record=True) as caught:
-        _warnings.simplefilter("always", FtsourceWarning)
-        sweep_specs = [
-            spectrum.sweep_spectrum(
-                ig, n_fft, apodization=options.apodization,
-                phase_correction=options.phase_correction, planner=planner,
-            )
-            for ig in ifgs
-        ]
-    for c in caught:
-        notes.add(str(c.message))
+    sweep_specs = [
+        spectrum.sweep_spectrum(ig, n_fft, apodization=options.apodization,
+                                phase_correction=options.phase_correction, planner=planner)
+        for ig in ifgs
+    ]
+    rejected, notes = sweeps.rejected, ()
     if any(s.zpd_found for s in sweep_specs) and not all(s.zpd_found for s in sweep_specs):
         # a magnitude spectrum of a sweep that misses ZPD does not mix with phase-corrected
         # ones (different line shapes and noise): keep the sweeps through ZPD
         dropped = [s.sweep_index for s in sweep_specs if not s.zpd_found]
-        rejected += [(i, "does not reach zero path difference (other sweeps do)") for i in dropped]
+        rejected += tuple((i, "does not reach zero path difference (other sweeps do)")
+                          for i in dropped)
         sweep_specs = [s for s in sweep_specs if s.zpd_found]
         ifgs = tuple(ig for ig in ifgs if ig.sweep.index not in dropped)
-        notes.add(
+        notes += (
             f"{len(dropped)} sweep(s) that do not reach zero path difference were left out "
-            "(the others do, and give phase-corrected spectra)"
+            "(the others do, and give phase-corrected spectra)",
         )
-    sigma_app = np.arange(n_fft // 2 + 1) / (n_fft * limits.dx_cm)
-    spec = spectrum.coadd(sweep_specs, sigma_app, options.apodization)
-    factor = _index_factor(sigma_app, scale, options)
-    spec = spec.with_axis(sigma_app * factor)
+    sigma_app = np.arange(n_fft // 2 + 1) / (n_fft * sampling.limits.dx_cm)
+    factor = _index_factor(sigma_app, setup.scale, options)
+    spec = spectrum.coadd(sweep_specs, sigma_app, options.apodization).with_axis(
+        sigma_app * factor)
     if not any(s.zpd_found for s in sweep_specs):
-        notes.add(
+        notes += (
             "no sweep reaches zero path difference (no centre burst): magnitude spectra were "
             "used, so line shapes are only approximate and max_opd_mm is half of each sweep's "
-            "span"
+            "span",
         )
+    return _Spectra(tuple(sweep_specs), ifgs, spec, sigma_app, factor, rejected,
+                    sweeps.channel_delay, sweeps.notes + notes)
 
-    # ---- lines
-    sig_hi = min(1e7 / SEARCH_BAND_NM[0], 0.98 * limits.grid_nyquist_per_cm)
-    sig_lo = 1e7 / SEARCH_BAND_NM[1]
-    found = lines_mod.find_lines(spec, band_per_cm=(sig_lo, sig_hi))
-    sweep_fits: dict = {}  # per-sweep fits of the main line, shared with Result.build
-    outliers = _sweep_outliers(spec, sweep_specs, found, notes, sweep_fits)
+
+def _lines(record, setup: _Setup, sampling: _Sampling, spectra: _Spectra) -> _Lines:
+    """Lines of the spectrum (outlier sweeps removed and the spectrum co-added again), each
+    flagged when it is not the source's (ghost, alias), and the field-of-view correction."""
+    from ftsource.lines import fitting
+    from ftsource.spectrum import spectrum
+
+    limits, options = sampling.limits, setup.options
+    spec, sigma_app, factor = spectra.spectrum, spectra.sigma_apparent, spectra.index_factor
+    band = (1e7 / SEARCH_BAND_NM[1],
+            min(1e7 / SEARCH_BAND_NM[0], 0.98 * limits.grid_nyquist_per_cm))
+    found = fitting.find_lines(spec, band_per_cm=band)
+    sweep_fits: dict = {}  # per-sweep fits of the main line, shared with the sweep check
+    outliers, notes = _sweep_outliers(spec, spectra.sweep_spectra, found, sweep_fits)
     if outliers:
-        rejected += outliers
         bad = {i for i, _ in outliers}
-        sweep_specs = [s for s in sweep_specs if s.sweep_index not in bad]
-        ifgs = tuple(ig for ig in ifgs if ig.sweep.index not in bad)
+        sweep_specs = tuple(s for s in spectra.sweep_spectra if s.sweep_index not in bad)
         spec = spectrum.coadd(sweep_specs, sigma_app, options.apodization).with_axis(
-            sigma_app * factor
+            sigma_app * factor)
+        spectra = replace(
+            spectra, sweep_spectra=sweep_specs, spectrum=spec,
+            interferograms=tuple(ig for ig in spectra.interferograms
+                                 if ig.sweep.index not in bad),
+            rejected=spectra.rejected + tuple(outliers),
         )
-        found = lines_mod.find_lines(spec, band_per_cm=(sig_lo, sig_hi))
+        found = fitting.find_lines(spec, band_per_cm=band)
     sigma_alias = 1e7 / limits.min_wavelength_nm
-    flags = _flag_lines(found, lam_ref, sigma_alias, kind, record, notes)
+    flags, flag_notes = _flag_lines(found, setup.reference_wavelength_nm, sigma_alias,
+                                    setup.opd_kind, record)
     alias_band, aliasing = _aliasing(
-        found, spec, sweep_specs, ifgs, path, fs, beta, sigma_app, factor, sigma_alias
+        found, spec, spectra.sweep_spectra, spectra.interferograms, sampling.path,
+        setup.sample_rate_hz, sampling.bandwidth_fraction, sigma_app, factor, sigma_alias,
     )
     flags = [
         "alias" if fl is None and a.verdict == "alias" else fl
@@ -474,47 +642,79 @@ def analyze(record, options: AnalysisOptions | None = None, *, planner=None):
     source_lines = [f for f, fl in zip(found, flags, strict=True) if fl is None]
     fov = _field_of_view_factor(source_lines, options)
     if fov != 1.0:
-        spec = spec.with_axis(spec.sigma_per_cm * fov)
+        spectra = replace(spectra, spectrum=spec.with_axis(spec.sigma_per_cm * fov))
         found = [_rescale_line(f, fov) for f in found]
         source_lines = [f for f, fl in zip(found, flags, strict=True) if fl is None]
+    return _Lines(tuple(found), tuple(flags), tuple(aliasing), alias_band, tuple(source_lines),
+                  fov, spectra, sweep_fits, notes + flag_notes)
 
-    result = Result.build(
-        record=record,
-        options=options,
-        path=path,
-        limits=limits,
-        spectrum=spec,
-        sweep_spectra=sweep_specs,
-        interferograms=ifgs,
-        lines=found,
-        flags=flags,
-        source_lines=source_lines,
-        reference_wavelength_nm=lam_ref,
-        notes=notes,
-        channel_delay=delay,
-        rejected=rejected,
-        aliasing=aliasing,
-        alias_band=alias_band,
-        field_of_view_factor=fov,
-        sweep_fit_cache=sweep_fits,
+
+def _result(record, setup: _Setup, sampling: _Sampling, spectra: _Spectra, lines: _Lines):
+    """Measure the source from its lines and gather every stage's figures and notes."""
+    from ftsource.lines.aliasing import alias_notes
+    from ftsource.measure import facts
+    from ftsource.measure.budget import reference_uncertainty_ppm
+    from ftsource.measure.figures import source_figures
+    from ftsource.result import Result
+
+    options, path, limits = setup.options, sampling.path, sampling.limits
+    spectra = lines.spectra
+    spec, sweep_specs = spectra.spectrum, spectra.sweep_spectra
+    ref_u_ppm = reference_uncertainty_ppm(options)
+    main = max(lines.source_lines, key=lambda f: f.area) if lines.source_lines else None
+    inp, input_notes = facts.input_facts(
+        record, options, opd_kind=path.kind, reference_wavelength_nm=setup.reference_wavelength_nm,
+        reference_uncertainty_ppm=ref_u_ppm,
     )
+    health, health_notes = facts.health_facts(record, path, sweep_specs)
+    reports, line_notes = facts.line_reports(
+        lines.found, lines.flags, lines.aliasing, options=options,
+        reference_uncertainty_ppm=ref_u_ppm, main=main,
+    )
+    figures = source_figures(
+        spec, lines.source_lines, sweep_specs, spectra.interferograms, options=options,
+        opd_kind=path.kind, reference_wavelength_nm=setup.reference_wavelength_nm,
+        field_of_view_factor=lines.field_of_view_factor, sweep_fit_cache=lines.sweep_fits,
+    )
+    notes = (setup.notes + sampling.notes + spectra.notes + lines.notes + input_notes
+             + health_notes + line_notes + figures.notes
+             + alias_notes(main, limits.min_wavelength_nm, lines.alias_band)
+             + _safety_notes(lines.source_lines))
+    return Result(
+        input=inp,
+        processing=facts.processing_facts(options, path, limits, sweep_specs, spectra.rejected,
+                                          spectra.channel_delay),
+        instrument=facts.instrument_facts(spec, limits, main, options.apodization),
+        figures=figures,
+        lines=reports,
+        health=health,
+        warnings=tuple(dict.fromkeys(n for n in notes if n)),
+        spectrum=spec,
+        interferograms=tuple(spectra.interferograms),
+    )
+
+
+def _safety_notes(source_lines) -> tuple[str, ...]:
+    """The green-pointer caution when a source line is green, and an alarm for each infrared
+    line found with it (:func:`ftsource.safety.green_pointer_warning`)."""
+    from ftsource.safety import green_pointer_warning
+
     for ln in source_lines:
         w = green_pointer_warning(ln.wavelength_nm)
-        if w:
-            ir = [f for f in source_lines if 800.0 <= f.wavelength_nm <= 815.0
-                  or 1060.0 <= f.wavelength_nm <= 1068.0]
-            if not ir:  # the general caution: nothing found does not rule a leak out
-                result.add_warning(w)
-            for f in ir:
-                result.add_warning(
-                    f"INFRARED FOUND: a line at {f.wavelength_nm:.2f} nm (invisible) comes with "
-                    "the "
-                    "green light — the pointer is a diode-pumped, frequency-doubled laser that "
-                    "leaks pump or fundamental light; its infrared power is not measured here and "
-                    "may exceed the green's: do not rely on the visible brightness"
-                )
-            break
-    return result
+        if not w:
+            continue
+        ir = [f for f in source_lines if 800.0 <= f.wavelength_nm <= 815.0
+              or 1060.0 <= f.wavelength_nm <= 1068.0]
+        if not ir:  # the general caution: nothing found does not rule a leak out
+            return (w,)
+        return tuple(
+            f"INFRARED FOUND: a line at {f.wavelength_nm:.2f} nm (invisible) comes with the "
+            "green light — the pointer is a diode-pumped, frequency-doubled laser that leaks "
+            "pump or fundamental light; its infrared power is not measured here and may exceed "
+            "the green's: do not rely on the visible brightness"
+            for f in ir
+        )
+    return ()
 
 
 def _field_of_view_factor(source_lines, options) -> float:
@@ -612,38 +812,39 @@ def _aliasing(found, spec, sweep_specs, ifgs, path, fs, beta, sigma_app, factor,
     return band, verdicts
 
 
-def _sweep_outliers(spec, sweep_specs, found, notes, fit_cache=None):
+def _sweep_outliers(spec, sweep_specs, found, fit_cache=None):
     """Sweeps whose own fit of the strongest narrow line is an outlier among the sweeps
-    (leave-one-out, :func:`ftsource.lines.sweeps.compare_sweeps`), with the reason for each."""
+    (leave-one-out, :func:`ftsource.lines.sweeps.compare_sweeps`), with the reason for each;
+    returns ``(outliers, notes)``."""
     from ftsource.lines.sweeps import compare_sweeps, sweep_line_centres
 
     if len(sweep_specs) < 4 or not found:
-        return []
+        return [], ()
     main = max(found, key=lambda f: f.area)
     if main.resolved:
-        return []
+        return [], ()
     fits = sweep_line_centres(spec, sweep_specs, main.centre_per_cm, cache=fit_cache)
     if len(fits) < 4:
-        return []
+        return [], ()
     idx, vals, us = (list(t) for t in zip(*fits, strict=True))
     cmp = compare_sweeps(vals, us, [1] * len(vals), label="centre")
     out = [(i, r) for i, k, r in zip(idx, cmp.keep, cmp.reasons, strict=False) if not k]
-    if out:
-        notes.add(
-            f"{len(out)} sweep(s) were left out as outliers of the line centre (see "
-            "processing.rejected_sweeps): look for vibration, a slipping reference or a loose mount"
-        )
-    return out
+    if not out:
+        return out, ()
+    return out, (
+        f"{len(out)} sweep(s) were left out as outliers of the line centre (see "
+        "processing.rejected_sweeps): look for vibration, a slipping reference or a loose mount",
+    )
 
 
-def _channel_delay(ifgs, path, fs, kind, notes):
+def _channel_delay(ifgs, path, fs, kind):
     """Estimate the signal channel's delay from forward/backward disagreement; return it
-    when it is significant (then the caller corrects it), else None."""
+    when it is significant (then the caller corrects it), else None; with the notes."""
     from ftsource.interferogram.delay import estimate_channel_delay
 
     directions = {ig.sweep.direction for ig in ifgs}
     if not kind.knows_direction or directions != {-1, 1}:
-        return None  # a single channel cannot tell absolute direction across dropouts
+        return None, ()  # a single channel cannot tell absolute direction across dropouts
     est = None
     for method in ("zpd", "phase"):
         try:
@@ -653,39 +854,37 @@ def _channel_delay(ifgs, path, fs, kind, notes):
         if est is not None and est.ok:
             break
     if est is None or not est.ok or not np.isfinite(est.delay_s):
-        return None
+        return None, ()
     if not (np.isfinite(est.u_delay_s) and est.u_delay_s > 0):
-        return None  # too few sweeps to tell a delay from noise
+        return None, ()  # too few sweeps to tell a delay from noise
     if abs(est.delay_s) <= 3 * est.u_delay_s:
-        return None
+        return None, ()
     if abs(est.delay_s) > MAX_CHANNEL_DELAY_S:
-        notes.add(
+        return None, (
             f"forward and backward sweeps disagree by the equivalent of a {est.delay_s * 1e3:.3g} "
             "ms channel delay, beyond any plausible acquisition delay: not corrected; check "
-            "that the source and reference channels are recorded together"
+            "that the source and reference channels are recorded together",
         )
-        return None
-    notes.add(
+    return est, (
         f"forward and backward sweeps disagree as a channel delay of {est.delay_s * 1e6:.2f} ± "
         f"{est.u_delay_s * 1e6:.2f} µs (source channel late, {est.method} method); it was "
         "corrected by shifting the source signal in time. Check the acquisition (multiplexed "
-        "ADC, unequal amplifier bandwidths, sound-card AC coupling)."
+        "ADC, unequal amplifier bandwidths, sound-card AC coupling).",
     )
-    return est
 
 
-def _flag_lines(found, lam_ref, sigma_alias, kind, record, notes):
+def _flag_lines(found, lam_ref, sigma_alias, kind, record):
     """Why each line is not a source line (None when it is): a ghost (reference light,
     harmonic or intermodulation product of a clipped detector; :mod:`ftsource.lines.ghosts`) or a
-    line beyond the alias-free limit."""
-    from ftsource.lines.ghosts import clipped_fraction, flag_ghosts
+    line beyond the alias-free limit; returns ``(flags, notes)``."""
+    from ftsource.lines.ghosts import flag_ghosts
 
     flags = flag_ghosts(
         [f.centre_per_cm for f in found],
         [f.area for f in found],
         [3 * f.instrument_fwhm_per_cm for f in found],
         reference_per_cm=1e7 / lam_ref if kind.uses_reference_laser else None,
-        clipped=clipped_fraction(record.columns["signal"]) > 1e-3,
+        clipped=clipped_fraction(record.columns["signal"]) > CLIPPED_FRACTION_LIMIT,
         band_edge_per_cm=1e7 / SEARCH_BAND_NM[0],
         # ghosts of a laser are as narrow as the instrument line shape
         eligible=[not f.resolved or f.fwhm_per_cm < 3 * f.instrument_fwhm_per_cm for f in found],
@@ -694,11 +893,12 @@ def _flag_lines(found, lam_ref, sigma_alias, kind, record, notes):
         "alias" if fl is None and f.centre_per_cm > sigma_alias else fl
         for f, fl in zip(found, flags, strict=True)
     ]
+    notes = []
     if kind.uses_reference_laser and found:
         main = max(found, key=lambda f: f.area)
         kept = flags[found.index(main)] is None
         if kept and abs(main.centre_per_cm - 1e7 / lam_ref) < 3 * main.instrument_fwhm_per_cm:
-            notes.add(
+            notes.append(
                 f"the main line lies at the reference laser's wavelength ({lam_ref:.3f} nm, "
                 "within three resolution elements): it is reported as the source, but it could "
                 "be reference light reaching the source detector; block the source beam and "
@@ -706,9 +906,9 @@ def _flag_lines(found, lam_ref, sigma_alias, kind, record, notes):
             )
     n_ghost = sum(fl is not None for fl in flags)
     if n_ghost:
-        notes.add(
+        notes.append(
             f"{n_ghost} spectral feature(s) were flagged as not from the source (reference "
             "ghost, harmonic or intermodulation product of a clipped detector, or beyond the "
             "alias-free limit); see 'flag' in lines"
         )
-    return flags
+    return flags, tuple(notes)

@@ -346,10 +346,13 @@ def _cmd_analyze(args, out, err) -> int:
         result = analyze(record, options)
     except (AnalysisError, OptionError) as exc:
         # the stages do not know the file; name it, as every other message does (a message
-        # about an option already starts with the option's name)
-        if str(exc).startswith("-"):
-            raise
-        raise type(exc)(f"{record.path}: {exc}") from None
+        # about an option already starts with the option's name, spelled as its flag)
+        from ftsource.parameters import cli_terms
+
+        msg = cli_terms(str(exc))
+        if msg.startswith("-"):
+            raise type(exc)(msg) from None
+        raise type(exc)(f"{record.path}: {msg}") from None
     # Everything the user will see is made before anything is written: a failure while
     # shaping the output leaves no file behind.
     text = result_json(result) if args.json else format_summary(result) + "\n"
@@ -706,7 +709,7 @@ def main(argv=None) -> int:
     }[args.command]
     import warnings
 
-    from ftsource.errors import FtsourceError, FtsourceWarning
+    from ftsource.errors import AnalysisError, FtsourceError, FtsourceWarning, OptionError
 
     try:
         with warnings.catch_warnings():
@@ -714,6 +717,11 @@ def main(argv=None) -> int:
             warnings.simplefilter("ignore", FtsourceWarning)
             return handler(args, out, err)
     except (FtsourceError, OSError) as e:
+        if isinstance(e, (AnalysisError, OptionError)):
+            # the library names its parameters (reference_wavelength); here they are flags
+            from ftsource.parameters import cli_terms
+
+            e = cli_terms(str(e))
         err.write(f"error: {one_line(e, MESSAGE_LIMIT)}\n")
         return 2
     except MemoryError:

@@ -15,6 +15,7 @@ __all__ = [
     "AnalysisError",
     "OutputError",
     "FtsourceWarning",
+    "AnalysisWarning",
 ]
 
 
@@ -40,3 +41,8 @@ class OutputError(FtsourceError, OSError):
 
 class FtsourceWarning(UserWarning):
     """A result is usable but limited; the same text is copied into the result's warnings."""
+
+
+class AnalysisWarning(FtsourceWarning):
+    """A note of :func:`ftsource.analyze` on what the data could not support and what to
+    change; every one is also in ``Result.warnings``, in the order the stages found them."""

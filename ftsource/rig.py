@@ -54,18 +54,18 @@ def calibrate_rig(record, options, known_wavelength_nm: float, u_known_nm: float
         calibration=None, alignment_allowance_ppm=0.0,
         mirror_speed_uncertainty_ppm=0.0, encoder_scale_uncertainty_ppm=0.0,
     ))
-    s = res.summary
-    if s["centre_wavelength_nm"] is None:
+    f = res.figures
+    if f.centre_wavelength_nm is None:
         raise AnalysisError("the calibration record shows no line to calibrate against")
-    if s["kind"] != "narrow":
+    if f.kind != "narrow":
         raise AnalysisError(
-            f"the calibration record's source is {s['kind']}; calibrate with a single narrow line"
+            f"the calibration record's source is {f.kind}; calibrate with a single narrow line"
         )
     # for an encoder or an assumed speed there is no reference laser: the nominal He-Ne value
     # only labels the ratio λ_known/λ_measured that the calibration stores
     cal = calibrate_reference(
-        s["centre_wavelength_nm"],
-        s["u_centre_wavelength_nm"],
+        f.centre_wavelength_nm,
+        f.u_centre_wavelength_nm,
         known_wavelength_nm,
         u_known_nm,
         scale.fringe_wavelength_nm,

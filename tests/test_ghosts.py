@@ -29,7 +29,8 @@ import pytest
 
 from ftsource import simulate as sim
 from ftsource.analysis import AnalysisOptions, analyze
-from ftsource.lines.ghosts import IN_BAND_MARGIN, MAX_INTERMOD_ORDER, clipped_fraction, flag_ghosts
+from ftsource.lines.ghosts import IN_BAND_MARGIN, MAX_INTERMOD_ORDER, flag_ghosts
+from ftsource.measure.facts import clipped_fraction
 
 S1, S2 = 9000.0, 7000.0  # two source lines, cm⁻¹ (invented)
 TOL = 5.0  # cm⁻¹

@@ -199,7 +199,7 @@ def test_coherence_length_of_a_resolved_line(profile, factor):
 
 
 def test_coherence_disagreement_rule():
-    from ftsource.result import coherence_disagreement
+    from ftsource.measure.width import coherence_disagreement
 
     # 2·√(u₁² + u₂²) = 2·√(0.3² + 0.4²) = 1.0 mm, above the 10 % floor of 5 mm × 0.1
     assert coherence_disagreement(5.0, 0.3, 6.0, 0.4) is None  # exactly 2 u: agree
@@ -248,7 +248,7 @@ def test_multimode_uncertainties_match_the_scatter_of_repeats():
                                          opd_amplitude_cm=0.15, sweep_rate_hz=1.0),
                            sim.ReferenceChannel(), sim.Detector(noise_rms=0.05),
                            rng=200 + seed).record
-        sm = analyze(rec, replace(OPTIONS, reference_wavelength_nm=632.991)).summary
+        sm = analyze(rec, replace(OPTIONS, reference_wavelength_nm=632.991)).to_dict()["summary"]
         assert sm["kind"] == "multimode"
         c.append(sm["centre_wavelength_nm"])
         u.append(sm["u_centre_wavelength_nm"])

@@ -17,7 +17,8 @@ def test_public_names_exact():
     assert sorted(dir(ftsource)) == sorted(
         [
             "analyze", "AnalysisOptions", "read_record", "Record", "Result", "write_outputs",
-            "FFTPlanner", "simulate", "FtsourceError", "FtsourceWarning", "__version__",
+            "FFTPlanner", "simulate", "FtsourceError", "FtsourceWarning", "AnalysisWarning",
+            "__version__",
         ]
     )
 

@@ -96,7 +96,7 @@ def test_known_response_corrects_the_centroid():
     src, with_r = _analysed(850.0, 30.0, True, "known")
     _, without = _analysed(850.0, 30.0, True, None)
     truth = _truth(src, 850.0, 30.0)
-    s, s0 = with_r.summary, without.summary
+    s, s0 = with_r.to_dict()["summary"], without.to_dict()["summary"]
     assert s["kind"] == s0["kind"] == "broadband"
     # corrected: the true (unweighted) centroid within 0.1 nm (the LED target)
     assert s["detector_weighted"] is False
@@ -123,12 +123,12 @@ def test_response_uncertainty_is_correlated_not_averaged():
     a = w / s
     tilt = U_REL * ((s * s / w) * (math.erf(a / math.sqrt(2)) - 2 * a * norm.pdf(a))
                     + 2 * s * norm.pdf(a))
-    u_stat = without.summary["u_centroid_wavelength_nm"]
-    u = with_r.summary["u_centroid_wavelength_nm"]
+    u_stat = without.to_dict()["summary"]["u_centroid_wavelength_nm"]
+    u = with_r.to_dict()["summary"]["u_centroid_wavelength_nm"]
     assert u > 5 * u_stat  # the shape error dominates: it does not average down over the band
     assert u == pytest.approx(math.hypot(tilt, u_stat), rel=0.1)
     # and it reaches the budget of the centre wavelength
-    assert with_r.summary["u_centre_wavelength_nm"] >= u
+    assert with_r.to_dict()["summary"]["u_centre_wavelength_nm"] >= u
 
 
 def test_response_that_cuts_the_band_falls_back_to_detector_weighted():
@@ -136,13 +136,13 @@ def test_response_that_cuts_the_band_falls_back_to_detector_weighted():
     # the analysis (AnalysisError); now the figures are those of the uncorrected spectrum
     _, short = _analysed(650.0, 30.0, True, "short")
     _, none = _analysed(650.0, 30.0, True, None)
-    s = short.summary
+    s = short.to_dict()["summary"]
     assert s["kind"] == "broadband" and s["detector_weighted"] is True
     assert _has(short.warnings, "the instrument response was not applied")
     assert _has(short.warnings, "detector-weighted")
     for key in ("centroid_wavelength_nm", "u_centroid_wavelength_nm", "peak_wavelength_nm",
                 "fwhm_nm"):
-        assert s[key] == none.summary[key]
+        assert s[key] == none.to_dict()["summary"][key]
 
 
 # --- colour keys end to end ------------------------------------------------------------------
@@ -150,7 +150,7 @@ def test_response_that_cuts_the_band_falls_back_to_detector_weighted():
 
 def test_visible_led_colour_matches_true_spectrum():
     src, r = _analysed(590.0, 20.0, False, None)
-    s = r.summary
+    s = r.to_dict()["summary"]
     assert s["kind"] == "broadband"
     sig = np.linspace(1e7 / 700.0, 1e7 / 480.0, 200_001)
     lam, dens = 1e7 / sig, src.density(sig) * sig**2 / 1e7
@@ -173,15 +173,16 @@ def test_visible_led_colour_matches_true_spectrum():
 
 def test_infrared_led_and_laser_have_no_colour():
     _, ir = _analysed(850.0, 30.0, True, None)
-    assert ir.summary["kind"] == "broadband"
-    assert ir.summary["chromaticity_xy"] is None and ir.summary["dominant_wavelength_nm"] is None
+    s = ir.to_dict()["summary"]
+    assert s["kind"] == "broadband"
+    assert s["chromaticity_xy"] is None and s["dominant_wavelength_nm"] is None
     sim = S.simulate(S.laser(650.0), SCAN, S.ReferenceChannel(), S.Detector(noise_rms=0.001),
                      rng=4)
     laser = analyze(sim.record, AnalysisOptions(reference_wavelength_nm=632.991,
                                                 medium="vacuum"))
-    assert laser.summary["kind"] == "narrow"
-    assert laser.summary["chromaticity_xy"] is None
-    assert laser.summary["dominant_wavelength_nm"] is None
+    assert laser.to_dict()["summary"]["kind"] == "narrow"
+    assert laser.to_dict()["summary"]["chromaticity_xy"] is None
+    assert laser.to_dict()["summary"]["dominant_wavelength_nm"] is None
 
 
 # --- what the files and the text say --------------------------------------------------------

@@ -35,7 +35,7 @@ def _record(wl, seed):
 def test_uncalibrated_rig_is_biased_by_the_reference_error():
     opts = AnalysisOptions(reference_wavelength_nm=NOMINAL, medium="vacuum",
                            reference_uncertainty_ppm=0.0)
-    r = analyze(_record(650.0, 1), opts).summary
+    r = analyze(_record(650.0, 1), opts).to_dict()["summary"]
     # closed form: every wavelength scales with the assumed reference wavelength
     expected = 650.0 * NOMINAL / TRUE_REF
     assert r["centre_wavelength_nm"] == pytest.approx(expected, abs=3e-5)
@@ -53,11 +53,11 @@ def test_calibration_then_second_record_within_its_uncertainty(tmp_path):
     cal2 = load_calibration(path)
     r = analyze(_record(650.0, 3), AnalysisOptions(reference_wavelength_nm=NOMINAL,
                                                  medium="vacuum", calibration=cal2))
-    s = r.summary
+    s = r.to_dict()["summary"]
     assert abs(s["centre_wavelength_nm"] - 650.0) <= s["expanded_uncertainty_nm"]
     # and the calibration's own uncertainty replaced the nominal 1.5 ppm of the reference
-    assert r.input["reference_uncertainty_ppm"] == pytest.approx(cal.u_effective_rel * 1e6)
-    assert r.input["reference_uncertainty_ppm"] < 1.5
+    assert r.input.reference_uncertainty_ppm == pytest.approx(cal.u_effective_rel * 1e6)
+    assert r.input.reference_uncertainty_ppm < 1.5
 
 
 def test_calibration_refuses_a_record_without_a_line():
@@ -94,7 +94,7 @@ def test_constant_speed_rig_calibrated_from_a_known_line(tmp_path):
     # the user's guess of the speed is 3 % high: every wavelength comes out 3 % long
     guess = MIRROR_SPEED * 1.03
     opts = AnalysisOptions(mirror_speed_m_s=guess, medium="vacuum")
-    raw = analyze(_linear_scan(650.0, 5, "none"), opts).summary
+    raw = analyze(_linear_scan(650.0, 5, "none"), opts).to_dict()["summary"]
     assert raw["centre_wavelength_nm"] == pytest.approx(650.0 * 1.03, rel=2e-3)
     cal, _ = calibrate_rig(_linear_scan(KNOWN, 6, "none"), opts, KNOWN, 1e-6)
     assert cal.opd_scale == "constant-speed"
@@ -122,12 +122,13 @@ def test_encoder_rig_calibrated_from_a_known_line():
         return replace(r, columns={**r.columns, "position": r.columns["position"] * 1.0002})
 
     opts = AnalysisOptions(medium="vacuum")
-    raw = analyze(rec(650.0, 8), opts).summary
+    raw = analyze(rec(650.0, 8), opts).to_dict()["summary"]
     assert raw["centre_wavelength_nm"] == pytest.approx(650.0 * 1.0002, rel=2e-5)
     cal, _ = calibrate_rig(rec(KNOWN, 9), opts, KNOWN, 1e-6)
     assert cal.opd_scale == "encoder"
     assert cal.scale == pytest.approx(1 / 1.0002, rel=2e-5)
-    s = analyze(rec(650.0, 10), AnalysisOptions(medium="vacuum", calibration=cal)).summary
+    s = analyze(rec(650.0, 10),
+                AnalysisOptions(medium="vacuum", calibration=cal)).to_dict()["summary"]
     assert abs(s["centre_wavelength_nm"] - 650.0) <= s["expanded_uncertainty_nm"]
 
 
@@ -171,5 +172,5 @@ def test_calibration_with_a_stabilised_hene_against_a_hene_reference(tmp_path):
     assert any("reference laser's wavelength" in w for w in res.warnings)
     assert cal.effective_reference_wavelength_nm == pytest.approx(TRUE_REF, rel=1e-7)
     s = analyze(_record(650.0, 14), AnalysisOptions(
-        reference_wavelength_nm=NOMINAL, medium="vacuum", calibration=cal)).summary
+        reference_wavelength_nm=NOMINAL, medium="vacuum", calibration=cal)).to_dict()["summary"]
     assert abs(s["centre_wavelength_nm"] - 650.0) <= s["expanded_uncertainty_nm"]

@@ -207,11 +207,12 @@ def test_analysis_of_a_780_nm_reference_needs_its_uncertainty():
     with pytest.raises(OptionError, match="780 nm is not a He-Ne"):
         analyze(rec, AnalysisOptions(medium="vacuum"))  # wavelength from the metadata
     r = analyze(rec, AnalysisOptions(medium="vacuum", reference_uncertainty_ppm=2.0))
-    assert r.input["reference_uncertainty_ppm"] == 2.0
-    comp = {c["name"]: c for c in r.uncertainty["components"]}
+    d = r.to_dict()
+    assert d["input"]["reference_uncertainty_ppm"] == 2.0
+    comp = {c["name"]: c for c in d["uncertainty"]["components"]}
     # closed form: the component is the centre times the relative uncertainty
     assert comp["reference wavelength"]["u_nm"] == pytest.approx(
-        r.summary["centre_wavelength_nm"] * 2e-6, rel=1e-9)
+        d["summary"]["centre_wavelength_nm"] * 2e-6, rel=1e-9)
 
 
 def test_analysis_given_the_air_wavelength_is_low_by_the_warned_ratio():
@@ -221,7 +222,7 @@ def test_analysis_given_the_air_wavelength_is_low_by_the_warned_ratio():
     opts = AnalysisOptions(medium="vacuum", reference_wavelength_nm=632.8,
                            reference_uncertainty_ppm=1.5)
     r = analyze(rec, opts)
-    assert r.summary["centre_wavelength_nm"] == pytest.approx(650.0 * 632.8 / 632.991, abs=5e-5)
+    assert r.figures.centre_wavelength_nm == pytest.approx(650.0 * 632.8 / 632.991, abs=5e-5)
     assert any(w.startswith("REFERENCE WAVELENGTH IN AIR?") for w in r.warnings)
     assert opd_scale(rec, opts).u_reference_rel == 1.5e-6
 

@@ -43,6 +43,8 @@ __all__ = [
     "band_at_risk",
     "folded_band",
     "speed_step_needed",
+    "band_text",
+    "alias_notes",
 ]
 
 #: Shortest wavelength assumed to reach the detector (nm): the short end of the line search
@@ -293,3 +295,42 @@ def _nearest_verdict(check, centre, tol):
         if d <= tol and d < best_d:
             best, best_d = ln, d
     return best
+
+
+def band_text(band, max_ranges: int = 3) -> str:
+    """Apparent-wavenumber intervals as wavelength ranges, e.g. ``"640–910 nm"``."""
+    merged: list[tuple[float, float]] = []
+    for a, b in sorted(band):  # ranges closer than 2 % read as one
+        if merged and a <= 1.02 * merged[-1][1]:
+            merged[-1] = (merged[-1][0], max(b, merged[-1][1]))
+        else:
+            merged.append((a, b))
+    parts = []
+    for a, b in sorted(merged, key=lambda ab: ab[1] - ab[0], reverse=True)[:max_ranges]:
+        short_nm = 1e7 / b
+        long_end = f"–{1e7 / a:.0f} nm" if a > 100.0 else " nm and beyond"
+        parts.append(f"{short_nm:.0f}{long_end}")
+    more = " and elsewhere" if len(merged) > max_ranges else ""
+    return ", ".join(parts) + more
+
+
+def alias_notes(main, min_wavelength_nm: float, band) -> tuple[str, ...]:
+    """What the time sampling leaves unmeasured: a note when the main line (a
+    :class:`ftsource.lines.fitting.LineFit`, or None) lies below the shortest alias-free
+    wavelength, else where shorter light would fold to (``band``, apparent-wavenumber
+    intervals from :func:`band_at_risk`; None when unknown, empty when nothing can fold)."""
+    if main is not None and 1e7 / main.centre_per_cm < min_wavelength_nm:
+        return (
+            f"the main line lies below the shortest wavelength the time sampling supports "
+            f"({min_wavelength_nm:.1f} nm): it may be an alias; sample faster or scan slower",
+        )
+    if band is None or band:
+        where = band_text(band) if band else "the spectrum"
+        return (
+            f"light shorter than {min_wavelength_nm:.0f} nm (if the source emits any and the "
+            f"detector sees it) is not measured: the time sampling folds it onto {where} at "
+            "these mirror speeds (aliasing); 'aliasing' in lines says what the sweeps' speeds "
+            "could tell; sample faster or move the mirror more slowly to cover shorter "
+            "wavelengths",
+        )
+    return ()

@@ -194,10 +194,83 @@ def fit_line(
     .. [2] JCGM 100:2008, Evaluation of measurement data — Guide to the expression of
        uncertainty in measurement, §4.2 (Type A evaluation).
     """
-    from scipy.optimize import least_squares
-
     if profile not in ("auto", "gaussian", "lorentzian", "voigt"):
         raise ValueError(f"profile must be auto, gaussian, lorentzian or voigt, not {profile!r}")
+    win = _fit_window_data(spec, centre_guess_per_cm, others)
+    ils = win.ils
+    first = "gaussian" if profile in ("auto", "gaussian") else profile
+    results = {first: _run_profile(spec, win, first)}
+    res = results[first][0]
+    cov, dof = _covariance(res, win)
+    w, uw, g, lw = _widths(first, res.x, cov)
+    resolved = bool(w >= RESOLVED_FACTOR * ils and w > 3 * uw)
+    elements = w / ils if ils > 0 else 0.0
+    best = first
+    if profile == "auto" and resolved and elements >= MIN_ELEMENTS_FOR_PROFILE:
+        for prof in ("lorentzian", "voigt"):
+            results[prof] = _run_profile(spec, win, prof)
+        # a Voigt with a Gaussian or Lorentzian part at or below zero width is no Voigt (the
+        # other pure profile, or an envelope growing with OPD): it cannot be the one claimed
+        v = results["voigt"][0].x
+        choices = [k for k in results if k != "voigt" or (v[3] > 0 and v[4] > 0)]
+        best = min(choices, key=lambda k: results[k][1])
+        res = results[best][0]
+        cov, dof = _covariance(res, win)
+        w, uw, g, lw = _widths(best, res.x, cov)
+    perr = np.sqrt(np.clip(np.diag(cov), 0, None))
+    claimed = best if (resolved and elements >= MIN_ELEMENTS_FOR_PROFILE) else "undetermined"
+    bound = None
+    if not resolved:
+        # upper bound at coverage factor BOUND_K on the Gaussian width parameter q = FWHM²
+        q, uq = (res.x[3], perr[3]) if best in ("gaussian", "voigt") else (w**2, 2 * w * uw)
+        bound = float(max(np.sqrt(max(q + BOUND_K * uq, 0.0)), ils))
+    k00 = spec.line_shape.kernel(np.zeros(1))[0]
+    noise_at = float(spec.noise[win.i0])
+    p = res.x
+    peak = float(p[0] * spec.line_shape.kernel(np.zeros(1), g, lw)[0] / k00)
+    return LineFit(
+        centre_per_cm=float(p[1]),
+        u_centre_per_cm=float(perr[1]),
+        height=float(p[0]),
+        peak=peak,
+        area=float(p[0] / k00),
+        u_area=float(perr[0] / k00),
+        profile=claimed,
+        gauss_fwhm_per_cm=float(g),
+        lorentz_fwhm_per_cm=float(lw),
+        fwhm_per_cm=float(w),
+        u_fwhm_per_cm=float(uw),
+        resolved=resolved,
+        fwhm_upper_bound_per_cm=bound,
+        instrument_fwhm_per_cm=float(ils),
+        snr=float(peak / noise_at) if noise_at > 0 else float("inf"),
+        n_points=int(win.x.size),
+        n_effective=float(win.n_eff),
+        dof=float(dof),
+        success=bool(res.success),
+        message=str(res.message),
+        aic={k: float(v[1]) for k, v in results.items()},
+    )
+
+
+@dataclass(frozen=True)
+class _Window:
+    """The points a line is fitted on, their weights and the noise correlation between them."""
+
+    i0: int
+    x: np.ndarray
+    y: np.ndarray
+    wts: np.ndarray
+    ils: float
+    excess2: float
+    peak_value: float
+    peak_sigma: float
+    n_eff: float
+    rmat: np.ndarray
+
+
+def _fit_window_data(spec: Spectrum, centre_guess_per_cm: float, others) -> _Window:
+    """The fit window around the local maximum nearest ``centre_guess_per_cm``."""
     sig = spec.sigma_per_cm
     y_all = spec.density
     if others is not None:
@@ -217,116 +290,69 @@ def fit_line(
     stride = max(1, int(np.ceil((win.stop - win.start) / MAX_FIT_POINTS)))
     win = slice(win.start, win.stop, stride)
     x = sig[win]
-    y = y_all[win]
-    wts = 1.0 / spec.noise[win]
-    excess2 = max(obs**2 - ils**2, 0.0)
     ds = (sig[1] - sig[0]) * stride
     # effective number of independent points: N / Σ_k R(k·Δσ)
     lags = ds * np.arange(-x.size + 1, x.size)
     r = spec.line_shape.noise_correlation(lags)
     corr_len = float(np.sum(r[np.abs(lags) <= 4 * ils]))
-    n_eff = x.size / max(corr_len, 1.0)
-    rmat = r[(np.arange(x.size)[:, None] - np.arange(x.size)[None, :]) + x.size - 1]
-
-    def run(prof):
-        model = _model_factory(spec, prof)
-        p0 = [y_all[i0], sig[i0], 0.0]
-        scale = [abs(y_all[i0]) + 1e-300, ils, abs(y_all[i0]) + 1e-300]
-        if prof in ("gaussian", "voigt"):
-            p0.append(excess2 if prof == "gaussian" else 0.5 * excess2)
-            scale.append(ils**2)
-        if prof in ("lorentzian", "voigt"):
-            p0.append(np.sqrt(excess2) * (1.0 if prof == "lorentzian" else 0.5))
-            scale.append(ils)
-        # trial steps to large negative (signed) widths overflow the growing envelope; the
-        # solver rejects their non-finite cost, so numpy's overflow warnings are noise here
-        with np.errstate(over="ignore", invalid="ignore"):
-            res = least_squares(
-                lambda p: (model(p, x) - y) * wts, p0, x_scale=np.array(scale), method="trf",
-                max_nfev=100 * len(p0),
-            )
-        rss = float(np.sum(res.fun**2))
-        aic = n_eff * np.log(max(rss, 1e-300) / x.size) + 2 * res.x.size
-        return res, aic
-
-    def covariance(res):
-        # Jacobian columns scaled to unit norm first: the width column is orders of magnitude
-        # below the height column, and pinv's relative cutoff would otherwise drop it
-        d = np.linalg.norm(res.jac, axis=0)
-        d[d == 0] = 1.0
-        J = res.jac / d
-        jtj_inv = np.linalg.pinv(J.T @ J)
-        jrj = J.T @ rmat @ J
-        # residual degrees of freedom for correlated noise: E[rss] = tr((I − H)R)
-        # = n − tr((JᵀJ)⁻¹JᵀRJ), not n − p (which biases the residual scale low)
-        dof = max(x.size - float(np.trace(jtj_inv @ jrj)), 1.0)
-        # The residuals are weighted by the spectrum's noise estimate (from thousands of
-        # points), so their variance should be 1. Scale by the residuals only when they are
-        # significantly larger (model mismatch, noise the estimate misses): then the
-        # uncertainty is residual-based with ``dof`` degrees of freedom; otherwise it rests on
-        # the noise estimate, whose degrees of freedom are many (taken as infinite).
-        ratio = float(np.sum(res.fun**2)) / dof
-        if ratio > 1.0 + 2.0 * np.sqrt(2.0 / dof):
-            s2, dof_out = ratio, dof
-        else:
-            s2, dof_out = 1.0, np.inf
-        dofs[0] = dof_out
-        return jtj_inv @ jrj @ jtj_inv * s2 / np.outer(d, d)
-
-    dofs = [np.inf]
-    first = "gaussian" if profile in ("auto", "gaussian") else profile
-    res, aic = run(first)
-    results = {first: (res, aic)}
-    cov = covariance(res)
-    w, uw, g, lw = _widths(first, res.x, cov)
-    resolved = bool(w >= RESOLVED_FACTOR * ils and w > 3 * uw)
-    elements = w / ils if ils > 0 else 0.0
-    best = first
-    if profile == "auto" and resolved and elements >= MIN_ELEMENTS_FOR_PROFILE:
-        for prof in ("lorentzian", "voigt"):
-            results[prof] = run(prof)
-        # a Voigt with a Gaussian or Lorentzian part at or below zero width is no Voigt (the
-        # other pure profile, or an envelope growing with OPD): it cannot be the one claimed
-        v = results["voigt"][0].x
-        choices = [k for k in results if k != "voigt" or (v[3] > 0 and v[4] > 0)]
-        best = min(choices, key=lambda k: results[k][1])
-        res = results[best][0]
-        cov = covariance(res)
-        w, uw, g, lw = _widths(best, res.x, cov)
-    perr = np.sqrt(np.clip(np.diag(cov), 0, None))
-    claimed = best if (resolved and elements >= MIN_ELEMENTS_FOR_PROFILE) else "undetermined"
-    bound = None
-    if not resolved:
-        # upper bound at coverage factor BOUND_K on the Gaussian width parameter q = FWHM²
-        q, uq = (res.x[3], perr[3]) if best in ("gaussian", "voigt") else (w**2, 2 * w * uw)
-        bound = float(max(np.sqrt(max(q + BOUND_K * uq, 0.0)), ils))
-    k00 = spec.line_shape.kernel(np.zeros(1))[0]
-    noise_at = float(spec.noise[i0])
-    p = res.x
-    peak = float(p[0] * spec.line_shape.kernel(np.zeros(1), g, lw)[0] / k00)
-    return LineFit(
-        centre_per_cm=float(p[1]),
-        u_centre_per_cm=float(perr[1]),
-        height=float(p[0]),
-        peak=peak,
-        area=float(p[0] / k00),
-        u_area=float(perr[0] / k00),
-        profile=claimed,
-        gauss_fwhm_per_cm=float(g),
-        lorentz_fwhm_per_cm=float(lw),
-        fwhm_per_cm=float(w),
-        u_fwhm_per_cm=float(uw),
-        resolved=resolved,
-        fwhm_upper_bound_per_cm=bound,
-        instrument_fwhm_per_cm=float(ils),
-        snr=float(peak / noise_at) if noise_at > 0 else float("inf"),
-        n_points=int(x.size),
-        n_effective=float(n_eff),
-        dof=float(dofs[0]),
-        success=bool(res.success),
-        message=str(res.message),
-        aic={k: float(v[1]) for k, v in results.items()},
+    return _Window(
+        i0=i0, x=x, y=y_all[win], wts=1.0 / spec.noise[win], ils=ils,
+        excess2=max(obs**2 - ils**2, 0.0), peak_value=float(y_all[i0]),
+        peak_sigma=float(sig[i0]), n_eff=x.size / max(corr_len, 1.0),
+        rmat=r[(np.arange(x.size)[:, None] - np.arange(x.size)[None, :]) + x.size - 1],
     )
+
+
+def _run_profile(spec: Spectrum, win: _Window, prof: str):
+    """Least-squares fit of profile ``prof`` on the window: ``(result, AIC)``."""
+    from scipy.optimize import least_squares
+
+    model = _model_factory(spec, prof)
+    ils, excess2, x, y, wts = win.ils, win.excess2, win.x, win.y, win.wts
+    p0 = [win.peak_value, win.peak_sigma, 0.0]
+    scale = [abs(win.peak_value) + 1e-300, ils, abs(win.peak_value) + 1e-300]
+    if prof in ("gaussian", "voigt"):
+        p0.append(excess2 if prof == "gaussian" else 0.5 * excess2)
+        scale.append(ils**2)
+    if prof in ("lorentzian", "voigt"):
+        p0.append(np.sqrt(excess2) * (1.0 if prof == "lorentzian" else 0.5))
+        scale.append(ils)
+    # trial steps to large negative (signed) widths overflow the growing envelope; the
+    # solver rejects their non-finite cost, so numpy's overflow warnings are noise here
+    with np.errstate(over="ignore", invalid="ignore"):
+        res = least_squares(
+            lambda p: (model(p, x) - y) * wts, p0, x_scale=np.array(scale), method="trf",
+            max_nfev=100 * len(p0),
+        )
+    rss = float(np.sum(res.fun**2))
+    aic = win.n_eff * np.log(max(rss, 1e-300) / x.size) + 2 * res.x.size
+    return res, aic
+
+
+def _covariance(res, win: _Window):
+    """Covariance of the fitted parameters for correlated noise, and its degrees of freedom.
+
+    The Jacobian's columns are scaled to unit norm first: the width column is orders of
+    magnitude below the height column, and pinv's relative cutoff would otherwise drop it.
+    The residual degrees of freedom for correlated noise are ``tr((I − H)R) = n −
+    tr((JᵀJ)⁻¹JᵀRJ)``, not ``n − p`` (which biases the residual scale low). The residuals are
+    weighted by the spectrum's noise estimate (from thousands of points), so their variance
+    should be 1; they scale the covariance only when significantly larger (model mismatch,
+    noise the estimate misses), and then with ``dof`` degrees of freedom; otherwise the
+    uncertainty rests on the noise estimate, whose degrees of freedom are many (infinite).
+    """
+    d = np.linalg.norm(res.jac, axis=0)
+    d[d == 0] = 1.0
+    J = res.jac / d
+    jtj_inv = np.linalg.pinv(J.T @ J)
+    jrj = J.T @ win.rmat @ J
+    dof = max(win.x.size - float(np.trace(jtj_inv @ jrj)), 1.0)
+    ratio = float(np.sum(res.fun**2)) / dof
+    if ratio > 1.0 + 2.0 * np.sqrt(2.0 / dof):
+        s2, dof_out = ratio, dof
+    else:
+        s2, dof_out = 1.0, np.inf
+    return jtj_inv @ jrj @ jtj_inv * s2 / np.outer(d, d), dof_out
 
 
 def _reach(fit: LineFit) -> float:

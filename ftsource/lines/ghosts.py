@@ -64,7 +64,6 @@ __all__ = [
     "IN_BAND_MARGIN",
     "GHOST_FLAGS",
     "flag_ghosts",
-    "clipped_fraction",
 ]
 
 #: Highest order m + n of the intermodulation products searched.
@@ -272,11 +271,3 @@ def _in_band_product(s_k, a_k, s_i, s_j, a_i, a_j, m, n, coef, sources) -> bool:
     # a Gaussian envelope has a_k·a_j^n / a_i^m = exp(-α·m·n·Δ²): near 1 for a real comb
     return coef == 1 and a_k * a_j**n * IN_BAND_MARGIN <= a_i**m
 
-
-def clipped_fraction(signal) -> float:
-    """Fraction of samples sitting at the record's extreme values (a flat top or bottom): a
-    clipped detector, whose harmonics and intermodulation products :func:`flag_ghosts` looks
-    for."""
-    s = np.asarray(signal)
-    hi, lo = s.max(), s.min()
-    return float(max(np.mean(s == hi), np.mean(s == lo))) if s.size else 0.0

@@ -68,8 +68,6 @@ __all__ = [
     "wavenumber_centroid_per_cm",
 ]
 
-#: A resolved line is "broadband" when its FWHM exceeds this many nm (LEDs, lamps, SLEDs).
-BROADBAND_FWHM_NM = 2.0
 PEAK_FIT_FRACTION = 0.8
 PEAK_QUARTIC_MIN = 9
 SMOOTH_PER_FWHM = 0.1
@@ -139,6 +137,7 @@ def broadband_metrics(
     window_nm: tuple[float, float] | None = None,
     n_monte_carlo: int = 200,
     rng=0,
+    warn: bool = True,
 ) -> BroadbandMetrics:
     """Peak, centroid, centre and FWHM of a band on S_λ, with uncertainties from the noise.
 
@@ -164,6 +163,10 @@ def broadband_metrics(
     rng : int or numpy.random.Generator
         Seed or generator of the Monte Carlo (fixed by default: the same input gives the
         same uncertainties).
+    warn : bool
+        Issue the notes below as ``FtsourceWarning`` (default); with False they are only
+        returned in ``warnings`` of the result (the pipeline's route: each stage returns its
+        notes).
 
     Returns
     -------
@@ -242,7 +245,7 @@ def broadband_metrics(
                 f"{n_mc - int(ok.sum())} of {n_mc} Monte Carlo copies had no half-maximum "
                 "crossing on one side; the uncertainties use the others"
             )
-    for msg in dict.fromkeys(notes):
+    for msg in dict.fromkeys(notes) if warn else ():
         warnings.warn(msg, FtsourceWarning, stacklevel=2)
     peak, centroid, lo_h, hi_h, (b_lo, b_hi), height = vals
     return BroadbandMetrics(

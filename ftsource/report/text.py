@@ -72,68 +72,69 @@ def _fmt(v, unit="", digits=6):
     return f"{v:.{digits}f}{unit}"
 
 
-def _weighting(summary) -> str:
+def _weighting(figures) -> str:
     """How the broadband figures were weighted: ``response-corrected`` when the instrument
     response was divided out, otherwise ``detector-weighted`` (the measured spectrum)."""
-    return "detector-weighted" if summary.get("detector_weighted", True) else "response-corrected"
+    return "detector-weighted" if figures.detector_weighted else "response-corrected"
 
 
 def format_summary(result) -> str:
     """A short human-readable summary of a result (one printable line per item: control
     characters from the record are shown as '?')."""
-    d = result.to_dict()
-    s, ins, inp = d["summary"], d["instrument"], d["input"]
-    out = [f"record: {inp['record']}  ({inp['n_samples']} samples, OPD from {inp['opd_source']})"]
-    out.append(f"source kind: {s['kind']}")
-    if s.get("centre_wavelength_nm") is not None:
+    from ftsource.safety import LASER_NOTICE
+
+    s, ins, inp = result.figures, result.instrument, result.input
+    out = [f"record: {inp.record}  ({inp.n_samples} samples, OPD from {inp.opd_source})"]
+    out.append(f"source kind: {s.kind}")
+    if s.centre_wavelength_nm is not None:
         out.append(
-            f"centre wavelength (vacuum): {_fmt(s['centre_wavelength_nm'], ' nm', 5)}"
-            f"  ± {_fmt(s.get('expanded_uncertainty_nm'), ' nm', 5)} "
-            f"(k = {_fmt(s.get('coverage_factor'), '', 2)})"
+            f"centre wavelength (vacuum): {_fmt(s.centre_wavelength_nm, ' nm', 5)}"
+            f"  ± {_fmt(s.expanded_uncertainty_nm, ' nm', 5)} "
+            f"(k = {_fmt(s.coverage_factor, '', 2)})"
         )
-        if s.get("centre_wavelength_air_nm") is not None:
+        if s.centre_wavelength_air_nm is not None:
             out.append(
-                f"centre wavelength (air):    {_fmt(s['centre_wavelength_air_nm'], ' nm', 5)}"
+                f"centre wavelength (air):    {_fmt(s.centre_wavelength_air_nm, ' nm', 5)}"
             )
-        out.append(f"frequency: {_fmt(s.get('frequency_thz'), ' THz', 4)}")
-    if s["kind"] == "broadband":
+        out.append(f"frequency: {_fmt(s.frequency_thz, ' THz', 4)}")
+    if s.kind == "broadband":
         out.append(
-            f"peak {_fmt(s.get('peak_wavelength_nm'), ' nm', 2)}, centroid "
-            f"{_fmt(s.get('centroid_wavelength_nm'), ' nm', 2)}, FWHM "
-            f"{_fmt(s.get('fwhm_nm'), ' nm', 2)} ({_weighting(s)})"
+            f"peak {_fmt(s.peak_wavelength_nm, ' nm', 2)}, centroid "
+            f"{_fmt(s.centroid_wavelength_nm, ' nm', 2)}, FWHM "
+            f"{_fmt(s.fwhm_nm, ' nm', 2)} ({_weighting(s)})"
         )
-        if s.get("dominant_wavelength_nm") is not None and s.get("chromaticity_xy"):
-            x, y = s["chromaticity_xy"]
+        if s.dominant_wavelength_nm is not None and s.chromaticity_xy:
+            x, y = s.chromaticity_xy
             out.append(
                 f"colour: x = {_fmt(x, '', 4)}, y = {_fmt(y, '', 4)}, dominant wavelength "
-                f"{_fmt(s['dominant_wavelength_nm'], ' nm', 1)}"
+                f"{_fmt(s.dominant_wavelength_nm, ' nm', 1)}"
             )
-    elif s.get("resolved"):
-        out.append(f"linewidth (FWHM): {_fmt(s.get('fwhm_nm'), ' nm', 4)}")
-    elif s.get("fwhm_upper_bound_nm") is not None:
+    elif s.resolved:
+        out.append(f"linewidth (FWHM): {_fmt(s.fwhm_nm, ' nm', 4)}")
+    elif s.fwhm_upper_bound_nm is not None:
         out.append(
-            f"linewidth: not resolved, below {_fmt(s['fwhm_upper_bound_nm'], ' nm', 4)}; "
-            f"coherence length above {_fmt(s.get('coherence_length_lower_bound_mm'), ' mm', 2)}"
+            f"linewidth: not resolved, below {_fmt(s.fwhm_upper_bound_nm, ' nm', 4)}; "
+            f"coherence length above {_fmt(s.coherence_length_lower_bound_mm, ' mm', 2)}"
         )
-    if s.get("coherence_length_mm") is not None:
-        out.append(f"coherence length: {_fmt(s['coherence_length_mm'], ' mm', 3)}")
-    if s.get("modes"):
-        m = s["modes"]
+    if s.coherence_length_mm is not None:
+        out.append(f"coherence length: {_fmt(s.coherence_length_mm, ' mm', 3)}")
+    if s.modes is not None:
+        m = s.modes
         out.append(
-            f"modes: {m.get('n_modes')} spaced {_fmt(m.get('spacing_nm'), ' nm', 4)} "
-            f"({_fmt(m.get('spacing_ghz'), ' GHz', 2)}), cavity optical length "
-            f"{_fmt(m.get('cavity_optical_length_mm'), ' mm', 3)}"
+            f"modes: {m.n_modes} spaced {_fmt(m.spacing_nm, ' nm', 4)} "
+            f"({_fmt(m.spacing_ghz, ' GHz', 2)}), cavity optical length "
+            f"{_fmt(m.cavity_optical_length_mm, ' mm', 3)}"
         )
-    n_src = sum(1 for ln in d["lines"] if ln["flag"] is None)
-    out.append(f"lines: {n_src} from the source, {len(d['lines']) - n_src} flagged")
+    n_src = sum(1 for ln in result.lines if ln.flag is None)
+    out.append(f"lines: {n_src} from the source, {len(result.lines) - n_src} flagged")
     out.append(
-        f"resolution: {_fmt(ins.get('resolution_per_cm'), ' cm⁻¹', 3)} (max OPD "
-        f"{_fmt(ins.get('max_opd_mm'), ' mm', 3)}); shortest alias-free wavelength "
-        f"{_fmt(ins.get('min_wavelength_nm'), ' nm', 1)}"
+        f"resolution: {_fmt(ins.resolution_per_cm, ' cm⁻¹', 3)} (max OPD "
+        f"{_fmt(ins.max_opd_mm, ' mm', 3)}); shortest alias-free wavelength "
+        f"{_fmt(ins.min_wavelength_nm, ' nm', 1)}"
     )
-    for w in d["warnings"]:
+    for w in result.warnings:
         out.append(f"warning: {w}")
-    out.append(f"safety: {d['safety']}")
+    out.append(f"safety: {LASER_NOTICE}")
     return "\n".join(one_line(line) for line in out)
 
 
@@ -145,7 +146,7 @@ def _spectrum_ecsv(result) -> bytes:
     spec = result.spectrum
     sig = spec.sigma_per_cm
     short, long_ = SEARCH_BAND_NM
-    lo, hi = 1e7 / long_, 1e7 / max(result.instrument["min_wavelength_nm"] or short, short)
+    lo, hi = 1e7 / long_, 1e7 / max(result.instrument.min_wavelength_nm or short, short)
     m = (sig >= lo) & (sig <= hi)
     t = Table()
     t["wavenumber"] = sig[m]
@@ -161,13 +162,13 @@ def _spectrum_ecsv(result) -> bytes:
         "wavenumber (arbitrary units x cm) and per unit wavelength (S_lambda = S_sigma*sigma^2/1e7,"
         " as CIE 127 uses for LEDs), each with its noise (standard uncertainty)"
     )
-    t.meta["medium_corrected"] = result.input["medium"]
-    t.meta["resolution_per_cm"] = result.instrument["resolution_per_cm"]
-    t.meta["line_shape"] = result.instrument["line_shape"]
+    t.meta["medium_corrected"] = result.input.medium
+    t.meta["resolution_per_cm"] = result.instrument.resolution_per_cm
+    t.meta["line_shape"] = result.instrument.line_shape
     # the columns are the measured spectrum: no instrument response is divided out of them
     t.meta["density_weighting"] = "detector-weighted"
-    s = result.summary
-    t.meta["broadband_figures_weighting"] = _weighting(s) if s["kind"] == "broadband" else None
+    f = result.figures
+    t.meta["broadband_figures_weighting"] = _weighting(f) if f.kind == "broadband" else None
     buf = io.StringIO()
     with np.printoptions(legacy=False):
         t.write(buf, format="ascii.ecsv")

@@ -1,0 +1,294 @@
+"""What an analysis read and did, besides the source's figures: the input record, the
+processing, the instrument's limits, the record's health and the table of lines.
+
+Each builder is a pure function returning a frozen dataclass (and its notes, where it has
+any); :class:`ftsource.result.Result` holds them and shapes them into JSON.
+"""
+
+from __future__ import annotations
+
+import hashlib
+from dataclasses import dataclass
+
+import numpy as np
+
+from ftsource.measure.values import (
+    C_M_S,
+    air_wavelength_nm,
+    finite_or_none,
+    nm_from_per_cm,
+    u_nm_from_per_cm,
+)
+
+__all__ = [
+    "CLIPPED_FRACTION_LIMIT",
+    "InputFacts",
+    "ProcessingFacts",
+    "Rejection",
+    "InstrumentFacts",
+    "SweepHealth",
+    "HealthFacts",
+    "LineReport",
+    "clipped_fraction",
+    "input_facts",
+    "processing_facts",
+    "instrument_facts",
+    "health_facts",
+    "line_reports",
+]
+
+#: Above this fraction of samples at the record's extreme value the detector may be clipping.
+CLIPPED_FRACTION_LIMIT = 1e-3
+
+
+@dataclass(frozen=True)
+class InputFacts:
+    """The record analysed and the physical inputs the analysis used."""
+
+    record: str
+    sha256: str
+    n_samples: int
+    sample_rate_hz: float | None
+    opd_source: str | None
+    reference_wavelength_nm: float | None
+    reference_uncertainty_ppm: float | None
+    medium: str
+    air: object | None  # ftsource.physics.air.AirConditions in air, else None
+    metadata: tuple[tuple[str, str], ...]
+
+
+@dataclass(frozen=True)
+class Rejection:
+    """A sweep left out of the co-added spectrum, and why."""
+
+    index: int
+    reason: str
+
+
+@dataclass(frozen=True)
+class ProcessingFacts:
+    """How the spectrum was made."""
+
+    apodization: str
+    phase_correction: str
+    n_sweeps: int
+    n_sweeps_used: int
+    rejected_sweeps: tuple[Rejection, ...]
+    opd_step_nm: float | None
+    zero_fill: int
+    channel_delay_s: float | None
+
+
+@dataclass(frozen=True)
+class InstrumentFacts:
+    """The instrument's limits for this record."""
+
+    max_opd_mm: float | None
+    resolution_per_cm: float | None
+    resolution_nm: float | None
+    min_wavelength_nm: float | None
+    line_shape: str
+
+
+@dataclass(frozen=True)
+class SweepHealth:
+    """One sweep of the mirror."""
+
+    index: int
+    direction: int
+    opd_span_mm: float | None
+    mean_speed_mm_s: float | None
+    used: bool
+
+
+@dataclass(frozen=True)
+class HealthFacts:
+    """How sound the record is (reference, clipping, sweeps)."""
+
+    reference_ellipse_residual: float | None
+    fringe_slips: int
+    dropouts: int
+    clipped_fraction: float | None
+    sweeps: tuple[SweepHealth, ...]
+
+
+@dataclass(frozen=True)
+class LineReport:
+    """One line of the spectrum as reported (vacuum nm; finite numbers or None)."""
+
+    wavelength_nm: float | None
+    wavelength_air_nm: float | None
+    wavenumber_per_cm: float | None
+    frequency_thz: float | None
+    relative_intensity: float | None
+    snr: float | None
+    resolved: bool
+    fwhm_nm: float | None
+    fwhm_upper_bound_nm: float | None
+    profile: str
+    u_wavelength_nm: float | None
+    flag: str | None
+    aliasing: str | None
+    identification: object | None  # ftsource.linelists.Candidate
+    nearest_entries: tuple = ()
+
+
+def clipped_fraction(signal) -> float:
+    """Fraction of samples sitting at the record's extreme values (a flat top or bottom): a
+    clipped detector, whose harmonics and intermodulation products
+    :func:`ftsource.lines.ghosts.flag_ghosts` looks for."""
+    s = np.asarray(signal)
+    hi, lo = s.max(), s.min()
+    return float(max(np.mean(s == hi), np.mean(s == lo))) if s.size else 0.0
+
+
+def _digest(record) -> str:
+    digest = hashlib.sha256()
+    for name in sorted(record.columns):
+        digest.update(name.encode())
+        digest.update(np.ascontiguousarray(record.columns[name]).tobytes())
+    return digest.hexdigest()
+
+
+def input_facts(record, options, *, opd_kind, reference_wavelength_nm,
+                reference_uncertainty_ppm) -> tuple[InputFacts, tuple[str, ...]]:
+    """The input section and its note (air conditions assumed). ``opd_kind`` is an
+    :class:`ftsource.interferogram.scale.OpdKind`; the reference's uncertainty is given only
+    for a reference laser's scale or a calibrated one."""
+    air = options.air if options.medium == "air" else None
+    has_reference_u = opd_kind.uses_reference_laser or options.calibration is not None
+    facts = InputFacts(
+        record=str(record.path).replace("\\", "/").split("/")[-1],
+        sha256=_digest(record),
+        n_samples=int(record.n_samples),
+        sample_rate_hz=finite_or_none(options.sample_rate_hz or record.sample_rate_hz),
+        opd_source=opd_kind.value,
+        reference_wavelength_nm=finite_or_none(reference_wavelength_nm),
+        reference_uncertainty_ppm=finite_or_none(reference_uncertainty_ppm)
+        if has_reference_u else None,
+        medium=options.medium,
+        air=air,
+        metadata=tuple((str(k), str(v)) for k, v in sorted(record.metadata.items())),
+    )
+    notes = ()
+    if air is not None and not options.air_given:
+        notes = (
+            "air conditions were not given: standard lab air (20 °C, 101.325 kPa, 50 % RH) "
+            "was assumed with wide uncertainties; give --air-temperature, --air-pressure and "
+            "--air-humidity (a lab above about 150 m altitude must give its pressure)",
+        )
+    return facts, notes
+
+
+def processing_facts(options, path, limits, sweep_spectra, rejected,
+                     channel_delay=None) -> ProcessingFacts:
+    """The processing section: apodization, phase correction, sweeps used and left out."""
+    used = {s.sweep_index for s in sweep_spectra}
+    methods = sorted({s.method for s in sweep_spectra})
+    why = {int(i): str(r) for i, r in rejected}
+    return ProcessingFacts(
+        apodization=options.apodization,
+        phase_correction=methods[0] if len(methods) == 1 else "mixed",
+        n_sweeps=len(path.sweeps),
+        n_sweeps_used=len(used),
+        rejected_sweeps=tuple(
+            Rejection(int(sw.index), why.get(int(sw.index), "too short to resample"))
+            for sw in path.sweeps if sw.index not in used
+        ),
+        opd_step_nm=finite_or_none(limits.dx_cm * 1e7),
+        zero_fill=int(options.zero_fill),
+        channel_delay_s=finite_or_none(channel_delay.delay_s) if channel_delay is not None
+        else None,
+    )
+
+
+def health_facts(record, path, sweep_spectra) -> tuple[HealthFacts, tuple[str, ...]]:
+    """The health section and its notes (clipping, reference dropouts)."""
+    used = {s.sweep_index for s in sweep_spectra}
+    clipped = clipped_fraction(record.columns["signal"])
+    notes = []
+    if clipped > CLIPPED_FRACTION_LIMIT:
+        notes.append(
+            f"{clipped:.1%} of the source samples sit at the record's extreme value: the "
+            "detector or ADC may be clipping, which creates harmonics; reduce the gain"
+        )
+    if path.dropouts:
+        notes.append(
+            f"the reference dropped out {path.dropouts} time(s): the record was split there "
+            "and only the stretches with fringes were used; check the reference beam's "
+            "alignment and detector"
+        )
+    facts = HealthFacts(
+        reference_ellipse_residual=finite_or_none(path.ellipse_residual),
+        fringe_slips=int(path.fringe_slips),
+        dropouts=int(path.dropouts),
+        clipped_fraction=finite_or_none(clipped),
+        sweeps=tuple(
+            SweepHealth(
+                index=int(sw.index),
+                direction=int(sw.direction),
+                opd_span_mm=finite_or_none(sw.opd_span_cm * 10),
+                mean_speed_mm_s=finite_or_none(sw.mean_speed_cm_s * 10),
+                used=sw.index in used,
+            )
+            for sw in path.sweeps
+        ),
+    )
+    return facts, tuple(notes)
+
+
+def instrument_facts(spec, limits, main, apodization) -> InstrumentFacts:
+    """The instrument section: OPD reach, resolution (also in nm at the main line ``main``,
+    None without one), alias-free limit and line shape."""
+    res = spec.resolution_per_cm
+    return InstrumentFacts(
+        max_opd_mm=finite_or_none(spec.max_opd_cm * 10),
+        resolution_per_cm=finite_or_none(res),
+        resolution_nm=finite_or_none(u_nm_from_per_cm(main.centre_per_cm, res))
+        if main is not None else None,
+        min_wavelength_nm=finite_or_none(limits.min_wavelength_nm),
+        line_shape=f"{apodization} ({spec.line_shape.kind})",
+    )
+
+
+def line_reports(lines, flags, aliasing, *, options, reference_uncertainty_ppm,
+                 main=None) -> tuple[tuple[LineReport, ...], tuple[str, ...]]:
+    """The table of lines, sorted by wavelength, and the aliasing notes of its lines.
+
+    ``main`` is the strongest source line (intensities are relative to it); ``aliasing``
+    holds each line's verdict (:mod:`ftsource.lines.aliasing`) or is None.
+    """
+    from ftsource.lines.identify import identify_line
+
+    if aliasing is None:
+        aliasing = [None] * len(lines)
+    tables: dict = {}  # reference lists read once for all lines of this result
+    notes, out = [], []
+    for f, flag, alias in zip(lines, flags, aliasing, strict=True):
+        wl = nm_from_per_cm(f.centre_per_cm)
+        u_wl = u_nm_from_per_cm(f.centre_per_cm, f.u_centre_per_cm)
+        if alias is not None and alias.message and (flag is None or alias.verdict == "alias"):
+            notes.append(alias.message)
+        ident = identify_line(wl, u_wl, reference_uncertainty_ppm, source_line=flag is None,
+                              tables=tables)
+        out.append(LineReport(
+            wavelength_nm=finite_or_none(wl),
+            wavelength_air_nm=finite_or_none(air_wavelength_nm(wl, options)),
+            wavenumber_per_cm=finite_or_none(f.centre_per_cm),
+            frequency_thz=finite_or_none(C_M_S * f.centre_per_cm * 100 / 1e12),
+            relative_intensity=finite_or_none(f.area / main.area) if main else None,
+            snr=finite_or_none(f.snr),
+            resolved=bool(f.resolved),
+            fwhm_nm=finite_or_none(u_nm_from_per_cm(f.centre_per_cm, f.fwhm_per_cm))
+            if f.resolved else None,
+            fwhm_upper_bound_nm=None if f.resolved
+            else finite_or_none(u_nm_from_per_cm(f.centre_per_cm, f.fwhm_upper_bound_per_cm)),
+            profile=f.profile,
+            u_wavelength_nm=finite_or_none(u_wl),
+            flag=flag,
+            aliasing=alias.verdict if alias is not None else None,
+            identification=ident.best,
+            nearest_entries=ident.nearest,
+        ))
+    out.sort(key=lambda r: r.wavelength_nm or 0.0)
+    return tuple(out), tuple(notes)
