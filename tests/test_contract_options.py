@@ -15,10 +15,9 @@ from pathlib import Path
 
 import pytest
 
-import ftsource
 from ftsource.cli import build_parser
 
-CONTRACT = Path(ftsource.__file__).resolve().parents[1] / "docs" / "contract.md"
+CONTRACT = Path(__file__).resolve().parents[1] / "docs" / "contract.md"
 _OPTION = re.compile(r"--[a-z0-9][a-z0-9-]*")
 
 

@@ -46,7 +46,7 @@ import pytest
 
 import ftsource
 
-ROOT = Path(ftsource.__file__).resolve().parents[1]
+ROOT = Path(__file__).resolve().parents[1]  # the source tree, also when ftsource is installed
 DOC_FILES = sorted([ROOT / "README.md", *(ROOT / "docs").glob("*.md")])
 RUN_LANGUAGES = ("console", "bash", "python")
 _FENCE = re.compile(r"^(?P<indent> {0,3})(?P<fence>```+)(?P<info>[^`]*)$")

@@ -29,7 +29,7 @@ from ftsource.measure.coherence import (
     voigt_coherence_length_cm,
 )
 from ftsource.spectrum.spectrum import LineShape
-from tests.test_lines import DX, closed_form_spectrum
+from test_lines import DX, closed_form_spectrum
 
 LN2 = np.log(2.0)
 S0 = 1e7 / 650.0
