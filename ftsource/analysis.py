@@ -16,14 +16,13 @@ from dataclasses import dataclass, replace
 import numpy as np
 
 from ftsource.errors import AnalysisError, AnalysisWarning, OptionError
+from ftsource.interferogram.scale import REFERENCE_WAVELENGTH_RANGE_NM
+from ftsource.lines.fitting import SEARCH_BAND_NM
 from ftsource.measure.classify import BROADBAND_FWHM_NM
 from ftsource.measure.facts import CLIPPED_FRACTION_LIMIT, clipped_fraction
 
 __all__ = ["AnalysisOptions", "analyze", "opd_scale", "SEARCH_BAND_NM"]
 
-#: Lines are searched for between these vacuum wavelengths (nm) unless the sampling limits
-#: the short end further. Silicon and InGaAs detectors see nothing beyond 3.3 µm.
-SEARCH_BAND_NM = (200.0, 3300.0)
 #: Peaks down to this fraction of each sweep's strongest enter the speed-diversity alias check
 #: (weaker ones are reported as not checked).
 ALIAS_CHECK_REL_MIN = 0.02
@@ -153,8 +152,9 @@ def opd_scale(record, options: AnalysisOptions):
             "the reference wavelength is unknown: give reference_wavelength (vacuum), e.g. "
             f"{HENE_VACUUM_WAVELENGTH_NM}nm for a He-Ne laser"
         )
-    if lam_ref is not None and not 200.0 <= lam_ref <= 2000.0:
-        raise OptionError(f"reference_wavelength {lam_ref:g} nm is outside 200–2000 nm")
+    lo, hi = REFERENCE_WAVELENGTH_RANGE_NM
+    if lam_ref is not None and not lo <= lam_ref <= hi:
+        raise OptionError(f"reference_wavelength {lam_ref:g} nm is outside {lo:g}–{hi:g} nm")
     u_rel = 0.0
     if kind.uses_reference_laser:
         ppm = options.reference_uncertainty_ppm

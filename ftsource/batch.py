@@ -322,9 +322,9 @@ def write_summary(rows, path) -> None:
     """Write :func:`summary_table` as ECSV, atomically."""
     import io
 
-    from ftsource.io.records import _atomic_write
+    from ftsource.io.records import atomic_write
 
     buf = io.StringIO()
     summary_table(rows).write(buf, format="ascii.ecsv")
     data = buf.getvalue().encode("utf-8")
-    _atomic_write(path, lambda fh: fh.write(data), overwrite=True)
+    atomic_write(path, lambda fh: fh.write(data), overwrite=True)

@@ -10,6 +10,8 @@ from __future__ import annotations
 import argparse
 import sys
 
+from ftsource._checks import one_line, quote  # standard library only
+
 __all__ = ["main", "build_parser"]
 
 SAFETY_LINE = (
@@ -30,6 +32,9 @@ _HELP_EPILOG = (
     "QTY is a number with its unit, written as one word (632.991nm, 48kHz, 0.5mm/s, 21.5degC) "
     "or quoted ('632.991 nm'). " + SAFETY_LINE
 )
+
+#: Longest error line printed (characters); a longer message is cut with "...".
+MESSAGE_LIMIT = 2000
 
 
 class UsageError(Exception):
@@ -366,7 +371,7 @@ def _qty(text, unit, name, *, physical_type=None, positive=False):
     value = to_float(text, unit, name=name)
     if positive and not value > 0:
         raise OptionError(
-            f"{name}: {_show(text)} is not allowed; it must be above zero "
+            f"{name}: {quote(text)} is not allowed; it must be above zero "
             f"(e.g. {_EXAMPLE.get(unit, unit)})"
         )
     return value
@@ -374,12 +379,6 @@ def _qty(text, unit, name, *, physical_type=None, positive=False):
 
 _EXAMPLE = {"nm": "'632.991nm'", "Hz": "'48kHz'", "m/s": "'0.5mm/s'", "m": "'25mm'",
             "s": "'2s'", "cm": "'1mm'"}
-
-
-def _show(value, limit: int = 60) -> str:
-    """Quote a user's text for a one-line message, without control characters."""
-    s = "".join(ch if ch.isprintable() else "?" for ch in str(value))
-    return repr(s if len(s) <= limit else s[: limit - 3] + "...")
 
 
 def _ratio(text, name):
@@ -407,7 +406,7 @@ def _reference_uncertainty(text):
         q = parse_quantity(text, name=name)  # re-raises a text or unit that cannot be read
     if q.unit.physical_type != "length":
         raise OptionError(
-            f"{name}: {_show(text)} is neither a ratio nor a length; write e.g. '1.5ppm' or "
+            f"{name}: {quote(text)} is neither a ratio nor a length; write e.g. '1.5ppm' or "
             "'0.001nm'"
         )
     return None, _qty(text, "nm", name)
@@ -435,7 +434,7 @@ def _options(args):
             name = f"--air-{k}-uncertainty"
             uq = parse_quantity(v, physical_type=types[k], name=name)
             if not (float(uq.value) >= 0 and float(uq.value) < float("inf")):
-                raise OptionError(f"{name}: {_show(v)} is not allowed; give a finite value ≥ 0")
+                raise OptionError(f"{name}: {quote(v)} is not allowed; give a finite value ≥ 0")
             q[f"u_{k}"] = uq
         air = AirConditions.from_quantities(**q)
     elif given or u_given:
@@ -457,7 +456,7 @@ def _options(args):
             from ftsource.errors import OptionError
 
             raise OptionError(
-                f"--encoder-scale-uncertainty: {_show(args.encoder_scale_uncertainty)} is not "
+                f"--encoder-scale-uncertainty: {quote(args.encoder_scale_uncertainty)} is not "
                 "allowed; give a ratio from 0 to 10 %, e.g. '5ppm'"
             )
 
@@ -638,7 +637,7 @@ def _parse_source(spec: str):
 
     parts = spec.split(":")
     kind, vals = parts[0].strip().lower(), parts[1:]
-    name = f"--source {_show(spec)}"
+    name = f"--source {quote(spec)}"
     usage = (
         f"{name} is not understood; use laser:WL[:FWHM], led:WL:FWHM or "
         "multimode:WL:SPACING:ENVELOPE with lengths such as 650nm"
@@ -680,7 +679,7 @@ def _cmd_simulate(args, out, err) -> int:
     suffix = target.suffix.lower()
     if suffix not in (".npz", ".wav", ".csv", ".tsv", ".txt", ".dat"):
         raise OptionError(
-            f"{_show(args.out)}: unknown record type {_show(suffix or '(none)')}; use .csv, .npz "
+            f"{quote(args.out)}: unknown record type {quote(suffix or '(none)')}; use .csv, .npz "
             "or .wav"
         )
     if target.is_dir():
@@ -865,15 +864,6 @@ def _cmd_lines(args, out, err) -> int:
     return 0
 
 
-def _one_line(text: str, limit: int = 2000) -> str:
-    """A message as one printable line: whitespace runs become one space and control or
-    formatting characters (terminal escapes, bidirectional overrides) become '?', so that no
-    file name or cell echoed in a message can act on the terminal."""
-    s = " ".join(str(text).split())
-    s = "".join(ch if ch.isprintable() else "?" for ch in s)
-    return s if len(s) <= limit else s[: limit - 3] + "..."
-
-
 def _analysis_defaults(args):
     """Fill the analyze-only attributes that calibrate/response do not define."""
     for name, value in (("json", False), ("out", None), ("calibration", None), ("response", None)):
@@ -882,95 +872,42 @@ def _analysis_defaults(args):
     return args
 
 
+#: The calibrate options that :func:`ftsource.calibrate.known.known_line` names in messages.
+_KNOWN_NAMES = {"wavelength": "--known-wavelength", "line": "--known-line",
+                "uncertainty": "--known-uncertainty"}
+
+
 def _cmd_calibrate(args, out, err) -> int:
     from pathlib import Path
 
     from ftsource.calibrate.calibration import save_calibration
-    from ftsource.calibrate.rig import calibrate_rig
     from ftsource.errors import OutputError
     from ftsource.io.records import read_record
+    from ftsource.rig import calibrate_rig
 
-    def known_line():
-        """``(vacuum nm, standard uncertainty nm, description)`` of the known line, checked:
-        a nominal laser label is refused, and the uncertainty is never taken as 0 unasked."""
-        import math
+    def known():
+        """The known line, checked by :func:`ftsource.calibrate.known.known_line`; here only
+        the options' text becomes numbers."""
+        from ftsource.calibrate.known import known_line
 
-        from ftsource.errors import OptionError
-        from ftsource.linelists import entries_with_value, line_list_names, pick_entry
-
-        u_given = None
+        u = None
         if args.known_uncertainty is not None:
-            u_given = _qty(args.known_uncertainty, "nm", "--known-uncertainty")
-            if not u_given >= 0:
-                raise OptionError(
-                    f"--known-uncertainty: {_show(args.known_uncertainty)} is not allowed; give "
-                    "a standard uncertainty ≥ 0 as a length, e.g. '0.0001nm'"
-                )
-        if args.known_line is not None:
-            opt = "--known-line"
-            name, sep, wl_text = args.known_line.partition(":")
-            if not (sep and name.strip() and wl_text.strip()):
-                raise OptionError(
-                    f"{opt} {_show(args.known_line)} is not LIST:QTY; write e.g. "
-                    f"laser_standards:632.99121258nm (lists: {', '.join(line_list_names())})"
-                )
-            wl = _qty(wl_text.strip(), "nm", opt, positive=True)
-            try:
-                entry = pick_entry(name.strip(), wl)
-            except OptionError as exc:
-                raise OptionError(f"{opt} {_show(args.known_line)}: {exc}") from None
-        else:
-            opt = "--known-wavelength"
-            wl = _qty(args.known_wavelength, "nm", opt, positive=True)
-            same = entries_with_value(wl)
-            entry = (next((e for e in same if e.is_nominal), None)
-                     or next((e for e in same if e.is_standard), None))
-            if entry is None:
-                if u_given is None:
-                    raise OptionError(
-                        f"{opt} needs --known-uncertainty (its standard uncertainty; it is not "
-                        "taken as 0), or name a bundled entry with --known-line LIST:QTY"
-                    )
-                return wl, u_given, f"{wl:.12g} nm vacuum, u = {u_given:.2g} nm (as given)"
-        if entry.is_nominal:
-            raise OptionError(
-                f"{opt}: {entry.wavelength_vac_nm:g} nm is the nominal label "
-                f"'{entry.species}' ({entry.list_name}), not a measured wavelength, and nominal "
-                "values are never standards; calibrate with a laser standard or a lamp line "
-                "(see 'ftsource lines')"
-            )
-        stated = entry.u_vac_nm
-        if u_given is None:
-            if not math.isfinite(stated):
-                raise OptionError(
-                    f"{opt}: {entry.species} at {entry.wavelength_vac_nm:.12g} nm "
-                    f"({entry.list_name}) has no stated uncertainty; give --known-uncertainty, "
-                    "including lamp effects such as pressure shifts"
-                )
-            u, src = stated, f"as stated in {entry.list_name}"
-        else:
-            if math.isfinite(stated) and u_given < stated:
-                raise OptionError(
-                    f"--known-uncertainty {u_given:.2g} nm is smaller than the {stated:.2g} nm "
-                    f"that {entry.list_name} states for {entry.species}; a calibration cannot be "
-                    "better than its standard"
-                )
-            u, src = u_given, "as given"
-        return entry.wavelength_vac_nm, u, (
-            f"{entry.species} ({entry.list_name}, {entry.kind}), "
-            f"{entry.wavelength_vac_nm:.12g} nm vacuum, u = {u:.2g} nm ({src}); list status "
-            f"'{entry.status}' (V verified, V2 secondary, C computed, M from memory)"
-        )
+            u = _qty(args.known_uncertainty, "nm", "--known-uncertainty")
+        wl = None
+        if args.known_wavelength is not None:
+            wl = _qty(args.known_wavelength, "nm", "--known-wavelength", positive=True)
+        return known_line(wavelength_nm=wl, line=args.known_line, u_nm=u, names=_KNOWN_NAMES)
 
     target = Path(args.save)
     if target.exists() and not args.overwrite:
         raise OutputError(f"--save {target}: exists already; use --overwrite to replace it")
-    known, u_known, what = known_line()
+    line = known()
     options = _options(_analysis_defaults(args))
     record = read_record(args.record, columns=args.columns, sample_rate=options.sample_rate_hz)
-    cal, _ = calibrate_rig(record, options, known, u_known, label=Path(args.record).name)
+    cal, _ = calibrate_rig(record, options, line.wavelength_nm, line.u_nm,
+                           label=Path(args.record).name)
     save_calibration(target, cal, overwrite=args.overwrite)
-    out.write(_calibration_text(cal, what, target))
+    out.write(_calibration_text(cal, line.description, target))
     return 0
 
 
@@ -1039,7 +976,7 @@ def main(argv=None) -> int:
     try:
         args = parser.parse_args(argv)
     except UsageError as e:
-        err.write(f"error: {_one_line(str(e) + _split_value_hint(argv))}\n")
+        err.write(f"error: {one_line(str(e) + _split_value_hint(argv), MESSAGE_LIMIT)}\n")
         return 2
     except SystemExit as e:  # --help prints and exits through argparse
         return e.code if isinstance(e.code, int) else (0 if e.code is None else 2)
@@ -1074,7 +1011,7 @@ def main(argv=None) -> int:
             from ftsource.parameters import cli_terms
 
             e = cli_terms(str(e))
-        err.write(f"error: {_one_line(e)}\n")
+        err.write(f"error: {one_line(e, MESSAGE_LIMIT)}\n")
         return 2
     except MemoryError:
         err.write("error: not enough memory for this record; analyse a shorter recording\n")
@@ -1084,7 +1021,7 @@ def main(argv=None) -> int:
         return 130
     except Exception as e:  # noqa: BLE001 - a bug must still end in one line, not a traceback
         err.write(
-            f"error: internal error ({_one_line(f'{type(e).__name__}: {e}', 300)}); please "
+            f"error: internal error ({one_line(f'{type(e).__name__}: {e}', 300)}); please "
             "report it with the record and the command line\n"
         )
         return 3

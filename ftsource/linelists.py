@@ -23,7 +23,6 @@ obtained. See ``docs/reference_spectra.md``.
 
 from __future__ import annotations
 
-import math
 from collections.abc import Callable, Iterable, Sequence
 from dataclasses import dataclass
 from pathlib import Path
@@ -31,6 +30,7 @@ from typing import Any
 
 import numpy as np
 
+from ftsource._checks import finite_float
 from ftsource._data import data_folder
 from ftsource.errors import FtsourceError, OptionError
 
@@ -65,12 +65,6 @@ _MEDIA = ("vacuum", "air")
 #: ``air_convention`` of a nominal laser label: it has no medium and is never converted.
 _LABEL_AIR = "none (nominal label)"
 
-# IAU/Morton (2000, ApJS 130:403, eq. 8) standard-air dispersion, after Birch & Downs (1994).
-_MORTON_A = 8.34254e-5
-_MORTON_B = 2.406147e-2
-_MORTON_C = 130.0
-_MORTON_D = 1.5998e-4
-_MORTON_E = 38.9
 
 
 # --------------------------------------------------------------------------------------------
@@ -90,18 +84,6 @@ def standard_air_to_vacuum_nm(wl_air_nm: float | np.ndarray) -> float | np.ndarr
     from ftsource.physics.air import standard_air_to_vacuum_nm as _to_vac
 
     return _to_vac(wl_air_nm)
-
-
-def _check_wavelengths(values: Any, name: str) -> np.ndarray:
-    try:
-        arr = np.asarray(values, dtype=float)
-    except (TypeError, ValueError) as exc:
-        raise OptionError(f"{name} = {values!r} is not a number: give wavelengths in nm") from exc
-    if not np.all(np.isfinite(arr)) or np.any(arr < 200.0) or np.any(arr > 2000.0):
-        raise OptionError(
-            f"{name} = {values!r} is outside the standard-air range: allowed 200 nm to 2000 nm"
-        )
-    return arr
 
 
 # --------------------------------------------------------------------------------------------
@@ -250,16 +232,9 @@ def _element_of(species: str) -> str:
 
 
 def _check_float(value: Any, name: str, *, positive: bool = False) -> float | None:
-    if value is None:
-        return None
-    try:
-        x = float(value)
-    except (TypeError, ValueError) as exc:
-        raise OptionError(f"{name} = {value!r} is not a number") from exc
-    if not math.isfinite(x) or (positive and x <= 0) or (not positive and x < 0):
-        allowed = "a finite number > 0" if positive else "a finite number >= 0"
-        raise OptionError(f"{name} = {value!r} is not allowed: give {allowed}")
-    return x
+    """None, or ``value`` checked by :func:`ftsource._checks.finite_float` (≥ 0, or > 0 when
+    ``positive``)."""
+    return None if value is None else finite_float(name, value, minimum=0.0, strict=positive)
 
 
 def search_lines(

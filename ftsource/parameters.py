@@ -14,6 +14,8 @@ from __future__ import annotations
 
 import re
 
+from ftsource._checks import quote
+
 __all__ = ["PARAMETERS", "option_fields", "cli_terms"]
 
 #: Every keyword parameter of :func:`ftsource.analyze`, with what it is.
@@ -54,12 +56,6 @@ _EXAMPLE = {"nm": "'632.991nm'", "Hz": "'48kHz'", "m/s": "'0.5mm/s'", "m": "'25m
             "s": "'2s'", "cm": "'1mm'"}
 
 
-def _show(value, limit: int = 60) -> str:
-    """Quote a user's value for a one-line message, without control characters."""
-    s = "".join(ch if ch.isprintable() else "?" for ch in str(value))
-    return repr(s if len(s) <= limit else s[: limit - 3] + "...")
-
-
 def _positive(value, unit, name):
     """A plain float in ``unit`` from a quantity (text or Quantity), above zero."""
     from ftsource.errors import OptionError
@@ -68,7 +64,7 @@ def _positive(value, unit, name):
     v = to_float(value, unit, name=name)
     if not v > 0:
         raise OptionError(
-            f"{name}: {_show(value)} is not allowed; it must be above zero "
+            f"{name}: {quote(value)} is not allowed; it must be above zero "
             f"(e.g. {_EXAMPLE.get(unit, unit)})"
         )
     return v
@@ -97,7 +93,7 @@ def _reference_uncertainty(value):
         q = parse_quantity(value, name=name)  # re-raises a text or unit that cannot be read
     if q.unit.physical_type != "length":
         raise OptionError(
-            f"{name}: {_show(value)} is neither a ratio nor a length; write e.g. '1.5ppm' or "
+            f"{name}: {quote(value)} is neither a ratio nor a length; write e.g. '1.5ppm' or "
             "'0.001nm'"
         )
     return None, to_float(value, "nm", name=name)
@@ -126,7 +122,7 @@ def _air(params):
         name = f"air_{k}_uncertainty"
         uq = parse_quantity(v, physical_type=_AIR_TYPES[k], name=name)
         if not (float(uq.value) >= 0 and float(uq.value) < float("inf")):
-            raise OptionError(f"{name}: {_show(v)} is not allowed; give a finite value ≥ 0")
+            raise OptionError(f"{name}: {quote(v)} is not allowed; give a finite value ≥ 0")
         q[f"u_{k}"] = uq
     return (AirConditions.from_quantities(**q), tuple(sorted(k for k in given if k != "co2")),
             tuple(sorted(u_given)))
@@ -167,7 +163,7 @@ def option_fields(**params) -> dict:
          "phase_correction": "auto", "fft_planning": "estimate", **params}
     for key in ("medium", "air_model", "apodization", "phase_correction", "fft_planning"):
         if not isinstance(p[key], str):
-            raise OptionError(f"{key}: {_show(p[key])} is not a name; give it as text "
+            raise OptionError(f"{key}: {quote(p[key])} is not a name; give it as text "
                               f"({PARAMETERS[key]})")
     air, air_given, air_u_given = _air(p)
     lam = None
@@ -180,7 +176,7 @@ def option_fields(**params) -> dict:
         esu = _ratio_ppm(p["encoder_scale_uncertainty"], "encoder_scale_uncertainty")
         if not 0.0 <= esu <= 1e5:
             raise OptionError(
-                f"encoder_scale_uncertainty: {_show(p['encoder_scale_uncertainty'])} is not "
+                f"encoder_scale_uncertainty: {quote(p['encoder_scale_uncertainty'])} is not "
                 "allowed; give a ratio from 0 to 10 %, e.g. '5ppm'"
             )
 
@@ -191,7 +187,7 @@ def option_fields(**params) -> dict:
     if p.get("zero_fill") is not None:
         zf = p["zero_fill"]
         if isinstance(zf, bool) or not isinstance(zf, int):
-            raise OptionError(f"zero_fill: {_show(zf)} is not an integer; give e.g. 4")
+            raise OptionError(f"zero_fill: {quote(zf)} is not an integer; give e.g. 4")
         extra["zero_fill"] = zf
     return dict(
         reference_wavelength_nm=lam,

@@ -33,6 +33,7 @@ from numbers import Real
 import astropy.units as u
 from astropy.units.function.mixin import FunctionMixin
 
+from ftsource._checks import quote
 from ftsource.errors import OptionError
 
 __all__ = ["PHYSICAL_TYPES", "parse_quantity", "to_float", "ppm", "ppb"]
@@ -80,15 +81,6 @@ _NUMBER = re.compile(
 )
 
 
-def _show(text: object) -> str:
-    """Quote a user's value for a one-line message, without control characters."""
-    s = str(text)
-    s = "".join(ch if ch.isprintable() else "?" for ch in s)
-    if len(s) > 60:
-        s = s[:57] + "..."
-    return repr(s)
-
-
 def _normalise(text: str) -> str:
     """Unify Unicode spaces and minus signs so that pasted text parses."""
     text = unicodedata.normalize("NFC", text)
@@ -110,11 +102,11 @@ def _unit_from_text(unit_text: str, *, name: str, shown: str) -> u.UnitBase:
             unit = u.Unit(unit_text, parse_strict="raise")
     except Exception:  # astropy raises ValueError, TypeError or its own parse errors
         raise OptionError(
-            f"{name}: the unit {_show(unit_text)} in {shown} is not understood "
+            f"{name}: the unit {quote(unit_text)} in {shown} is not understood "
             "(units are case-sensitive, e.g. 'nm', 'kHz', 'hPa', '°C', '%', 'ppm', 'mm/s')"
         ) from None
     if not isinstance(unit, u.UnitBase) or isinstance(unit, FunctionMixin):
-        raise OptionError(f"{name}: the unit {_show(unit_text)} in {shown} is not a plain unit")
+        raise OptionError(f"{name}: the unit {quote(unit_text)} in {shown} is not a plain unit")
     return unit
 
 
@@ -182,7 +174,7 @@ def parse_quantity(
         raise ValueError(
             f"physical_type {physical_type!r} is not one of {', '.join(PHYSICAL_TYPES)}"
         )
-    shown = _show(text)
+    shown = quote(text)
     if isinstance(text, u.Quantity):
         if not text.isscalar:
             raise OptionError(f"{name}: {shown} is not a single value")
@@ -271,7 +263,7 @@ def to_float(
     if isinstance(value, Real) and not isinstance(value, bool):
         result = float(value)
         if not math.isfinite(result):
-            raise OptionError(f"{name}: {_show(value)} is not a finite number")
+            raise OptionError(f"{name}: {quote(value)} is not a finite number")
         return result
     if isinstance(value, str) and not _has_unit(value) and target.is_equivalent(u.one):
         q = parse_quantity(value, physical_type="dimensionless", name=name)
@@ -281,11 +273,11 @@ def to_float(
         result = float(q.to_value(target, equivalencies=eq))
     except u.UnitConversionError:
         raise OptionError(
-            f"{name}: {_show(value)} is {_describe(q.unit)}; expected "
+            f"{name}: {quote(value)} is {_describe(q.unit)}; expected "
             f"{_describe(target)} (convertible to {target})"
         ) from None
     if not math.isfinite(result):
-        raise OptionError(f"{name}: {_show(value)} is out of range in {target}")
+        raise OptionError(f"{name}: {quote(value)} is out of range in {target}")
     return result
 
 

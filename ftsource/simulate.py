@@ -27,6 +27,7 @@ from dataclasses import dataclass, field, replace
 import numpy as np
 
 from ftsource.interferogram.scale import HENE_VACUUM_WAVELENGTH_NM, OpdKind
+from ftsource.physics.instrument import OPD_PER_MIRROR_TRAVEL
 
 __all__ = [
     "SpectralLine",
@@ -504,7 +505,7 @@ def simulate(
             gain = ref.gains[0] * (1.0 + 0.5 * ref.level_drift * _smooth_noise(rng, t, f_max=0.5))
             cols["ref"] = level + gain * amp * np.cos(phase) + rng.normal(0, ref.noise_rms, n)
     elif kind is OpdKind.ENCODER:
-        pos_m = d / 2 * 1e-2
+        pos_m = d / OPD_PER_MIRROR_TRAVEL * 1e-2
         q = ref.encoder_resolution_m
         cols["position"] = np.round(pos_m / q) * q if q > 0 else pos_m
 

@@ -21,6 +21,7 @@ import numpy as np
 import pytest
 from scipy import special
 from scipy.integrate import quad
+from test_lines import DX, closed_form_spectrum
 
 from ftsource.lines.fitting import find_lines, fit_line
 from ftsource.measure.coherence import (
@@ -29,7 +30,6 @@ from ftsource.measure.coherence import (
     voigt_coherence_length_cm,
 )
 from ftsource.spectrum.spectrum import LineShape
-from test_lines import DX, closed_form_spectrum
 
 LN2 = np.log(2.0)
 S0 = 1e7 / 650.0

@@ -1,4 +1,4 @@
-"""Rig calibration from a record of a known line (ftsource.calibrate.rig).
+"""Rig calibration from a record of a known line (ftsource.rig).
 
 Oracle: the simulator (itself tested against closed forms in test_simulate.py) with a reference
 laser whose true vacuum wavelength differs from the nominal value the analysis is told, as an
@@ -11,8 +11,8 @@ import pytest
 from ftsource import simulate as S
 from ftsource.analysis import AnalysisOptions, analyze
 from ftsource.calibrate.calibration import load_calibration, save_calibration
-from ftsource.calibrate.rig import calibrate_rig
 from ftsource.errors import AnalysisError
+from ftsource.rig import calibrate_rig
 
 NOMINAL = 632.991
 TRUE_REF = 632.99185  # 1.34 ppm longer than nominal: the bias a calibration must remove

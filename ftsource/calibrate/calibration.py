@@ -24,6 +24,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from ftsource._checks import quote
 from ftsource.errors import AnalysisError, OptionError
 from ftsource.interferogram.scale import CALIBRATED_QUANTITIES
 
@@ -308,7 +309,7 @@ def calibrate_reference(
     ur = _number("u_reference_rel", u_reference_rel, rel=True)
     mx = _number("max_deviation_rel", max_deviation_rel, positive=True)
     if opd_scale not in OPD_SCALES:
-        raise OptionError(f"opd_scale = {_short(opd_scale)} is not one of {', '.join(OPD_SCALES)}")
+        raise OptionError(f"opd_scale = {quote(opd_scale)} is not one of {', '.join(OPD_SCALES)}")
     if mx > MAX_FILE_DEVIATION[opd_scale]:
         raise OptionError(
             f"max_deviation_rel = {mx!r} is not allowed; at most {MAX_FILE_DEVIATION[opd_scale]}"
@@ -374,13 +375,13 @@ def save_calibration(path, cal: RigCalibration, *, overwrite: bool = False) -> N
     ----------
     .. [1] RFC 8259, The JavaScript Object Notation (JSON) Data Interchange Format.
     """
-    from ftsource.io.records import _atomic_write
+    from ftsource.io.records import atomic_write
 
     if not isinstance(cal, RigCalibration):
         raise OptionError(f"cal is a RigCalibration, not {type(cal).__name__}")
     text = json.dumps(cal.to_dict(), indent=2, allow_nan=False) + "\n"
     data = text.encode("utf-8")
-    _atomic_write(path, lambda fh: fh.write(data), overwrite=overwrite)
+    atomic_write(path, lambda fh: fh.write(data), overwrite=overwrite)
 
 
 def _reject_constant(name):
@@ -447,16 +448,16 @@ def load_calibration(path) -> RigCalibration:
     if not isinstance(doc, dict):
         raise OptionError(f"{name}: the top level is {type(doc).__name__}, not an object")
     if doc.get("kind") != FILE_KIND:
-        raise OptionError(f"{name}: kind is {_short(doc.get('kind'))}, not {FILE_KIND!r}")
+        raise OptionError(f"{name}: kind is {quote(doc.get('kind'))}, not {FILE_KIND!r}")
     version = doc.get("version")
     if isinstance(version, bool) or version != FILE_VERSION:
         raise OptionError(
-            f"{name}: version {_short(version)} is not supported (allowed: {FILE_VERSION})"
+            f"{name}: version {quote(version)} is not supported (allowed: {FILE_VERSION})"
         )
     allowed = {"kind", "version", "opd_scale", *_INPUT_KEYS, *_DERIVED_KEYS, *_TEXT_KEYS}
     unknown = sorted(set(doc) - allowed)
     if unknown:
-        raise OptionError(f"{name}: unknown key {_short(unknown[0])}; allowed: "
+        raise OptionError(f"{name}: unknown key {quote(unknown[0])}; allowed: "
                           f"{', '.join(sorted(allowed))}")
     missing = [k for k in (*_INPUT_KEYS, *_DERIVED_KEYS) if k not in doc]
     if missing:
@@ -464,11 +465,11 @@ def load_calibration(path) -> RigCalibration:
     for k in (*_INPUT_KEYS, *_DERIVED_KEYS):
         v = doc[k]
         if isinstance(v, bool) or not isinstance(v, (int, float)):
-            raise OptionError(f"{name}: {k} = {_short(v)} is not a number")
+            raise OptionError(f"{name}: {k} = {quote(v)} is not a number")
     scale_kind = doc.get("opd_scale", "reference")  # files from before the key: a laser
     if scale_kind not in OPD_SCALES:
         raise OptionError(
-            f"{name}: opd_scale = {_short(scale_kind)} is not one of {', '.join(OPD_SCALES)}"
+            f"{name}: opd_scale = {quote(scale_kind)} is not one of {', '.join(OPD_SCALES)}"
         )
     try:
         cal = calibrate_reference(
@@ -489,8 +490,3 @@ def load_calibration(path) -> RigCalibration:
                 f"({fresh!r}); the file was changed by hand or is damaged"
             )
     return cal
-
-
-def _short(value) -> str:
-    text = repr(value)
-    return text if len(text) <= 60 else text[:57] + "..."

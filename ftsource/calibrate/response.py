@@ -20,6 +20,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from ftsource._checks import finite_pair, positive_array
 from ftsource.errors import AnalysisError, FtsourceWarning, OptionError
 
 __all__ = [
@@ -58,18 +59,14 @@ _EMISSIVITY_NOTE = (
 # Planck
 # --------------------------------------------------------------------------------------------
 def _check_temperature(temperature_k, name="temperature_k") -> float:
-    from ftsource.physics.instrument import _positive
-
-    t = _positive(name, temperature_k)
+    t = positive_array(name, temperature_k)
     if t.ndim != 0:
         raise OptionError(f"{name} is one temperature in kelvin, not an array")
     return float(t)
 
 
 def _check_sigma(sigma_per_cm, name="sigma_per_cm") -> np.ndarray:
-    from ftsource.physics.instrument import _positive
-
-    return _positive(name, sigma_per_cm, allow_zero=True)
+    return positive_array(name, sigma_per_cm, allow_zero=True)
 
 
 def planck_density_per_cm(sigma_per_cm, temperature_k):
@@ -303,7 +300,7 @@ class ResponseCurve:
         """
         from astropy.table import Table
 
-        from ftsource.io.records import _atomic_write
+        from ftsource.io.records import atomic_write
 
         t = Table()
         t["sigma_per_cm"] = np.asarray(self.sigma_per_cm)
@@ -328,7 +325,7 @@ class ResponseCurve:
         with np.printoptions(legacy=False):
             t.write(buf, format="ascii.ecsv")
         data = buf.getvalue().encode("utf-8")
-        _atomic_write(path, lambda fh: fh.write(data), overwrite=overwrite)
+        atomic_write(path, lambda fh: fh.write(data), overwrite=overwrite)
 
     @classmethod
     def from_file(cls, path) -> ResponseCurve:
@@ -780,8 +777,7 @@ def _spectrum_inputs(sigma, density, noise, curve=_NO_CURVE):
         n = np.broadcast_to(np.asarray(noise, dtype=float), d.shape)
     except (TypeError, ValueError):
         raise OptionError("density and noise are numeric and of the shape of sigma") from None
-    if s.ndim != 1 or d.shape != s.shape:
-        raise OptionError(f"sigma and density are 1-D of one length (got {s.shape}, {d.shape})")
+    s, d = finite_pair(s, d, "sigma", "density", finite=False, error=OptionError)
     return s, d, n
 
 
@@ -981,9 +977,8 @@ def response_shape_uncertainty(sigma, density_corrected, curve: ResponseCurve, f
        and §5.2 (correlated input quantities).
     """
     s = _check_sigma(sigma, "sigma")
-    dc = np.asarray(density_corrected, dtype=float)
-    if s.ndim != 1 or dc.shape != s.shape:
-        raise OptionError("sigma and density_corrected are 1-D of one length")
+    s, dc = finite_pair(s, density_corrected, "sigma", "density_corrected", finite=False,
+                        error=OptionError)
     w = float(width_per_cm)
     if not (math.isfinite(w) and w > 0 and math.isfinite(float(centre_per_cm))):
         raise OptionError("centre_per_cm is finite and width_per_cm finite and > 0")

@@ -525,13 +525,14 @@ def shift_time_for_delay(signal, delay_s: float, sample_rate_hz: float) -> np.nd
     ----------
     .. [1] M. Unser, IEEE Signal Processing Magazine 16(6), 22–38 (1999).
     """
-    from ftsource.interferogram.resample import _spline_at, _spline_coefficients
+
+    from ftsource.interferogram.resample import spline_at, spline_coefficients
 
     if not (sample_rate_hz > 0):
         raise OptionError(f"sample_rate_hz must be positive, got {sample_rate_hz!r}")
     if not np.isfinite(delay_s):
         raise OptionError(f"delay_s must be finite, got {delay_s!r}")
     s = np.asarray(signal, float)
-    coeffs = _spline_coefficients(s)
+    coeffs = spline_coefficients(s)
     idx = np.arange(s.size, dtype=float) + delay_s * sample_rate_hz
-    return _spline_at(coeffs, idx)
+    return spline_at(coeffs, idx)

@@ -29,6 +29,7 @@ from ftsource.interferogram.turnarounds import (
     drop_suspect_sweeps,
     phase_steps,
 )
+from ftsource.physics.instrument import OPD_PER_MIRROR_TRAVEL
 
 __all__ = [
     "EllipseFit",
@@ -755,7 +756,7 @@ def opd_from_position(
     reference index).
     """
     p = np.asarray(position_m, float)
-    x = 2 * p * 100.0
+    x = OPD_PER_MIRROR_TRAVEL * p * 100.0
     if not np.ptp(x) > 0:
         raise AnalysisError("the position column does not change: the mirror did not move")
     if smooth:
@@ -774,7 +775,7 @@ def opd_from_position(
 def opd_from_constant_speed(n_samples: int, sample_rate_hz: float, mirror_speed_m_s: float):
     """OPD for an assumed constant mirror speed (no reference): x = 2·v·t, one sweep."""
     t = np.arange(n_samples) / sample_rate_hz
-    v = 2 * mirror_speed_m_s * 100.0
+    v = OPD_PER_MIRROR_TRAVEL * mirror_speed_m_s * 100.0
     x = v * t
     sw = Sweep(0, 0, n_samples, 1 if v > 0 else -1, 0, float(abs(x[-1] - x[0])), abs(v), abs(v))
     msg = (

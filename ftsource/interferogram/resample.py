@@ -23,6 +23,8 @@ from ftsource.interferogram.opd import OpticalPath, Sweep
 
 __all__ = [
     "Interferogram",
+    "spline_coefficients",
+    "spline_at",
     "SamplingLimits",
     "sampling_limits",
     "resample_sweeps",
@@ -127,14 +129,14 @@ def running_mean(y: np.ndarray, sigma_samples: float) -> np.ndarray:
     return out
 
 
-def _spline_coefficients(signal: np.ndarray) -> np.ndarray:
+def spline_coefficients(signal: np.ndarray) -> np.ndarray:
     from scipy.ndimage import spline_filter1d
 
     return spline_filter1d(np.asarray(signal, float), order=SPLINE_ORDER, mode="mirror")
 
 
-def _spline_at(coeffs: np.ndarray, positions: np.ndarray) -> np.ndarray:
-    """The B-spline of :func:`_spline_coefficients` at fractional sample ``positions`` (one
+def spline_at(coeffs: np.ndarray, positions: np.ndarray) -> np.ndarray:
+    """The B-spline of :func:`spline_coefficients` at fractional sample ``positions`` (one
     place for the order, so coefficients and evaluation always match)."""
     from scipy.ndimage import map_coordinates
 
@@ -175,7 +177,8 @@ def resample_sweeps(
     .. [1] M. Unser, "Splines: a perfect fit for signal and image processing", IEEE Signal
        Processing Magazine 16(6), 22–38 (1999).
     """
-    coeffs = _spline_coefficients(signal)
+
+    coeffs = spline_coefficients(signal)
     out = []
     for sw in sweeps if sweeps is not None else path.sweeps:
         x = path.opd_cm[sw.start : sw.stop]
@@ -196,7 +199,7 @@ def resample_sweeps(
             continue
         grid = dx_cm * np.arange(k0, k1 + 1)
         frac = np.interp(grid, x, idx)
-        y = _spline_at(coeffs, frac)
+        y = spline_at(coeffs, frac)
         base = running_mean(y, baseline_cm / dx_cm)
         out.append(Interferogram(k0 * dx_cm, dx_cm, y - base, sw, float(np.mean(base))))
     if not out:

@@ -63,6 +63,8 @@ STANDARD_MATCH_REL = 1e-9
 #: standard air is taken for that air value (632.8 nm for a He–Ne; laboratory air moves the
 #: air value by about 0.005 nm, far less than this).
 AIR_MATCH_WINDOW_NM = 0.05
+#: Reference wavelengths accepted (vacuum, nm): lasers from the near UV to the near IR.
+REFERENCE_WAVELENGTH_RANGE_NM = (200.0, 2000.0)
 
 
 class OpdKind(enum.StrEnum):

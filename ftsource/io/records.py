@@ -32,10 +32,12 @@ from typing import Any
 
 import numpy as np
 
+from ftsource._checks import quote
 from ftsource.errors import FtsourceError, OptionError, OutputError, RecordError
 
 __all__ = [
     "Record",
+    "atomic_write",
     "read_record",
     "parse_column_map",
     "write_record_csv",
@@ -70,14 +72,6 @@ KNOWN_KEYS = (
     "air_humidity", "description",
 )
 _METADATA_LINE = re.compile(r"^#\s*(?P<key>[^=#]+?)\s*=\s*(?P<value>.*?)\s*$")
-
-
-def _show(value: object, limit: int = 60) -> str:
-    """Quote a value for a one-line message, replacing control characters."""
-    s = "".join(ch if ch.isprintable() else "?" for ch in str(value))
-    if len(s) > limit:
-        s = s[: limit - 3] + "..."
-    return repr(s)
 
 
 def _norm_key(key: str) -> str:
@@ -138,24 +132,24 @@ class Record:
         n = None
         for raw_name, values in self.columns.items():
             if not isinstance(raw_name, str) or not raw_name.strip():
-                raise RecordError(f"{where}: column name {_show(raw_name)} is not a name")
+                raise RecordError(f"{where}: column name {quote(raw_name)} is not a name")
             name = raw_name.strip().lower()
             if name in cols:
                 raise RecordError(
-                    f"{where}: column {_show(name)} appears twice (names ignore case)"
+                    f"{where}: column {quote(name)} appears twice (names ignore case)"
                 )
             arr = _as_readonly_float(values, where=where, name=name)
             if n is None:
                 n = arr.shape[0]
             elif arr.shape[0] != n:
                 raise RecordError(
-                    f"{where}: column {_show(name)} has {arr.shape[0]} samples but "
-                    f"{_show(next(iter(cols)))} has {n}; all columns need the same length"
+                    f"{where}: column {quote(name)} has {arr.shape[0]} samples but "
+                    f"{quote(next(iter(cols)))} has {n}; all columns need the same length"
                 )
             bad = np.flatnonzero(~np.isfinite(arr))
             if bad.size:
                 raise RecordError(
-                    f"{where}: column {_show(name)} holds a non-finite value "
+                    f"{where}: column {quote(name)} holds a non-finite value "
                     f"({arr[bad[0]]}) at sample {bad[0]}; remove or fill the gap"
                 )
             cols[name] = arr
@@ -194,7 +188,7 @@ class Record:
         meta = {}
         for k, v in dict(self.metadata or {}).items():
             if not isinstance(k, str) or not isinstance(v, str):
-                raise RecordError(f"{where}: metadata must map text to text, got {_show(k)}")
+                raise RecordError(f"{where}: metadata must map text to text, got {quote(k)}")
             meta[_norm_key(k)] = v
         object.__setattr__(self, "metadata", MappingProxyType(meta))
 
@@ -211,7 +205,7 @@ class Record:
         key = name.strip().lower()
         if key not in self.columns:
             raise RecordError(
-                f"{self.path}: has no column {_show(name)} (columns: {', '.join(self.columns)})"
+                f"{self.path}: has no column {quote(name)} (columns: {', '.join(self.columns)})"
             )
         return self.columns[key]
 
@@ -319,15 +313,15 @@ def _as_readonly_float(values: Any, *, where: str, name: str) -> np.ndarray:
         try:
             src = np.asarray(values)
         except Exception:
-            raise RecordError(f"{where}: column {_show(name)} is not an array of numbers") from None
+            raise RecordError(f"{where}: column {quote(name)} is not an array of numbers") from None
         if src.dtype.kind not in "biuf":
             raise RecordError(
-                f"{where}: column {_show(name)} holds {src.dtype} values; numbers are needed"
+                f"{where}: column {quote(name)} holds {src.dtype} values; numbers are needed"
             )
         arr = np.array(src, dtype=np.float64, copy=True)
     if arr.ndim != 1:
         raise RecordError(
-            f"{where}: column {_show(name)} has shape {arr.shape}; each column must be 1-D"
+            f"{where}: column {quote(name)} has shape {arr.shape}; each column must be 1-D"
         )
     if arr.flags.writeable:
         arr.flags.writeable = False
@@ -357,7 +351,7 @@ def _check_rate(rate: Any, *, where: str, name: str) -> float:
     try:
         value = float(rate)
     except (TypeError, ValueError):
-        raise RecordError(f"{where}: {name} {_show(rate)} is not a number of Hz") from None
+        raise RecordError(f"{where}: {name} {quote(rate)} is not a number of Hz") from None
     if not math.isfinite(value) or value <= 0:
         raise RecordError(
             f"{where}: {name} {value!r} Hz is not allowed; a sample rate is finite and positive"
@@ -372,7 +366,7 @@ def _position_scale(unit_text: str, *, where: str) -> float:
         q = parse_quantity(f"1 {unit_text}", physical_type="length", name="position_unit")
     except OptionError:
         raise RecordError(
-            f"{where}: metadata position_unit = {_show(unit_text)} is not a length unit; "
+            f"{where}: metadata position_unit = {quote(unit_text)} is not a length unit; "
             "use e.g. 'm', 'mm' or 'um'"
         ) from None
     return float(q.to_value("m"))
@@ -420,13 +414,13 @@ def parse_column_map(text: str | Mapping[str, str], *, name: str = "--columns") 
                 continue
             if part.count("=") != 1:
                 raise OptionError(
-                    f"{name}: {_show(part.strip())} is not 'name=column'; "
+                    f"{name}: {quote(part.strip())} is not 'name=column'; "
                     "write e.g. 'signal=PD1,ref=PD2'"
                 )
             k, v = part.split("=")
             items.append((k, v))
     else:
-        raise OptionError(f"{name}: {_show(text)} is not a column mapping such as 'signal=PD1'")
+        raise OptionError(f"{name}: {quote(text)} is not a column mapping such as 'signal=PD1'")
     if not items:
         raise OptionError(f"{name}: the mapping is empty; write e.g. 'signal=PD1,ref=PD2'")
     out: dict[str, str] = {}
@@ -436,7 +430,7 @@ def parse_column_map(text: str | Mapping[str, str], *, name: str = "--columns") 
         source = v.strip()
         if target not in COLUMN_NAMES:
             raise OptionError(
-                f"{name}: {_show(k.strip())} is not a column name; "
+                f"{name}: {quote(k.strip())} is not a column name; "
                 f"allowed: {', '.join(COLUMN_NAMES)}"
             )
         if not source:
@@ -446,7 +440,7 @@ def parse_column_map(text: str | Mapping[str, str], *, name: str = "--columns") 
         skey = _source_key(source)
         if skey in sources:
             raise OptionError(
-                f"{name}: column {_show(source)} is mapped to both {sources[skey]} and {target}"
+                f"{name}: column {quote(source)} is mapped to both {sources[skey]} and {target}"
             )
         sources[skey] = target
         out[target] = source
@@ -490,7 +484,7 @@ def _apply_map(
                 )
         else:
             raise OptionError(
-                f"--columns: {target}={source}: {where} has no column {_show(source)}; "
+                f"--columns: {target}={source}: {where} has no column {quote(source)}; "
                 f"available: {', '.join(names)}"
             )
         renamed[idx] = target
@@ -555,7 +549,7 @@ def read_record(
     """
     where = os.fspath(path) if isinstance(path, (str, os.PathLike)) else None
     if not isinstance(where, str):
-        raise RecordError(f"record path {_show(path)} is not a file name")
+        raise RecordError(f"record path {quote(path)} is not a file name")
     if not where.strip():
         raise RecordError("the record file name is empty")
     mapping = parse_column_map(columns) if columns is not None else None
@@ -567,7 +561,7 @@ def read_record(
     ext = os.path.splitext(where)[1].lower()
     if ext not in TEXT_EXTENSIONS + (".npz", ".wav"):
         raise RecordError(
-            f"{where}: the extension {_show(ext or '(none)')} is not a record form; use "
+            f"{where}: the extension {quote(ext or '(none)')} is not a record form; use "
             f"{', '.join(TEXT_EXTENSIONS)}, .npz or .wav"
         )
     try:
@@ -603,7 +597,7 @@ def _rate_argument(sample_rate: Any) -> float:
         value = to_float(sample_rate, "Hz", name="sample_rate")
     if not math.isfinite(value) or value <= 0:
         raise OptionError(
-            f"sample_rate: {_show(sample_rate)} is not allowed; a sample rate is finite and "
+            f"sample_rate: {quote(sample_rate)} is not allowed; a sample rate is finite and "
             "positive, e.g. '48 kHz'"
         )
     return value
@@ -627,7 +621,7 @@ def _metadata_rate(meta: dict[str, str], where: str) -> float | None:
     value = float(q.to_value("Hz"))
     if value <= 0:
         raise RecordError(
-            f"{where}: metadata sample_rate = {_show(meta['sample_rate'])} is not allowed; "
+            f"{where}: metadata sample_rate = {quote(meta['sample_rate'])} is not allowed; "
             "a sample rate is positive"
         )
     return value
@@ -645,7 +639,7 @@ def _finish(
             i = int(bad[0])
             at = f"line {line_of(i)}" if line_of else f"sample {i}"
             raise RecordError(
-                f"{where}: column {_show(name)} holds a non-finite value ({arr[i]}) at {at}; "
+                f"{where}: column {quote(name)} holds a non-finite value ({arr[i]}) at {at}; "
                 "remove or fill the gap"
             )
     n = next(iter(cols.values())).shape[0] if cols else 0
@@ -763,11 +757,11 @@ def _read_text(where: str, head: bytes, mapping, rate_arg) -> Record:
         if not nm or not nm.isprintable() or len(nm) > 64:
             raise RecordError(
                 f"{where}: line {header_lineno}: column {i} has no usable name "
-                f"({_show(nm)}); name every column in the header"
+                f"({quote(nm)}); name every column in the header"
             )
         if nm.lower() in seen:
             raise RecordError(
-                f"{where}: line {header_lineno}: column name {_show(nm)} appears twice "
+                f"{where}: line {header_lineno}: column name {quote(nm)} appears twice "
                 "(names ignore case)"
             )
         seen[nm.lower()] = i
@@ -860,14 +854,14 @@ class _TextData:
                 )
             for j, cell in enumerate(cells):
                 if not _is_number_text(cell):
-                    what = "is empty" if not cell else f"holds {_show(cell, 30)}, not a number"
+                    what = "is empty" if not cell else f"holds {quote(cell, 30)}, not a number"
                     hint = (
                         "; use '.' as the decimal mark"
                         if re.fullmatch(r"[+-]?\d+,\d+", cell) else ""
                     )
                     raise RecordError(
                         f"{self.where}: line {lineno}: the cell in column "
-                        f"{_show(self.names[j])} {what}{hint}"
+                        f"{quote(self.names[j])} {what}{hint}"
                     )
                 values.append(float(cell))
         return np.array(values, dtype=np.float64).reshape(-1, ncol)
@@ -925,7 +919,7 @@ def _read_npz(where: str, head: bytes, mapping, rate_arg) -> Record:
     seen = set()
     for nm in names:
         if nm.strip().lower() in seen:
-            raise RecordError(f"{where}: column name {_show(nm)} appears twice (names ignore case)")
+            raise RecordError(f"{where}: column name {quote(nm)} appears twice (names ignore case)")
         seen.add(nm.strip().lower())
     cols = _apply_map(names, arrays, mapping, where=where, allow_index=False)
     header_rate = _metadata_rate(meta, where)
@@ -974,13 +968,13 @@ def _npz_members(
         except ValueError as exc:
             if "pickle" in str(exc).lower() or "object" in str(exc).lower():
                 raise RecordError(
-                    f"{where}: refused: holds pickled objects (array {_show(key)}); save "
+                    f"{where}: refused: holds pickled objects (array {quote(key)}); save "
                     "plain numeric arrays"
                 ) from None
             raise
         if not isinstance(arr, np.ndarray):
             raise RecordError(
-                f"{where}: member {_show(key)} is not a NumPy array; an .npz record holds "
+                f"{where}: member {quote(key)} is not a NumPy array; an .npz record holds "
                 "only .npy arrays"
             )
         if key.lower() == "metadata":
@@ -988,12 +982,12 @@ def _npz_members(
             continue
         if arr.dtype.kind not in "biuf":
             raise RecordError(
-                f"{where}: array {_show(key)} holds {arr.dtype} values; columns must be "
+                f"{where}: array {quote(key)} holds {arr.dtype} values; columns must be "
                 "numbers (real integers or floats)"
             )
         if arr.ndim != 1:
             raise RecordError(
-                f"{where}: array {_show(key)} has shape {arr.shape}; each column must "
+                f"{where}: array {quote(key)} has shape {arr.shape}; each column must "
                 "be a 1-D array"
             )
         names.append(key)
@@ -1016,7 +1010,7 @@ def _npz_metadata(arr: np.ndarray, where: str) -> dict[str, str]:
         key, eq, value = text.partition("=")
         if not eq or not _KEY.match(key.strip()):
             raise RecordError(
-                f"{where}: metadata entry {_show(text)} is not 'key = value'"
+                f"{where}: metadata entry {quote(text)} is not 'key = value'"
             )
         k = _norm_key(key)
         value = value.strip()
@@ -1146,7 +1140,7 @@ def _columns_of(record_like: Record | Mapping[str, Any]) -> dict[str, np.ndarray
         name = str(k).strip().lower()
         arr = np.asarray(v, dtype=np.float64)
         if arr.ndim != 1:
-            raise OptionError(f"columns: {_show(name)} has shape {arr.shape}; columns are 1-D")
+            raise OptionError(f"columns: {quote(name)} has shape {arr.shape}; columns are 1-D")
         out[name] = arr
     if len({a.shape[0] for a in out.values()}) != 1:
         raise OptionError("columns: all columns need the same length")
@@ -1167,7 +1161,7 @@ def _metadata_for(
     for k, v in meta.items():
         if not _KEY.match(k) or "\n" in v or "\r" in v:
             raise OptionError(
-                f"metadata: {_show(k)} = {_show(v)} cannot be written; keys are names and "
+                f"metadata: {quote(k)} = {quote(v)} cannot be written; keys are names and "
                 "values are single lines"
             )
     for k in ("wav_channels", "wav_sample_format"):
@@ -1184,13 +1178,13 @@ def _check_rate_option(rate: Any) -> float:
     try:
         value = float(rate)
     except (TypeError, ValueError):
-        raise OptionError(f"sample_rate_hz: {_show(rate)} is not a number of Hz") from None
+        raise OptionError(f"sample_rate_hz: {quote(rate)} is not a number of Hz") from None
     if not math.isfinite(value) or value <= 0:
         raise OptionError(f"sample_rate_hz: {value!r} is not allowed; it is finite and positive")
     return value
 
 
-def _atomic_write(path: str | os.PathLike, write, *, overwrite: bool) -> None:
+def atomic_write(path: str | os.PathLike, write, *, overwrite: bool) -> None:
     target = os.fspath(path)
     if os.path.isdir(target):
         raise OutputError(f"{target}: is a directory; give a file name")
@@ -1254,12 +1248,12 @@ def write_record_csv(
     .. [1] IEEE 754-2008, section 5.12.2: 17 significant decimal digits round-trip binary64.
     """
     if delimiter not in (",", "\t", ";", " "):
-        raise OptionError(f"delimiter: {_show(delimiter)} is not one of ',', tab, ';', ' '")
+        raise OptionError(f"delimiter: {quote(delimiter)} is not one of ',', tab, ';', ' '")
     cols = _columns_of(record_like)
     meta = _metadata_for(record_like, sample_rate_hz, metadata, cols)
     for name in cols:
         if not name or any(ch in name for ch in ",\t; #\"'") or not name.isprintable():
-            raise OptionError(f"columns: {_show(name)} cannot be a text column name")
+            raise OptionError(f"columns: {quote(name)} cannot be a text column name")
     table = np.column_stack(list(cols.values()))
 
     def write(fh):
@@ -1268,7 +1262,7 @@ def write_record_csv(
         fh.write("".join(lines).encode("utf-8"))
         np.savetxt(fh, table, fmt="%.17g", delimiter=delimiter)
 
-    _atomic_write(path, write, overwrite=overwrite)
+    atomic_write(path, write, overwrite=overwrite)
 
 
 def write_record_npz(
@@ -1313,7 +1307,7 @@ def write_record_npz(
     def write(fh):
         saver(fh, **arrays)
 
-    _atomic_write(path, write, overwrite=overwrite)
+    atomic_write(path, write, overwrite=overwrite)
 
 
 _WAV_BITS = (8, 16, 24, 32, "float", "float64")
@@ -1363,7 +1357,7 @@ def write_record_wav(
        (1991), chapter 3, "WAVE form": fmt, fact and data chunks.
     """
     if bits not in _WAV_BITS:
-        raise OptionError(f"bits: {_show(bits)} is not one of 8, 16, 24, 32, 'float', 'float64'")
+        raise OptionError(f"bits: {quote(bits)} is not one of 8, 16, 24, 32, 'float', 'float64'")
     if isinstance(columns, Record) and sample_rate_hz is None:
         sample_rate_hz = columns.sample_rate_hz
     if sample_rate_hz is None:
@@ -1414,7 +1408,7 @@ def write_record_wav(
         fh.write(payload)
         fh.write(pad)
 
-    _atomic_write(path, write, overwrite=overwrite)
+    atomic_write(path, write, overwrite=overwrite)
 
 
 def _wav_encode(data: np.ndarray, bits, clip: bool) -> tuple[bytes, int, int]:

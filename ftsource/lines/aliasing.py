@@ -34,6 +34,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from ftsource.lines.fitting import SEARCH_BAND_NM
+
 __all__ = [
     "SHORTEST_DETECTED_NM",
     "LineAliasing",
@@ -45,10 +47,11 @@ __all__ = [
     "alias_notes",
 ]
 
-#: Shortest wavelength assumed to reach the detector (nm). Common practice: air and ordinary
-#: optics absorb the vacuum ultraviolet below about 190–200 nm, and silicon photodiodes lose
-#: their response there; a source emitting only longer wavelengths is safer still.
-SHORTEST_DETECTED_NM = 200.0
+#: Shortest wavelength assumed to reach the detector (nm): the short end of the line search
+#: (:data:`ftsource.lines.fitting.SEARCH_BAND_NM`). Common practice: air and ordinary optics
+#: absorb the vacuum ultraviolet below about 190–200 nm, and silicon photodiodes lose their
+#: response there; a source emitting only longer wavelengths is safer still.
+SHORTEST_DETECTED_NM = SEARCH_BAND_NM[0]
 
 VERDICTS = ("not at risk", "ruled out", "alias", "cannot be excluded")
 

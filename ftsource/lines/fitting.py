@@ -28,6 +28,7 @@ import numpy as np
 from ftsource.spectrum.spectrum import Spectrum
 
 __all__ = [
+    "SEARCH_BAND_NM",
     "LineFit",
     "fit_line",
     "find_lines",
@@ -42,6 +43,10 @@ __all__ = [
     "DETECTION_SNR",
 ]
 
+#: Lines are searched for between these vacuum wavelengths (nm) unless the sampling limits
+#: the short end further: below 200 nm air and ordinary optics absorb, and silicon and InGaAs
+#: detectors see nothing beyond 3.3 µm (common practice).
+SEARCH_BAND_NM = (200.0, 3300.0)
 #: A profile (Gaussian/Lorentzian/Voigt) is claimed only for lines at least this many
 #: resolution elements wide.
 MIN_ELEMENTS_FOR_PROFILE = 5.0

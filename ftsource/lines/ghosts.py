@@ -59,7 +59,12 @@ from collections.abc import Sequence
 
 import numpy as np
 
-__all__ = ["MAX_INTERMOD_ORDER", "IN_BAND_MARGIN", "GHOST_FLAGS", "flag_ghosts"]
+__all__ = [
+    "MAX_INTERMOD_ORDER",
+    "IN_BAND_MARGIN",
+    "GHOST_FLAGS",
+    "flag_ghosts",
+]
 
 #: Highest order m + n of the intermodulation products searched.
 MAX_INTERMOD_ORDER = 4
@@ -265,3 +270,4 @@ def _in_band_product(s_k, a_k, s_i, s_j, a_i, a_j, m, n, coef, sources) -> bool:
         return True
     # a Gaussian envelope has a_k·a_j^n / a_i^m = exp(-α·m·n·Δ²): near 1 for a real comb
     return coef == 1 and a_k * a_j**n * IN_BAND_MARGIN <= a_i**m
+

@@ -186,11 +186,15 @@ def air_range_notes(source_lines, options) -> tuple[str, ...]:
     """
     if options.medium != "air" or not source_lines:
         return ()
-    from ftsource.physics.air import EDLEN_VERIFIED_RANGE_NM, WAVELENGTH_RANGE_NM
+    from ftsource.physics.air import (
+        EDLEN_VERIFIED_RANGE_NM,
+        STANDARD_AIR_RANGE_NM,
+        WAVELENGTH_RANGE_NM,
+        standard_air_index,
+    )
 
-    def n_std(wl):  # Morton 2000, eq. 8 (standard air)
-        s2 = (1e3 / float(np.clip(wl, 200.0, 2000.0))) ** 2
-        return 1.0 + 8.34254e-5 + 2.406147e-2 / (130.0 - s2) + 1.5998e-4 / (38.9 - s2)
+    def n_std(wl):  # Morton 2000, eq. 8 (standard air), within its range
+        return float(standard_air_index(float(np.clip(wl, *STANDARD_AIR_RANGE_NM))))
 
     notes = []
     lo, hi = WAVELENGTH_RANGE_NM
@@ -201,7 +205,8 @@ def air_range_notes(source_lines, options) -> tuple[str, ...]:
         worst = max(out, key=lambda w: abs(w - np.clip(w, lo, hi)))
         edge = float(np.clip(worst, lo, hi))
         size = abs(n_std(worst) / n_std(edge) - 1) * 1e6
-        bound = "at least " if not 200.0 <= worst <= 2000.0 else "about "
+        s_lo, s_hi = STANDARD_AIR_RANGE_NM
+        bound = "about " if s_lo <= worst <= s_hi else "at least "
         shown = ", ".join(f"{w:.2f}" for w in out[:5]) + (
             f" and {len(out) - 5} more" if len(out) > 5 else "")
         notes.append(

@@ -29,11 +29,12 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from ftsource._arrays import finite_pair
+from ftsource._checks import finite_pair
 from ftsource.errors import AnalysisError, OptionError, RecordError
 
 __all__ = [
     "GOODMAN_DEFINITION",
+    "analytic_envelope",
     "CoherenceEstimate",
     "coherence_from_spectrum",
     "coherence_from_visibility",
@@ -278,7 +279,7 @@ def coherence_from_spectrum(
 # visibility route
 
 
-def _envelope(y: np.ndarray) -> tuple[np.ndarray, int]:
+def analytic_envelope(y: np.ndarray) -> tuple[np.ndarray, int]:
     """|analytic signal| of y − mean, and the number of end samples not to trust.
 
     The record is extended by its mirror image (even extension, period 2n − 2) before the
@@ -416,7 +417,7 @@ def coherence_from_visibility(
                 f"zpd_x_cm must lie inside the record [{x[0]:.6g}, {x[-1]:.6g}] cm, got "
                 f"{zpd_x_cm!r}"
             )
-    env, margin = _envelope(yy)
+    env, margin = analytic_envelope(yy)
     v0 = float(np.interp(x0, x, env))
     if not v0 > 0:
         return None
@@ -579,7 +580,7 @@ def line_coherence(
 def envelope_decay(y: np.ndarray, *, end_fraction: float = 0.1) -> float:
     """How much the fringe envelope changes across a sweep: the ratio of the larger to the
     smaller mean of ``|analytic signal|`` over its first and last ``end_fraction`` (inside the
-    margin :func:`_envelope` does not trust).
+    margin :func:`analytic_envelope` does not trust).
 
     A monochromatic line has a flat envelope (ratio 1 up to noise). In a sweep that does not
     hold ZPD, a ratio above :data:`ENVELOPE_DECAY_LIMIT` means the visibility ``|γ(x)|`` falls
@@ -609,7 +610,7 @@ def envelope_decay(y: np.ndarray, *, end_fraction: float = 0.1) -> float:
         raise RecordError(f"an interferogram needs at least 64 finite samples here, got {yy.size}")
     if not (0.0 < end_fraction < 0.5):
         raise OptionError(f"end_fraction must lie in (0, 0.5), got {end_fraction!r}")
-    env, margin = _envelope(yy)
+    env, margin = analytic_envelope(yy)
     core = env[margin: env.size - margin] if env.size > 4 * margin + 8 else env
     k = max(int(end_fraction * core.size), 1)
     a, b = float(np.mean(core[:k])), float(np.mean(core[-k:]))

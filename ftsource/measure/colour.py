@@ -27,6 +27,7 @@ import math
 
 import numpy as np
 
+from ftsource._checks import finite_pair
 from ftsource._data import data_path
 from ftsource.errors import FtsourceError, OptionError
 
@@ -129,16 +130,10 @@ def _spectrum_arrays(wavelength_nm, spectral_density_per_nm) -> tuple[np.ndarray
     dens = spectral_density_per_nm
     if hasattr(dens, "unit") and hasattr(dens, "value"):
         dens = dens.value  # only the shape matters: a constant unit factor cancels in x, y
-    dens = np.asarray(dens, dtype=float)
-    if lam.ndim != 1 or dens.ndim != 1 or lam.shape != dens.shape:
-        raise OptionError(
-            "wavelength_nm and spectral_density_per_nm must be 1-D arrays of the same length, "
-            f"got shapes {lam.shape} and {dens.shape}"
-        )
+    lam, dens = finite_pair(lam, dens, "wavelength_nm", "spectral_density_per_nm",
+                            error=OptionError)
     if lam.size < 2:
         raise OptionError(f"a spectrum needs at least 2 samples, got {lam.size}")
-    if not (np.all(np.isfinite(lam)) and np.all(np.isfinite(dens))):
-        raise OptionError("wavelength_nm and spectral_density_per_nm must be finite (no NaN/inf)")
     if np.any(lam <= 0):
         raise OptionError(f"wavelength_nm must be positive, got minimum {lam.min()!r} nm")
     step = np.diff(lam)

@@ -135,7 +135,9 @@ class LineReport:
 
 
 def clipped_fraction(signal) -> float:
-    """Fraction of samples sitting at the record's extreme values (a flat top or bottom)."""
+    """Fraction of samples sitting at the record's extreme values (a flat top or bottom): a
+    clipped detector, whose harmonics and intermodulation products
+    :func:`ftsource.lines.ghosts.flag_ghosts` looks for."""
     s = np.asarray(signal)
     hi, lo = s.max(), s.min()
     return float(max(np.mean(s == hi), np.mean(s == lo))) if s.size else 0.0

@@ -20,9 +20,9 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from ftsource._arrays import finite_pair
+from ftsource._checks import finite_pair
 from ftsource.errors import AnalysisError, OptionError, RecordError
-from ftsource.measure.coherence import C_CM_PER_S, _envelope
+from ftsource.measure.coherence import C_CM_PER_S, analytic_envelope
 
 #: A comb may leave out kept lines carrying at most this fraction of their summed intensity.
 OFF_COMB_FRACTION = 0.1
@@ -462,7 +462,7 @@ def check_revivals(
         raise RecordError(f"an interferogram needs at least 16 samples here, got {x.size}")
     if step < 0:
         x, yy = x[::-1], yy[::-1]
-    env, margin = _envelope(yy)
+    env, margin = analytic_envelope(yy)
     if zpd_x_cm is None:
         x0 = float(x[int(np.argmax(env))])
     else:

@@ -49,6 +49,7 @@ from typing import NamedTuple
 
 import numpy as np
 
+from ftsource._checks import finite_float
 from ftsource.errors import OptionError
 from ftsource.interferogram.scale import CALIBRATED_QUANTITIES
 
@@ -75,19 +76,6 @@ DOF_AS_INFINITE = 1e6
 #: fringes, a position encoder, or an assumed constant mirror speed (one list, in
 #: :mod:`ftsource.interferogram.scale`).
 OPD_SCALES = CALIBRATED_QUANTITIES
-
-
-def _finite(name: str, value, *, minimum: float | None = None, strict: bool = False) -> float:
-    try:
-        v = float(value)
-    except (TypeError, ValueError):
-        raise OptionError(f"{name} must be a number, got {value!r}") from None
-    if not math.isfinite(v):
-        raise OptionError(f"{name} = {v!r} is not allowed; it must be finite")
-    if minimum is not None and (v < minimum or (strict and v == minimum)):
-        rel = ">" if strict else "≥"
-        raise OptionError(f"{name} = {v:g} is not allowed; it must be {rel} {minimum:g}")
-    return v
 
 
 def _dof(name: str, value) -> float:
@@ -137,13 +125,13 @@ class Component:
     sensitivity: float = 1.0
 
     def __post_init__(self):
-        object.__setattr__(self, "u", _finite(f"u of {self.name!r}", self.u, minimum=0.0))
+        object.__setattr__(self, "u", finite_float(f"u of {self.name!r}", self.u, minimum=0.0))
         object.__setattr__(self, "dof", _dof(f"dof of {self.name!r}", self.dof))
         if self.kind not in _KINDS:
             raise OptionError(
                 f"kind of {self.name!r} = {self.kind!r} is not allowed; use 'A' or 'B'"
             )
-        c = _finite(f"sensitivity of {self.name!r}", self.sensitivity)
+        c = finite_float(f"sensitivity of {self.name!r}", self.sensitivity)
         if c == 0:
             raise OptionError(
                 f"sensitivity of {self.name!r} = 0 is not allowed; leave out a component "
@@ -164,8 +152,8 @@ class Component:
     ) -> Component:
         """Build a component from the input's own standard uncertainty ``u(x)`` and
         ``c = ∂y/∂x``: the contribution is ``|c|·u(x)`` (GUM 5.1.3)."""
-        ux = _finite(f"u_input of {name!r}", u_input, minimum=0.0)
-        c = _finite(f"sensitivity of {name!r}", sensitivity)
+        ux = finite_float(f"u_input of {name!r}", u_input, minimum=0.0)
+        c = finite_float(f"sensitivity of {name!r}", sensitivity)
         return cls(name, abs(c) * ux, dof, kind, note, c)
 
     @property
@@ -188,7 +176,7 @@ def rectangular(half_width: float) -> float:
     ----------
     .. [1] JCGM 100:2008, 4.3.7 and Equation (7).
     """
-    a = abs(_finite("half_width", half_width))
+    a = abs(finite_float("half_width", half_width))
     return a / math.sqrt(3.0)
 
 
@@ -212,7 +200,7 @@ def one_sided_rectangular(a: float) -> tuple[float, float]:
     ----------
     .. [1] JCGM 100:2008, 4.3.7 and 4.3.8 (asymmetric bounds: the estimate is the midpoint).
     """
-    a = _finite("a", a)
+    a = finite_float("a", a)
     return a / 2.0, abs(a) / math.sqrt(12.0)
 
 
@@ -277,7 +265,7 @@ class Budget:
             dup = sorted({n for n in names if names.count(n) > 1})
             raise OptionError(f"component names must be unique; repeated: {dup}")
         object.__setattr__(self, "components", comps)
-        p = _finite("coverage", self.coverage)
+        p = finite_float("coverage", self.coverage)
         if not 0.0 < p < 1.0:
             raise OptionError(f"coverage = {p:g} is not allowed; it must lie in (0, 1)")
         object.__setattr__(self, "coverage", p)
@@ -294,7 +282,7 @@ class Budget:
                     raise OptionError(f"correlation names unknown component {n!r}; have {names}")
             if a == b:
                 raise OptionError(f"correlation of {a!r} with itself is not allowed")
-            r = _finite(f"correlation r({a}, {b})", r)
+            r = finite_float(f"correlation r({a}, {b})", r)
             if not -1.0 <= r <= 1.0:
                 raise OptionError(f"correlation r({a}, {b}) = {r:g} must lie in [-1, 1]")
             corr.append((a, b, r))
@@ -463,12 +451,12 @@ def wavelength_budget(
     ----------
     .. [1] JCGM 100:2008, 4.3.7–4.3.9 (Type B from bounds), 5.1 and G.6.
     """
-    lam = _finite("centre_nm", centre_nm, minimum=0.0, strict=True)
-    u_fit = _finite("u_fit_nm", u_fit_nm, minimum=0.0)
+    lam = finite_float("centre_nm", centre_nm, minimum=0.0, strict=True)
+    u_fit = finite_float("u_fit_nm", u_fit_nm, minimum=0.0)
     nu_fit = _dof("dof_fit", dof_fit)
-    ref = _finite("reference_rel_u", reference_rel_u, minimum=0.0)
-    air = _finite("air_ratio_rel_u", air_ratio_rel_u, minimum=0.0)
-    a = _finite("alignment_allowance_rel", alignment_allowance_rel)
+    ref = finite_float("reference_rel_u", reference_rel_u, minimum=0.0)
+    air = finite_float("air_ratio_rel_u", air_ratio_rel_u, minimum=0.0)
+    a = finite_float("alignment_allowance_rel", alignment_allowance_rel)
     if abs(a) >= 0.1:
         raise OptionError(
             f"alignment_allowance_rel = {a:g} is not allowed; it is a small relative allowance "
@@ -599,7 +587,7 @@ def sweep_consistency(values, uncertainties, *, significance: float = 0.01) -> C
     )
     if problem:
         raise OptionError(f"sweep_consistency: {problem}")
-    alpha = _finite("significance", significance)
+    alpha = finite_float("significance", significance)
     if not 0.0 < alpha < 1.0:
         raise OptionError(f"significance = {alpha:g} is not allowed; it must lie in (0, 1)")
     from scipy.stats import chi2 as _chi2

@@ -53,6 +53,7 @@ from types import MappingProxyType
 
 import numpy as np
 
+from ftsource._checks import float_array
 from ftsource.errors import OptionError
 
 __all__ = [
@@ -117,20 +118,13 @@ _RANGES = {
     "humidity_percent": (0.0, 100.0, "%"),
     "co2_ppm": (0.0, 2000.0, "ppm"),
 }
-_STANDARD_AIR_RANGE_NM = (200.0, 2000.0)
-
-
-def _as_float_array(name, value):
-    try:
-        return np.asarray(value, dtype=float)
-    except (TypeError, ValueError):
-        raise OptionError(f"{name} must be a number or an array of them, got {value!r}") from None
+STANDARD_AIR_RANGE_NM = (200.0, 2000.0)
 
 
 def _checked(name, value, lo=None, hi=None, unit=None, what="the refractive-index equations"):
     if lo is None:
         lo, hi, unit = _RANGES[name]
-    a = _as_float_array(name, value)
+    a = float_array(name, value)
     bad = ~((a >= lo) & (a <= hi))
     if np.any(bad):
         v = a[bad].flat[0] if a.ndim else float(a)
@@ -608,7 +602,7 @@ def vacuum_to_air_nm(wl_vac_nm, conditions=None, model="ciddor"):
     ----------
     .. [1] Stone & Zimmerman, NIST Refractive Index of Air Calculator, eq. 1.
     """
-    wl = _as_float_array("wl_vac_nm", wl_vac_nm)
+    wl = float_array("wl_vac_nm", wl_vac_nm)
     return _out(wl / air_index(wl, conditions, model=model))
 
 
@@ -640,12 +634,20 @@ def air_to_vacuum_nm(wl_air_nm, conditions=None, model="ciddor"):
     ----------
     .. [1] Stone & Zimmerman, NIST Refractive Index of Air Calculator, eq. 1.
     """
-    wl_air = _as_float_array("wl_air_nm", wl_air_nm)
+    wl_air = float_array("wl_air_nm", wl_air_nm)
     c = _conditions(conditions)
     return _out(_invert(wl_air, lambda wl: air_index(wl, c, model=model)))
 
 
-def _standard_air_index(wl_vac_nm):
+def standard_air_index(wl_vac_nm):
+    """Refractive index of IAU standard air (Morton 2000, eq. 8; see
+    :func:`vacuum_to_standard_air_nm`) at vacuum wavelength(s) in nm, unchecked: the one
+    place the formula is written. It holds for :data:`STANDARD_AIR_RANGE_NM`.
+
+    References
+    ----------
+    .. [1] D. C. Morton, Astrophys. J. Suppl. 130, 403-436 (2000), eq. 8.
+    """
     s = (1.0e3 / wl_vac_nm) ** 2
     return 1.0 + 8.34254e-5 + 2.406147e-2 / (130.0 - s) + 1.5998e-4 / (38.9 - s)
 
@@ -674,9 +676,9 @@ def vacuum_to_standard_air_nm(wl_vac_nm):
     .. [1] D. C. Morton, Astrophys. J. Suppl. 130, 403-436 (2000), eq. 8.
     .. [2] K. P. Birch and M. J. Downs, Metrologia 31, 315-316 (1994).
     """
-    lo, hi = _STANDARD_AIR_RANGE_NM
+    lo, hi = STANDARD_AIR_RANGE_NM
     wl = _checked("wl_vac_nm", wl_vac_nm, lo, hi, "nm", "the standard-air formula")
-    return _out(wl / _standard_air_index(wl))
+    return _out(wl / standard_air_index(wl))
 
 
 def standard_air_to_vacuum_nm(wl_air_nm):
@@ -696,9 +698,9 @@ def standard_air_to_vacuum_nm(wl_air_nm):
     ----------
     .. [1] D. C. Morton, Astrophys. J. Suppl. 130, 403-436 (2000), eq. 8.
     """
-    lo, hi = _STANDARD_AIR_RANGE_NM
+    lo, hi = STANDARD_AIR_RANGE_NM
     wl = _checked("wl_air_nm", wl_air_nm, lo, hi, "nm", "the standard-air formula")
-    return _out(_invert(wl, _standard_air_index))
+    return _out(_invert(wl, standard_air_index))
 
 
 def correct_dispersion(sigma_apparent_per_cm, reference_wavelength_vac_nm, conditions,

@@ -24,10 +24,12 @@ import math
 
 import numpy as np
 
+from ftsource._checks import positive_array
 from ftsource.errors import OptionError
 from ftsource.physics.air import air_index
 
 __all__ = [
+    "OPD_PER_MIRROR_TRAVEL",
     "field_solid_angle",
     "jacquinot_shift",
     "field_of_view_correction",
@@ -35,22 +37,14 @@ __all__ = [
     "encoder_opd_cm",
 ]
 
+#: A Michelson's optical path difference per unit of mirror travel: the beam crosses the
+#: moving arm twice (common practice).
+OPD_PER_MIRROR_TRAVEL = 2.0
 
-def _positive(name, value, allow_zero=False):
-    try:
-        a = np.asarray(value, dtype=float)
-    except (TypeError, ValueError):
-        raise OptionError(f"{name} must be a number or an array of them, got {value!r}") from None
-    ok = (a >= 0) if allow_zero else (a > 0)
-    if not np.all(ok & np.isfinite(a)):
-        v = a[~(ok & np.isfinite(a))].flat[0] if a.ndim else float(a)
-        need = "finite and ≥ 0" if allow_zero else "finite and > 0"
-        raise OptionError(f"{name} = {v:g} is not allowed; it must be {need}")
-    return a
 
 
 def _omega(omega_sr):
-    a = _positive("omega_sr", omega_sr, allow_zero=True)
+    a = positive_array("omega_sr", omega_sr, allow_zero=True)
     if np.any(a > 2 * math.pi):
         raise OptionError(
             f"omega_sr = {np.max(a):g} sr is not allowed; a circular field is at most a "
@@ -83,8 +77,8 @@ def field_solid_angle(aperture_diameter_m, focal_length_m):
     ----------
     .. [1] P. Jacquinot, J. Opt. Soc. Am. 44, 761-765 (1954).
     """
-    d = _positive("aperture_diameter_m", aperture_diameter_m)
-    f = _positive("focal_length_m", focal_length_m)
+    d = positive_array("aperture_diameter_m", aperture_diameter_m)
+    f = positive_array("focal_length_m", focal_length_m)
     theta = np.arctan(d / (2.0 * f))
     return _out(4.0 * math.pi * np.sin(theta / 2.0) ** 2)  # = 2π(1 − cos θ), no cancellation
 
@@ -111,7 +105,7 @@ def field_of_view_broadening(sigma_per_cm, omega_sr):
     .. [2] S. P. Davis, M. C. Abrams and J. W. Brault, Fourier Transform Spectrometry,
        Academic Press (2001) (from memory).
     """
-    return _out(_positive("sigma_per_cm", sigma_per_cm) * _omega(omega_sr) / (2.0 * math.pi))
+    return _out(positive_array("sigma_per_cm", sigma_per_cm) * _omega(omega_sr) / (2.0 * math.pi))
 
 
 def jacquinot_shift(sigma_per_cm, aperture_diameter_m, focal_length_m):
@@ -144,7 +138,7 @@ def jacquinot_shift(sigma_per_cm, aperture_diameter_m, focal_length_m):
        Academic Press (2001) (from memory).
     """
     omega = field_solid_angle(aperture_diameter_m, focal_length_m)
-    return _out(_positive("sigma_per_cm", sigma_per_cm) * omega / (4.0 * math.pi))
+    return _out(positive_array("sigma_per_cm", sigma_per_cm) * omega / (4.0 * math.pi))
 
 
 def field_of_view_correction(sigma_measured_per_cm, omega_sr):
@@ -166,7 +160,7 @@ def field_of_view_correction(sigma_measured_per_cm, omega_sr):
     ----------
     .. [1] P. Jacquinot, J. Opt. Soc. Am. 44, 761-765 (1954).
     """
-    sigma = _positive("sigma_measured_per_cm", sigma_measured_per_cm)
+    sigma = positive_array("sigma_measured_per_cm", sigma_measured_per_cm)
     return _out(sigma / (1.0 - _omega(omega_sr) / (4.0 * math.pi)))
 
 
@@ -209,4 +203,4 @@ def encoder_opd_cm(position_m, wavelength_vac_nm, conditions=None, *, model="cid
     if not np.all(np.isfinite(pos)):
         raise OptionError("position_m contains values that are not finite (NaN or inf)")
     n = 1.0 if conditions is None else air_index(wavelength_vac_nm, conditions, model=model)
-    return _out(2.0 * n * pos * 100.0)
+    return _out(OPD_PER_MIRROR_TRAVEL * n * pos * 100.0)

@@ -20,7 +20,9 @@ from pathlib import Path
 
 import numpy as np
 
+from ftsource._checks import one_line
 from ftsource.errors import OutputError
+from ftsource.lines.fitting import SEARCH_BAND_NM
 from ftsource.report.numbers import (
     format_significant,
     format_with_uncertainty,
@@ -67,11 +69,6 @@ def result_json(result) -> str:
     """
     text = json.dumps(result.to_dict(), indent=2, ensure_ascii=False, allow_nan=False) + "\n"
     return _escape_unsafe(text)
-
-
-def _printable(text) -> str:
-    """One line of text for the terminal: control and formatting characters become '?'."""
-    return "".join(ch if ch.isprintable() else "?" for ch in " ".join(str(text).split()))
 
 
 def _fmt(v, unit="", digits=6):
@@ -175,7 +172,7 @@ def format_summary(result) -> str:
     for w in result.warnings:
         out.append(f"warning: {w}")
     out.append(f"safety: {LASER_NOTICE}")
-    return "\n".join(_printable(line) for line in out)
+    return "\n".join(one_line(line) for line in out)
 
 
 def _spectrum_ecsv(result) -> bytes:
@@ -185,7 +182,8 @@ def _spectrum_ecsv(result) -> bytes:
 
     spec = result.spectrum
     sig = spec.sigma_per_cm
-    lo, hi = 1e7 / 3300.0, 1e7 / max(result.instrument.min_wavelength_nm or 200.0, 200.0)
+    short, long_ = SEARCH_BAND_NM
+    lo, hi = 1e7 / long_, 1e7 / max(result.instrument.min_wavelength_nm or short, short)
     m = (sig >= lo) & (sig <= hi)
     t = Table()
     t["wavenumber"] = sig[m]

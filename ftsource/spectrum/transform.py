@@ -115,11 +115,11 @@ class FFTPlanner:
         wisdom = self.export_wisdom()
         if wisdom is None:
             return
-        from ftsource.io.records import _atomic_write
+        from ftsource.io.records import atomic_write
 
         text = "\n".join([WISDOM_FORMAT] + [w.decode("ascii").replace("\n", "\\n")
                                              for w in wisdom]) + "\n"
-        _atomic_write(path, lambda fh: fh.write(text.encode("ascii")), overwrite=True)
+        atomic_write(path, lambda fh: fh.write(text.encode("ascii")), overwrite=True)
 
     @staticmethod
     def load_wisdom(path) -> tuple[bytes, ...]:

@@ -1,11 +1,16 @@
 """Calibrating a rig: from a record of a known source to a saved rig calibration.
 
+A workflow beside :func:`ftsource.analysis.analyze` (it runs one), above the stages; the
+calibration's own arithmetic and file are in :mod:`ftsource.calibrate.calibration`, the checks
+of the known line in :mod:`ftsource.calibrate.known`.
+
 The measured wavelength of every line scales with the OPD scale the analysis assumed (the
 reference laser's wavelength, an encoder's scale or an assumed mirror speed). A record of a
 line of known wavelength fixes that scale: :func:`calibrate_rig` analyses it with the scale's
-own uncertainty set to zero (it cancels, see :func:`ftsource.calibrate.calibration.calibrate_reference`)
-and returns the rig calibration, whose effective reference wavelength later analyses use
-(``AnalysisOptions(calibration=...)``), with its uncertainty carried into their budgets.
+own uncertainty set to zero (it cancels, see
+:func:`ftsource.calibrate.calibration.calibrate_reference`) and returns the rig calibration,
+whose effective reference wavelength later analyses use (``AnalysisOptions(calibration=...)``),
+with its uncertainty carried into their budgets.
 """
 
 from __future__ import annotations
