@@ -256,7 +256,7 @@ def parse_humidity(text: str | u.Quantity | Real, *, name: str = "humidity") -> 
     .. [1] Common practice: relative humidity is quoted in percent (WMO-No. 8, Guide to
        Instruments and Methods of Observation, ch. 4, from memory).
     """
-    shown = _show(text)
+    shown = quote(text)
     bare = (isinstance(text, Real) and not isinstance(text, bool)) or (
         isinstance(text, str) and not _has_unit(text)
     )

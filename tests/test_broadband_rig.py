@@ -220,11 +220,11 @@ def test_noisy_blue_led_integrals_stay_in_the_band(centre, fwhm, ref, seed):
     # rule, clipped noise far from the band moved y by +0.0014 and the dominant wavelength by
     # +0.6 nm (450/20 nm, seed 21).
     tr = truth(centre, fwhm)
-    s = measured(make_record(centre, fwhm, ref=ref, seed=seed, noise=0.015)).summary
+    s = measured(make_record(centre, fwhm, ref=ref, seed=seed, noise=0.015)).to_dict()["summary"]
     check_figures(s, tr)
     # the centroid's uncertainty includes the band-edge choice and still covers the error
     assert abs(s["centroid_wavelength_nm"] - tr["centroid"]) < 3 * s["u_centroid_wavelength_nm"]
-    s = measured(make_record(centre, fwhm, ref=ref, seed=seed, noise=0.03)).summary
+    s = measured(make_record(centre, fwhm, ref=ref, seed=seed, noise=0.03)).to_dict()["summary"]
     assert abs(s["centroid_wavelength_nm"] - tr["centroid"]) < 0.15
     assert s["chromaticity_xy"] == pytest.approx(list(tr["xy"]), abs=0.002)
     assert abs(s["dominant_wavelength_nm"] - tr["dominant"]) < 1.0
@@ -237,7 +237,7 @@ def test_coherence_length_of_a_broad_led_has_no_line_shape_bias(centre, fwhm, re
     # Part 3: the instrument line shape (25 cm⁻¹ here) shortened L_c by 0.1-0.45 %, many
     # times its u; after the correction the error is within 0.15 % and within 3 u
     tr = truth(centre, fwhm)
-    s = measured(make_record(centre, fwhm, ref=ref, seed=seed, noise=0.0005)).summary
+    s = measured(make_record(centre, fwhm, ref=ref, seed=seed, noise=0.0005)).to_dict()["summary"]
     err = s["coherence_length_mm"] / tr["coherence_mm"] - 1
     assert abs(err) < 0.0015
     assert abs(s["coherence_length_mm"] - tr["coherence_mm"]) < 3 * s["u_coherence_length_mm"]
