@@ -6,7 +6,8 @@ e.g. Goodman, *Statistical Optics*, ch. 5; γ(x) = exp(−(πgx)²/(4 ln 2)) for
 g and exp(−πl|x|) for a Lorentzian of FWHM l, closed forms of the Fourier transforms) plus
 white Gaussian noise from a seeded generator, transformed by
 ftsource.spectrum.spectrum.sweep_spectrum (the transform itself is tested against closed
-forms in tests/test_spectrum.py). No simulator is involved, so the truth (centre, width, area) is exact.
+forms in tests/test_spectrum.py). No simulator is involved, so the truth (centre, width,
+area) is exact.
 
 Other oracles: scipy.special.voigt_profile (a general library) for the Voigt width formula;
 check-values.md §1 (ILS widths) and §6 (Na D vacuum wavelengths, used as an invented Na D-like
