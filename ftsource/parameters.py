@@ -16,7 +16,7 @@ import re
 
 from ftsource._checks import quote
 
-__all__ = ["PARAMETERS", "option_fields", "cli_terms"]
+__all__ = ["PARAMETERS", "option_fields", "positive_value", "cli_terms"]
 
 #: Every keyword parameter of :func:`ftsource.analyze`, with what it is.
 PARAMETERS: dict[str, str] = {
@@ -28,7 +28,8 @@ PARAMETERS: dict[str, str] = {
     "medium": "'air' (default) or 'vacuum'",
     "air_temperature": "air temperature in the arms (temperature)",
     "air_pressure": "air pressure (pressure)",
-    "air_humidity": "relative humidity (ratio, e.g. '45 %')",
+    "air_humidity": "relative humidity (ratio, e.g. '45 %'; a bare number above 1 is "
+                    "percent, a fraction is written '0.45 fraction')",
     "air_co2": "CO2 mole fraction (ratio, e.g. '420 ppm')",
     "air_temperature_uncertainty": "standard uncertainty of the air temperature",
     "air_pressure_uncertainty": "standard uncertainty of the air pressure",
@@ -56,7 +57,7 @@ _EXAMPLE = {"nm": "'632.991nm'", "Hz": "'48kHz'", "m/s": "'0.5mm/s'", "m": "'25m
             "s": "'2s'", "cm": "'1mm'"}
 
 
-def _positive(value, unit, name):
+def positive_value(value, unit, name):
     """A plain float in ``unit`` from a quantity (text or Quantity), above zero."""
     from ftsource.errors import OptionError
     from ftsource.quantity import to_float
@@ -103,7 +104,7 @@ def _air(params):
     """The air conditions from ``air_*`` parameters, and which were given."""
     from ftsource.errors import OptionError
     from ftsource.physics.air import AirConditions
-    from ftsource.quantity import parse_quantity
+    from ftsource.quantity import parse_humidity, parse_quantity
 
     given = {k: params[f"air_{k}"] for k in _AIR if params.get(f"air_{k}") is not None}
     u_given = {k: params[f"air_{k}_uncertainty"] for k in _AIR
@@ -116,11 +117,16 @@ def _air(params):
                 "default); in vacuum there is no air to describe"
             )
         return None, (), ()
-    q = {k: parse_quantity(v, physical_type=_AIR_TYPES[k], name=f"air_{k}")
-         for k, v in given.items()}
+    def parse(value, k, name):
+        # a bare humidity above 1 is percent (ftsource.quantity.parse_humidity)
+        if k == "humidity":
+            return parse_humidity(value, name=name)
+        return parse_quantity(value, physical_type=_AIR_TYPES[k], name=name)
+
+    q = {k: parse(v, k, f"air_{k}") for k, v in given.items()}
     for k, v in u_given.items():
         name = f"air_{k}_uncertainty"
-        uq = parse_quantity(v, physical_type=_AIR_TYPES[k], name=name)
+        uq = parse(v, k, name)
         if not (float(uq.value) >= 0 and float(uq.value) < float("inf")):
             raise OptionError(f"{name}: {quote(v)} is not allowed; give a finite value ≥ 0")
         q[f"u_{k}"] = uq
@@ -168,7 +174,7 @@ def option_fields(**params) -> dict:
     air, air_given, air_u_given = _air(p)
     lam = None
     if p.get("reference_wavelength") is not None:
-        lam = _positive(p["reference_wavelength"], "nm", "reference_wavelength")
+        lam = positive_value(p["reference_wavelength"], "nm", "reference_wavelength")
     ref_u_ppm, ref_u_nm = (None, None) if p.get("reference_uncertainty") is None else \
         _reference_uncertainty(p["reference_uncertainty"])
     esu = None
@@ -181,7 +187,7 @@ def option_fields(**params) -> dict:
             )
 
     def opt(key, unit):
-        return None if p.get(key) is None else _positive(p[key], unit, key)
+        return None if p.get(key) is None else positive_value(p[key], unit, key)
 
     extra = {}
     if p.get("zero_fill") is not None:
