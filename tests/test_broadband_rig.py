@@ -263,3 +263,22 @@ def test_colour_of_a_vacuum_spectrum_is_taken_in_standard_air(centre, fwhm):
     assert 0.10 < dom_vac - dom < 0.20
     with pytest.raises(Exception, match="scale"):
         chromaticity_xy(lam, dens, scale="air")
+
+
+@pytest.mark.slow
+def test_coherence_length_uncertainty_covers_its_error_at_low_snr():
+    # At noise 3 % of the mean level the coherence length's propagated u (points taken as
+    # independent) was 0.34 % against a scatter of 2.2 % over seeds (rms z ≈ 6). With the
+    # sweeps' scatter (Type A, t-distribution of JCGM 101:2008 §6.4.9.4) a correctly stated u
+    # gives z = error/u with E[z²] = 1; over 8 seeds Σz² > 32 has probability 1e-4
+    # (chi-square with 8 degrees of freedom, closed form), so mean z² < 4 (rms z < 2).
+    tr = truth(450.0, 20.0)
+    z = []
+    for seed in range(100, 108):
+        s = measured(make_record(450.0, 20.0, ref="single", seed=seed, noise=0.03)
+                     ).to_dict()["summary"]
+        err = s["coherence_length_mm"] - tr["coherence_mm"]
+        assert abs(err) / tr["coherence_mm"] < 0.05  # the noise-limited figure stays close
+        z.append(err / s["u_coherence_length_mm"])
+    assert float(np.mean(np.square(z))) < 4.0
+    assert max(abs(v) for v in z) < 3.5
