@@ -277,11 +277,18 @@ def test_outputs_of_a_2_22_sample_record_stay_small(tmp_path):
 # ---- text summary and safety
 
 def test_summary_lists_each_source_line(laser_result):
+    """Each source line on its own line: its vacuum wavelength rounded to its standard
+    uncertainty (JCGM 100:2008 §7.2.6), relative intensity and width or bound."""
+    from ftsource.report.numbers import round_to_uncertainty
+
     text = format_summary(laser_result)
     d = laser_result.to_dict()
-    for ln in d["lines"]:
-        if ln["flag"] is None:
-            assert f"line {ln['wavelength_nm']:.5f} nm" in text
+    src = [ln for ln in d["lines"] if ln["flag"] is None]
+    assert src
+    for ln in src:
+        wl, _ = round_to_uncertainty(ln["wavelength_nm"], ln["u_wavelength_nm"])
+        row = next(t for t in text.splitlines() if t.startswith(f"line {wl} nm"))
+        assert "relative intensity" in row and "FWHM" in row
     assert "IEC 60825-1" in text
 
 

@@ -33,6 +33,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from ftsource.interferogram.channels import MIN_SAMPLES_PER_FRINGE
+
 __all__ = ["HealthItem", "ScanHealth", "scan_health", "fringe_visibility",
            "amplitude_steadiness", "speed_jitter"]
 
@@ -46,7 +48,10 @@ SPEED_JITTER_MAX = 0.10
 CLIPPED_FRACTION_MAX = 1e-3
 DRIFT_MAX = 0.05
 SNR_MIN = 100.0
-SAMPLES_PER_FRINGE_MIN = 4.0
+#: Twice what the analysis needs (:data:`ftsource.interferogram.channels.MIN_SAMPLES_PER_FRINGE`,
+#: below which it refuses the record), so that a faster stretch of the scan does not make the
+#: record unusable (common practice).
+SAMPLES_PER_FRINGE_MIN = 2 * MIN_SAMPLES_PER_FRINGE
 SAMPLING_MARGIN_MIN = 0.10
 #: Degree of the polynomial in time that stands for the slow change of speed over a sweep.
 TREND_DEGREE = 4
@@ -337,7 +342,8 @@ def scan_health(
             "samples per reference fringe", spf, "at the fastest speed", _judge(spf, ok),
             f"≥ {SAMPLES_PER_FRINGE_MIN:g}", COMMON,
             "good" if ok else "sample faster or scan slower: the fringe phase is poorly "
-            "followed with fewer samples",
+            f"followed with fewer samples, and below {MIN_SAMPLES_PER_FRINGE:g} the record "
+            "cannot be analysed",
         ))
     margin = (1.0 - min_wavelength_nm / shortest_line_nm) if shortest_line_nm else None
     ok = margin is not None and margin >= SAMPLING_MARGIN_MIN
