@@ -347,16 +347,6 @@ def focal_length_from_distances(
     return f, u
 
 
-def _qty(text, unit, name, *, positive=False):
-    """A plain float in ``unit`` from an option's text; ``positive`` refuses zero and below."""
-    from ftsource.quantity import to_float
-
-    value = to_float(text, unit, name=name)
-    if positive and not value > 0:
-        raise OptionError(f"{name}: {quote(text)} is not allowed; it must be above zero")
-    return value
-
-
 def plan_report(args) -> tuple[dict, list[str]]:
     """The ``ftsource plan`` command: each part whose options are given, as a JSON-ready
     dict and as text lines.
@@ -371,31 +361,32 @@ def plan_report(args) -> tuple[dict, list[str]]:
     """
     from dataclasses import asdict
 
-    from ftsource.quantity import parse_quantity
+    from ftsource.parameters import positive_value
+    from ftsource.quantity import parse_quantity, to_float
 
 
     lo_text, sep, hi_text = args.band.partition(":")
     if not sep:
         raise OptionError(f"--band {quote(args.band)} is not QTY:QTY; write e.g. 400nm:1100nm")
-    lo = _qty(lo_text, "nm", "--band", positive=True)
-    hi = _qty(hi_text, "nm", "--band", positive=True)
+    lo = positive_value(lo_text, "nm", "--band")
+    hi = positive_value(hi_text, "nm", "--band")
     report: dict = {}
     lines: list[str] = []
     scan = None
     if args.resolution is not None:
         q = parse_quantity(args.resolution, name="--resolution")
         if q.unit.physical_type == "length":
-            res = _qty(args.resolution, "nm", "--resolution", positive=True) * 1e7 / lo**2
+            res = positive_value(args.resolution, "nm", "--resolution") * 1e7 / lo**2
         else:
-            res = _qty(args.resolution, "1/cm", "--resolution", positive=True)
-        f_coll = None if args.focal_length is None else _qty(args.focal_length, "mm",
-                                                              "--focal-length", positive=True)
+            res = positive_value(args.resolution, "1/cm", "--resolution")
+        f_coll = None if args.focal_length is None else positive_value(args.focal_length, "mm",
+                                                              "--focal-length")
         scan = plan_scan(
             res, lo, longest_wavelength_nm=hi,
-            sample_rate_hz=_qty(args.sample_rate, "Hz", "--sample-rate", positive=True),
+            sample_rate_hz=positive_value(args.sample_rate, "Hz", "--sample-rate"),
             bandwidth_fraction=args.bandwidth_fraction,
-            reference_wavelength_nm=_qty(args.reference_wavelength, "nm",
-                                         "--reference-wavelength", positive=True),
+            reference_wavelength_nm=positive_value(args.reference_wavelength, "nm",
+                                         "--reference-wavelength"),
             apodization=args.apodization, focal_length=f_coll,
         )
         report["scan"] = {**asdict(scan), "aperture_diameter_mm": scan.aperture_diameter}
@@ -416,15 +407,15 @@ def plan_report(args) -> tuple[dict, list[str]]:
                f"{f_coll:g} mm focal length"),
         ]
     if args.linewidth is not None:
-        lam = lo if args.wavelength is None else _qty(args.wavelength, "nm", "--wavelength",
-                                                      positive=True)
+        lam = (lo if args.wavelength is None
+               else positive_value(args.wavelength, "nm", "--wavelength"))
         if args.max_opd is not None:
-            L = _qty(args.max_opd, "cm", "--max-opd", positive=True)
+            L = positive_value(args.max_opd, "cm", "--max-opd")
         elif scan is not None:
             L = scan.max_opd_cm
         else:
             raise OptionError("--linewidth needs --max-opd or --resolution (the scan to check)")
-        r = resolvability(_qty(args.linewidth, "nm", "--linewidth", positive=True), lam, L,
+        r = resolvability(positive_value(args.linewidth, "nm", "--linewidth"), lam, L,
                              apodization=args.apodization)
         report["resolvability"] = {**asdict(r), "max_opd_cm": L, "wavelength_nm": lam}
         lines.append(
@@ -437,11 +428,11 @@ def plan_report(args) -> tuple[dict, list[str]]:
     if (args.lens1 is None) != (args.lens2 is None):
         raise OptionError("--lens1 and --lens2 go together: give both focal lengths")
     if args.lens1 is not None:
-        f1 = _qty(args.lens1, "mm", "--lens1")
-        f2 = _qty(args.lens2, "mm", "--lens2")
+        f1 = to_float(args.lens1, "mm", name="--lens1")
+        f2 = to_float(args.lens2, "mm", name="--lens2")
         d = collimator_spacing(f1, f2)
-        err_mm = _qty(args.spacing_error, "mm", "--spacing-error")
-        radius = _qty(args.beam_diameter, "mm", "--beam-diameter", positive=True) / 2
+        err_mm = to_float(args.spacing_error, "mm", name="--spacing-error")
+        radius = positive_value(args.beam_diameter, "mm", "--beam-diameter") / 2
         theta = residual_divergence(f1, f2, err_mm, radius)
         report["collimator"] = {"f1_mm": f1, "f2_mm": f2, "spacing_mm": d,
                                 "magnification": -f2 / f1, "spacing_error_mm": err_mm,
@@ -454,10 +445,10 @@ def plan_report(args) -> tuple[dict, list[str]]:
     if (args.object_distance is None) != (args.image_distance is None):
         raise OptionError("--object-distance and --image-distance go together: give both")
     if args.object_distance is not None:
-        u_d = _qty(args.distance_uncertainty, "mm", "--distance-uncertainty")
+        u_d = to_float(args.distance_uncertainty, "mm", name="--distance-uncertainty")
         f, u_f = focal_length_from_distances(
-            _qty(args.object_distance, "mm", "--object-distance", positive=True),
-            _qty(args.image_distance, "mm", "--image-distance", positive=True), u_d, u_d)
+            positive_value(args.object_distance, "mm", "--object-distance"),
+            positive_value(args.image_distance, "mm", "--image-distance"), u_d, u_d)
         report["lens"] = {"focal_length_mm": f, "u_focal_length_mm": u_f}
         lines.append(f"lens: focal length {f:.4g} mm (u = {u_f:.2g} mm, thin-lens equation)")
     if not report:

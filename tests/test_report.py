@@ -21,10 +21,10 @@ from cli_helpers import assert_clean_error, run
 
 from ftsource import simulate as sim
 from ftsource.analysis import AnalysisOptions, analyze
-from ftsource.report import figures as fg
 from ftsource.measure.plotdata import FIGURE_NAMES, PlotData, spectrum_band
-from ftsource.report.files import spectrum_ecsv, spectrum_fits
+from ftsource.report import figures as fg
 from ftsource.report.figures import draw
+from ftsource.report.files import spectrum_ecsv, spectrum_fits
 from ftsource.report.html import CSP, ReportContent, report_html
 from ftsource.report.text import OUTPUT_FILES, format_summary, output_payloads
 from ftsource.safety import (

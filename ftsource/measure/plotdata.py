@@ -6,8 +6,8 @@ per-bin envelopes and medians, the interferogram in a window around zero path di
 spectrum at the stored band's points (thinned to at most :data:`MAX_POINTS` by keeping each
 bin's largest value, so peaks survive), the instrument line shape at the main line, the sweeps'
 main figure and the budget. :meth:`ftsource.result.Result.to_dict` shapes it into the result
-JSON's ``plot`` object and :meth:`PlotData.from_dict` reads it back; :func:`ftsource.report.figures.draw` turns it into
-matplotlib figures.
+JSON's ``plot`` object and :meth:`PlotData.from_dict` reads it back;
+:func:`ftsource.report.figures.draw` turns it into matplotlib figures.
 """
 
 from __future__ import annotations
@@ -169,7 +169,8 @@ class PlotData:
 
     @classmethod
     def from_dict(cls, d: dict) -> PlotData:
-        """Back from the result JSON's ``plot`` object (unknown keys are ignored, missing ones left empty)."""
+        """Back from the result JSON's ``plot`` object (unknown keys are ignored, missing ones
+        left empty)."""
         def tup(v):
             if isinstance(v, list):
                 return tuple(tup(e) for e in v)

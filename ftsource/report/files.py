@@ -21,6 +21,7 @@ References
 from __future__ import annotations
 
 import io
+
 import numpy as np
 
 from ftsource.measure.plotdata import MARGIN_RESOLUTIONS, SpectrumBand, spectrum_band

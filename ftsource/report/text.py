@@ -5,11 +5,11 @@ Files go into an output directory: ``result.json`` (the contract's JSON), ``spec
 their noise, over the source's band at the instrument's sampling), ``spectrum.fits`` (the same
 on a linear vacuum-wavenumber WCS axis), ``report.html`` (the self-contained report) and the
 report's figures as ``fig-<name>.png``. All files are first written completely to temporary
-names in the same directory and only then renamed into place; if anything fails, the temporary files are
-removed and any file already renamed is taken back (the previous one restored), so a failure
-never leaves a half-written file or half a result. Existing files are replaced only with
-``overwrite=True``. The file names are fixed: nothing from the record (metadata, column names)
-ever becomes a path.
+names in the same directory and only then renamed into place; if anything fails, the
+temporary files are removed and any file already renamed is taken back (the previous one
+restored), so a failure never leaves a half-written file or half a result. Existing files
+are replaced only with ``overwrite=True``. The file names are fixed: nothing from the record
+(metadata, column names) ever becomes a path.
 """
 
 from __future__ import annotations
