@@ -324,7 +324,8 @@ def build_parser() -> argparse.ArgumentParser:
     pl.add_argument("--lens1", metavar="QTY",
                     help="focal length of the collimator's first lens, e.g. 25mm (negative "
                          "for a diverging lens; default: no collimator)")
-    pl.add_argument("--lens2", metavar="QTY", help="focal length of the second lens")
+    pl.add_argument("--lens2", metavar="QTY",
+                    help="focal length of the second lens (default: no collimator)")
     pl.add_argument("--spacing-error", metavar="QTY", default="0.5mm",
                     help="error of the lens spacing for the residual divergence (default 0.5mm)")
     pl.add_argument("--beam-diameter", metavar="QTY", default="2mm",
@@ -332,7 +333,8 @@ def build_parser() -> argparse.ArgumentParser:
     pl.add_argument("--object-distance", metavar="QTY",
                     help="object-to-lens distance of a sharp image (default: no lens "
                          "measurement)")
-    pl.add_argument("--image-distance", metavar="QTY", help="lens-to-image distance")
+    pl.add_argument("--image-distance", metavar="QTY",
+                    help="lens-to-image distance (default: no lens measurement)")
     pl.add_argument("--distance-uncertainty", metavar="QTY", default="1mm",
                     help="standard uncertainty of each distance (default 1mm)")
     pl.add_argument("--json", action="store_true", help="print the plan as JSON (default off)")
