@@ -107,8 +107,8 @@ def green_pointer_warning(wavelength_nm: float) -> str | None:
 
 
 LASER_CAUTION = (
-    "Laser safety: never look into the beam or its reflections, and never align by eye, also "
-    "not through the interferometer's mirrors, beam splitter or lenses. ftsource measures "
+    "Laser safety: never look into a laser beam or its reflections, and never align by eye, "
+    "also not through the interferometer's mirrors, beam splitter or lenses. ftsource measures "
     "wavelength, not hazard class: follow IEC 60825-1 (and ANSI Z136.1 where it applies), the "
     "laser's label and your local laser-safety rules."
 )
