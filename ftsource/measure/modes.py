@@ -249,34 +249,8 @@ def find_mode_comb(
        Mag. 28(5) (2011) 134-137.
     .. [3] JCGM 100:2008 (GUM), §H.3 (uncertainty of a least-squares straight line).
     """
-    c, a = finite_pair(centres_per_cm, intensities, "centres_per_cm", "intensities")
-    if np.any(a < 0):
-        raise AnalysisError("intensities must be >= 0")
-    if not (0.0 <= min_fraction < 1.0):
-        raise OptionError(f"min_fraction must lie in [0, 1), got {min_fraction!r}")
-    if not (0.0 < rtol < 0.5):
-        raise OptionError(f"rtol must lie in (0, 0.5), got {rtol!r}")
-    if c.size == 0 or not np.max(a) > 0:
-        raise AnalysisError("no line has a positive intensity")
-    uc = None
-    if u_centres_per_cm is not None:
-        uc = np.asarray(u_centres_per_cm, dtype=float)
-        if uc.shape != c.shape:
-            raise AnalysisError("u_centres_per_cm must match centres_per_cm")
-        uc = np.where(np.isfinite(uc) & (uc > 0), uc, 0.0)
-    wd = None
-    if widths_per_cm is not None:
-        wd = np.asarray(widths_per_cm, dtype=float)
-        if wd.shape != c.shape:
-            raise AnalysisError("widths_per_cm must match centres_per_cm")
-    keep = a >= min_fraction * np.max(a)
-    c, a = c[keep], a[keep]
-    order = np.argsort(c)
-    c, a = c[order], a[order]
-    if uc is not None:
-        uc = uc[keep][order]
-    if wd is not None:
-        wd = wd[keep][order]
+    c, a, uc, wd = _comb_inputs(centres_per_cm, intensities, u_centres_per_cm, widths_per_cm,
+                                min_fraction, rtol)
     if c.size < 3:
         return None
     d = np.diff(c)
@@ -300,28 +274,12 @@ def find_mode_comb(
     m = np.concatenate([[0], np.cumsum(k)])
 
     n = c.size
-    mm = m - m.mean()
-    sxx = float(np.sum(mm * mm))
-    slope = float(np.sum(mm * (c - c.mean())) / sxx)
-    resid = c - (c.mean() + slope * mm)
-    s2 = float(np.sum(resid**2) / (n - 2)) if n > 2 else 0.0
-    u_slope = float(np.sqrt(s2 / sxx))
-    if uc is not None:
-        u_slope = max(u_slope, float(np.sqrt(np.sum(mm**2 * uc**2)) / sxx))
-
+    slope, u_slope, resid = _spacing_fit(c, m, uc)
     centroid = float(np.sum(a * c) / np.sum(a))
     nm_per_cm1 = 1e7 / centroid**2  # dλ/dσ at the centroid, nm per cm⁻¹
     ghz = C_CM_PER_S * 1e-9
 
-    # Gaussian envelope: weighted parabola through ln I (Guo 2011)
-    fwhm = float("nan")
-    pos = a > 0
-    if np.count_nonzero(pos) >= 3:
-        ds = c[pos] - centroid
-        coef = np.polyfit(ds, np.log(a[pos]), 2, w=a[pos])
-        if coef[0] < 0:
-            fwhm = float(2.0 * np.sqrt(np.log(2.0) / -coef[0]))
-
+    fwhm = _envelope_fwhm(c, a, centroid)
     if wd is not None and np.any(np.nan_to_num(wd, nan=np.inf) > slope / MODE_NARROWNESS):
         return None
     return ModeComb(
@@ -345,6 +303,61 @@ def find_mode_comb(
         residual_rms_per_cm=float(np.sqrt(np.mean(resid**2))),
         off_comb_per_cm=off,
     )
+
+
+def _comb_inputs(centres_per_cm, intensities, u_centres_per_cm, widths_per_cm, min_fraction,
+                 rtol):
+    """The lines of :func:`find_mode_comb` checked, kept above ``min_fraction`` of the
+    strongest and sorted by wavenumber: ``(centres, intensities, u or None, widths or None)``."""
+    c, a = finite_pair(centres_per_cm, intensities, "centres_per_cm", "intensities")
+    if np.any(a < 0):
+        raise AnalysisError("intensities must be >= 0")
+    if not (0.0 <= min_fraction < 1.0):
+        raise OptionError(f"min_fraction must lie in [0, 1), got {min_fraction!r}")
+    if not (0.0 < rtol < 0.5):
+        raise OptionError(f"rtol must lie in (0, 0.5), got {rtol!r}")
+    if c.size == 0 or not np.max(a) > 0:
+        raise AnalysisError("no line has a positive intensity")
+    uc = None
+    if u_centres_per_cm is not None:
+        uc = np.asarray(u_centres_per_cm, dtype=float)
+        if uc.shape != c.shape:
+            raise AnalysisError("u_centres_per_cm must match centres_per_cm")
+        uc = np.where(np.isfinite(uc) & (uc > 0), uc, 0.0)
+    wd = None
+    if widths_per_cm is not None:
+        wd = np.asarray(widths_per_cm, dtype=float)
+        if wd.shape != c.shape:
+            raise AnalysisError("widths_per_cm must match centres_per_cm")
+    keep = a >= min_fraction * np.max(a)
+    order = np.argsort(c[keep])
+    return (c[keep][order], a[keep][order], None if uc is None else uc[keep][order],
+            None if wd is None else wd[keep][order])
+
+
+def _spacing_fit(c, m, uc):
+    """Least-squares line ``c = c̄ + Δσ·(m − m̄)`` through the modes: ``(Δσ, u(Δσ),
+    residuals)``; ``u`` is the larger of the scatter's and the centres' own."""
+    n = c.size
+    mm = m - m.mean()
+    sxx = float(np.sum(mm * mm))
+    slope = float(np.sum(mm * (c - c.mean())) / sxx)
+    resid = c - (c.mean() + slope * mm)
+    s2 = float(np.sum(resid**2) / (n - 2)) if n > 2 else 0.0
+    u_slope = float(np.sqrt(s2 / sxx))
+    if uc is not None:
+        u_slope = max(u_slope, float(np.sqrt(np.sum(mm**2 * uc**2)) / sxx))
+    return slope, u_slope, resid
+
+
+def _envelope_fwhm(c, a, centroid) -> float:
+    """FWHM (cm⁻¹) of the Gaussian envelope: an intensity-weighted parabola through ln I
+    (Guo 2011); NaN when fewer than three modes or the parabola opens upwards."""
+    pos = a > 0
+    if np.count_nonzero(pos) < 3:
+        return float("nan")
+    coef = np.polyfit(c[pos] - centroid, np.log(a[pos]), 2, w=a[pos])
+    return float(2.0 * np.sqrt(np.log(2.0) / -coef[0])) if coef[0] < 0 else float("nan")
 
 
 def revival_opd_cm(spacing_per_cm: float) -> float:
