@@ -762,7 +762,7 @@ def _plot_data(record, setup: _Setup, sampling: _Sampling, lines: _Lines, flags,
     band = spectrum_band(
         spec.sigma_per_cm, spec.density, spec.noise, spec.resolution_per_cm,
         line_centres_per_cm=[f.centre_per_cm for f in lines.found],
-        min_wavelength_nm=limits.min_wavelength_nm, zero_fill=setup.options.zero_fill,
+        min_wavelength_nm=limits.min_wavelength_nm, zero_fill=1,  # every point: peaks drawn whole
     )
     centres = []
     if main is not None and len(sweep_specs) >= 2:

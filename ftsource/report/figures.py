@@ -171,6 +171,9 @@ def plot_sweeps(sweep_index, values, uncertainties, *, mean=None, u_mean=None,
                                label="co-added (±1 u)"))
     arts.append(ax.axhline(0.0, color=_C["black"], lw=0.8))
     ax.set_xlabel("sweep index")
+    from matplotlib.ticker import MaxNLocator
+
+    ax.xaxis.set_major_locator(MaxNLocator(integer=True))  # sweeps are counted
     ax.set_ylabel(f"{label} − {ref:.6g} {unit} ({unit})")
     ax.set_title(f"Sweep-to-sweep agreement of the {label}")
     ax.legend(loc="upper right", fontsize="small")
