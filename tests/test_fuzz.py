@@ -39,6 +39,7 @@ from ftsource.io.records import (
     write_record_npz,
     write_record_wav,
 )
+from ftsource.report.text import OUTPUT_FILES
 
 EXTENSIONS = (".csv", ".tsv", ".txt", ".dat", ".npz", ".wav")
 FS = 48_000.0
@@ -331,7 +332,7 @@ def test_cli_random_option_values(valid, sandbox, opts):
     event(f"status {status}")
     if status == 0:
         d = json.loads(out)
-        assert sorted(os.listdir(out_dir)) == ["result.json", "spectrum.ecsv"]
+        assert sorted(os.listdir(out_dir)) == sorted(OUTPUT_FILES)
         assert json.loads((out_dir / "result.json").read_text(encoding="utf-8")) == d
     else:
         assert out == ""
