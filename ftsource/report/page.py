@@ -67,7 +67,8 @@ def _results_rows(f, ins) -> list:
                      "nm", "U = k·u (about 95 % coverage)"))
     add("frequency", f.frequency_thz, unit="THz", definition="c / vacuum wavelength")
     add("FWHM", f.fwhm_nm, f.u_fwhm_nm,
-        definition="full width at half maximum, instrument line shape removed")
+        definition=f.fwhm_definition
+        or "full width at half maximum, instrument line shape removed")
     add("FWHM upper bound", f.fwhm_upper_bound_nm,
         definition="not resolved: the width is below this (about 95 %)")
     add("peak wavelength", f.peak_wavelength_nm, f.u_peak_wavelength_nm)
