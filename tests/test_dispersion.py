@@ -186,3 +186,24 @@ def test_polynomial_group_delay_is_the_derivative_of_the_phase():
                                rtol=1e-12)
     np.testing.assert_allclose(p.group_delay_cm([18500.0]),
                                abs(dphi(e) + curv * h) / (2 * np.pi), rtol=1e-12)
+
+
+@pytest.mark.parametrize("name, zero_fill", [("boxcar", 1), ("boxcar", 4), ("happ-genzel", 4)])
+def test_noise_correlation_is_the_windows_correlation_sum(name, zero_fill):
+    # Discrete closed form: for white noise n_i windowed by w_i and zero-filled to N_fft
+    # points, the covariances of the spectrum points sum (over all points) to N_fft·w₀²·σ²
+    # while one point's variance is σ²·Σw_i² (DFT orthogonality), so Σρ = N_fft·w₀²/Σw_i²;
+    # the windows are written out here (boxcar 1; Happ-Genzel 0.54 + 0.46 cos πξ, Harris 1978)
+    from types import SimpleNamespace
+
+    from ftsource.spectrum.spectrum import noise_correlation
+
+    m, dx = 2000, 1e-5
+    xi = np.abs(np.arange(-m, m + 1)) / m
+    w = np.ones_like(xi) if name == "boxcar" else 0.54 + 0.46 * np.cos(np.pi * xi)
+    n_fft = zero_fill * (2 * m + 1)
+    want = n_fft * w[m] ** 2 / np.sum(w**2)
+    sigma = np.arange(n_fft // 2 + 1) / (n_fft * dx)
+    spec = SimpleNamespace(sigma_per_cm=sigma, max_opd_cm=m * dx,
+                           line_shape=SimpleNamespace(apodization=name))
+    assert noise_correlation(spec) == pytest.approx(want, rel=2e-3)
