@@ -139,3 +139,32 @@ def test_line_set_figures_of_a_doublet():
     assert f.u_centroid_nm == pytest.approx(math.sqrt(u2), rel=1e-12)
     one = line_set_figures([632.8], [0.01], [1.0])
     assert (one.peak_nm, one.centroid_nm, one.u_centroid_nm) == (632.8, 632.8, 0.01)
+
+
+def test_delay_weight_is_the_window_at_the_group_delay():
+    # Happ-Genzel window A(ξ) = 0.54 + 0.46 cos(πξ) (Happ & Genzel; Harris, Proc. IEEE 66,
+    # 1978, the Hamming coefficients): the weight of a component delayed by τ is A(τ/L)
+    # (convolution and shift theorems, Bracewell ch. 6)
+    from ftsource.spectrum.apodization import get_apodization
+    from ftsource.spectrum.phase import MIN_DELAY_WEIGHT, delay_weight
+
+    hg = get_apodization("happ-genzel")
+    L = 0.02
+    tau = np.array([0.0, 0.002, 0.005, 0.01])
+    want = 0.54 + 0.46 * np.cos(np.pi * tau / L)
+    np.testing.assert_allclose(delay_weight(tau, L, hg), want, rtol=1e-12)
+    # beyond the smallest weight divided out (and beyond the window) nothing is divided
+    far = np.array([0.0125, 0.03])
+    assert np.all(0.54 + 0.46 * np.cos(np.pi * np.minimum(far / L, 1)) < MIN_DELAY_WEIGHT)
+    np.testing.assert_array_equal(delay_weight(far, L, hg), [1.0, 1.0])
+
+
+def test_polynomial_group_delay_is_the_derivative_of_the_phase():
+    # φ(σ) = c0 + c1 s + c2 s² + c3 s³ (s = σ − σ_c): φ'/2π in closed form, 0 outside the band
+    p = D.PolynomialPhase(17000.0, (0.3, 2 * np.pi * 1e-3, 2.0e-4, -1.0e-8), (0.0,) * 4,
+                          (16000.0, 18000.0), 0.0)
+    s = np.array([16500.0, 17000.0, 17800.0])
+    d = s - 17000.0
+    want = np.abs(2 * np.pi * 1e-3 + 2 * 2.0e-4 * d - 3 * 1.0e-8 * d**2) / (2 * np.pi)
+    np.testing.assert_allclose(p.group_delay_cm(s), want, rtol=1e-12)
+    np.testing.assert_array_equal(p.group_delay_cm([15000.0, 19000.0]), [0.0, 0.0])

@@ -170,6 +170,15 @@ class PolynomialPhase:
         s = np.clip(np.asarray(sigma_per_cm, dtype=float), *self.band) - self.centre_per_cm
         return np.polynomial.polynomial.polyval(s, np.asarray(self.coefficients))
 
+    def group_delay_cm(self, sigma_per_cm) -> np.ndarray:
+        """Group delay in optical path, ``|φ'(σ)|/2π`` (cm), from the window's centre; 0
+        beyond ``band``, where the phase is held constant."""
+        s = np.asarray(sigma_per_cm, dtype=float)
+        inside = (s >= self.band[0]) & (s <= self.band[1])
+        d = np.polynomial.polynomial.polyder(np.asarray(self.coefficients))
+        tau = np.abs(np.polynomial.polynomial.polyval(s - self.centre_per_cm, d)) / (2 * np.pi)
+        return np.where(inside, tau, 0.0)
+
     @property
     def dispersion_cm2(self) -> float:
         """Group-delay dispersion in optical path at σ_c, ``D = φ''(σ_c)/2π = c₂/π`` (cm²)."""
