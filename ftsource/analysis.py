@@ -269,7 +269,10 @@ def _air_conditions(record, options):
     for cond, key, ptype, fld in _AIR_KEYS:
         if cond in options.air_given or getattr(air, fld) != getattr(nominal, fld):
             continue  # stated by the caller: it wins
-        q = record.metadata_quantity(key, ptype)
+        if cond == "humidity":
+            q = _metadata_humidity(record, key)
+        else:
+            q = record.metadata_quantity(key, ptype)
         if q is None:
             continue
         try:
@@ -592,6 +595,8 @@ def _spectra(setup: _Setup, sampling: _Sampling, sweeps: _Sweeps, planner) -> _S
             f"{len(dropped)} sweep(s) that do not reach zero path difference were left out "
             "(the others do, and give phase-corrected spectra)",
         )
+    sweep_specs, ifgs, dropped_glass = _dispersion_sweeps(sweep_specs, ifgs)
+    rejected += dropped_glass
     notes += _burst_notes(sweep_specs)
     sigma_app = np.arange(n_fft // 2 + 1) / (n_fft * sampling.limits.dx_cm)
     factor = _index_factor(sigma_app, setup.scale, options)
@@ -608,6 +613,37 @@ def _spectra(setup: _Setup, sampling: _Sampling, sweeps: _Sweeps, planner) -> _S
         )
     return _Spectra(tuple(sweep_specs), ifgs, spec, sigma_app, factor, rejected,
                     sweeps.channel_delay, sweeps.notes + notes)
+
+
+def _dispersion_sweeps(sweep_specs, ifgs):
+    """Leave out the sweeps through ZPD whose phase missed the dispersion treatment when
+    others got it (:func:`ftsource.spectrum.spectrum.dispersed_mertz`): with unequal glass,
+    such a sweep's chirped burst runs off its short side (a partial sweep), and its Mertz
+    spectrum is distorted though its short double-sided part shows no residual. Returns the
+    sweeps kept, their interferograms and the ``(index, reason)`` of those left out."""
+    treated = [np.isfinite(s.dispersion_cm2) for s in sweep_specs]
+    drop = {s.sweep_index for s, t in zip(sweep_specs, treated, strict=True)
+            if s.zpd_found and not t}
+    if not any(treated) or not drop:
+        return sweep_specs, ifgs, ()
+    rejected = tuple((i, "the chirped centre burst (unequal glass in the arms) runs off this "
+                      "sweep's short side: its phase cannot be corrected") for i in sorted(drop))
+    return ([s for s in sweep_specs if s.sweep_index not in drop],
+            tuple(ig for ig in ifgs if ig.sweep.index not in drop), rejected)
+
+
+def _metadata_humidity(record, key):
+    """The record's humidity metadata in percent (bare numbers above 1 are percent,
+    :func:`ftsource.quantity.parse_humidity`), or None when absent."""
+    from ftsource.errors import RecordError
+    from ftsource.quantity import parse_humidity
+
+    if key not in record.metadata:
+        return None
+    try:
+        return parse_humidity(record.metadata[key], name=f"{record.path}: metadata {key}")
+    except OptionError as exc:
+        raise RecordError(str(exc)) from None
 
 
 def _lines(record, setup: _Setup, sampling: _Sampling, spectra: _Spectra) -> _Lines:
@@ -676,6 +712,10 @@ def _result(record, setup: _Setup, sampling: _Sampling, spectra: _Spectra, lines
         reference_uncertainty_ppm=ref_u_ppm,
     )
     health, health_notes = facts.health_facts(record, path, sweep_specs)
+    from functools import partial
+
+    from ftsource.measure.budget import line_budget
+
     # weak lines off a multimode laser's comb are artefacts, not source lines
     from ftsource.measure.classify import classify_source
 
@@ -694,6 +734,9 @@ def _result(record, setup: _Setup, sampling: _Sampling, spectra: _Spectra, lines
     reports, line_notes = facts.line_reports(
         lines.found, flags, lines.aliasing, options=options,
         reference_uncertainty_ppm=ref_u_ppm, main=main,
+        budget=partial(line_budget, opd_kind=path.kind, options=options,
+                       reference_wavelength_nm=setup.reference_wavelength_nm,
+                       field_of_view_factor=lines.field_of_view_factor),
     )
     line_notes = tuple(line_notes) + comb_notes
     figures = source_figures(
@@ -702,14 +745,15 @@ def _result(record, setup: _Setup, sampling: _Sampling, spectra: _Spectra, lines
         field_of_view_factor=lines.field_of_view_factor, sweep_fit_cache=lines.sweep_fits,
     )
     scan = _scan_health(record, setup, sampling, spectra, figures.kind, source_lines)
+    glass, glass_notes = facts.glass_facts(sweep_specs, main)
     notes = (setup.notes + sampling.notes + spectra.notes + lines.notes + input_notes
-             + health_notes + line_notes + figures.notes
+             + health_notes + glass_notes + line_notes + figures.notes
              + alias_notes(main, limits.min_wavelength_nm, lines.alias_band)
              + _safety_notes(lines.source_lines))
     return Result(
         input=inp,
         processing=facts.processing_facts(options, path, limits, sweep_specs, spectra.rejected,
-                                          spectra.channel_delay),
+                                          spectra.channel_delay, glass),
         instrument=facts.instrument_facts(spec, limits, main, options.apodization),
         figures=figures,
         lines=reports,

@@ -160,7 +160,8 @@ def build_parser() -> argparse.ArgumentParser:
                    help="the light: laser:WL[:FWHM], led:WL:FWHM or "
                         "multimode:WL:SPACING:ENVELOPE, lengths with units (e.g. laser:532nm, "
                         "led:590nm:15nm, multimode:650nm:0.08nm:1nm); repeat to add sources "
-                        "(default: laser:650nm)")
+                        "(default: laser:650nm). An LED's WL and FWHM are the peak and width "
+                        "of its density per unit wavelength, the figures analyze reports")
     s.add_argument("--reference", default="quadrature",
                    choices=("quadrature", "single", "encoder", "none"),
                    help="what records the optical path: quadrature (two reference-laser "
@@ -387,7 +388,8 @@ def _add_analysis_options(a) -> None:
                         "101.325 kPa ± 2 kPa)")
     a.add_argument("--air-humidity", metavar="QTY",
                    help="relative humidity, e.g. 45%% (default: metadata air_humidity, else "
-                        "50 %% ± 20 %%)")
+                        "50 %% ± 20 %%); a bare number above 1 is percent (45 = 45 %%); write "
+                        "a fraction as '0.45 fraction'")
     a.add_argument("--air-co2", metavar="QTY",
                    help="CO2 mole fraction, e.g. 420ppm (default: 450 ppm ± 150 ppm)")
     a.add_argument("--air-temperature-uncertainty", metavar="QTY",
@@ -398,7 +400,7 @@ def _add_analysis_options(a) -> None:
                         "the pressure is given)")
     a.add_argument("--air-humidity-uncertainty", metavar="QTY",
                    help="standard uncertainty of the humidity, e.g. 3%% (default: 3 %% when the "
-                        "humidity is given)")
+                        "humidity is given); bare numbers as for --air-humidity")
     a.add_argument("--air-co2-uncertainty", metavar="QTY",
                    help="standard uncertainty of the CO2 fraction, e.g. 50ppm (default: 30 ppm "
                         "when --air-co2 is given)")

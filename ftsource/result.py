@@ -28,7 +28,7 @@ _SUMMARY_KEYS = (
     "u_coherence_length_visibility_mm", "coherence_length_visibility_definition",
     "half_visibility_opd_mm", "peak_wavelength_nm",
     "u_peak_wavelength_nm", "centroid_wavelength_nm", "u_centroid_wavelength_nm",
-    "chromaticity_xy", "dominant_wavelength_nm", "modes",
+    "chromaticity_xy", "dominant_wavelength_nm", "modes", "fwhm_definition",
 )
 _MODE_KEYS = (
     "n_modes", "spacing_nm", "u_spacing_nm", "spacing_ghz", "u_spacing_ghz",
@@ -37,7 +37,8 @@ _MODE_KEYS = (
 _LINE_KEYS = (
     "wavelength_nm", "wavelength_air_nm", "wavenumber_per_cm", "frequency_thz",
     "relative_intensity", "snr", "resolved", "fwhm_nm", "fwhm_upper_bound_nm", "profile",
-    "pair_possible", "u_wavelength_nm", "flag", "aliasing",
+    "pair_possible", "u_wavelength_nm", "expanded_uncertainty_nm", "coverage_factor", "flag",
+    "aliasing",
 )
 
 
@@ -220,6 +221,12 @@ def _processing(p) -> dict:
         "opd_step_nm": p.opd_step_nm,
         "zero_fill": p.zero_fill,
         "channel_delay_s": p.channel_delay_s,
+        "glass_imbalance": None if p.glass_imbalance is None else {
+            k: getattr(p.glass_imbalance, k) for k in (
+                "group_delay_dispersion_um2", "u_group_delay_dispersion_um2",
+                "bk7_thickness_mm", "u_bk7_thickness_mm", "optical_thickness_difference_mm",
+                "definition")
+        },
     }
 
 

@@ -288,7 +288,7 @@ ANALYZE_OPTIONS = {
     "--alignment-allowance": ["0ppm", "2ppm", "-3ppm", "1e-5"],
     "--air-temperature": ["20degC", "21.5 °C", "293.15K", "25C"],
     "--air-pressure": ["1013.25hPa", "1013 mbar", "101.325kPa", "95000Pa"],
-    "--air-humidity": ["50%", "45 %RH", "0.3", "0%"],
+    "--air-humidity": ["50%", "45 %RH", "0.3 fraction", "45", "0%"],
     "--sample-rate": ["48kHz", "48000Hz", "48000.0 Hz"],
     "--mirror-speed": ["0.5mm/s", "1 mm/s"],
     "--aperture-diameter": ["2mm", "25 mm"],

@@ -421,8 +421,8 @@ def check_revivals(
     central burst (to where it falls below half its ZPD value); the first revival is the
     highest envelope maximum between there and ``1.5/Δσ``, accepted when it stands at least
     ``min_contrast`` times above the lowest envelope before it. Its position (the centroid of
-    the peak, as for ZPD in :mod:`ftsource.interferogram.zpd`) and those of further revivals near its
-    multiples within the scan give the measured period ``Σk·x_k/Σk²``. Before the centroids
+    the peak, as for ZPD in :mod:`ftsource.interferogram.zpd`) and those of further revivals
+    near its multiples within the scan give the measured period ``Σk·x_k/Σk²``. Before the centroids
     are taken the envelope is divided by the exponential fitted (least squares in ``ln``)
     through its ZPD value and the revival heights: modes of finite width make revivals
     decay, ``exp(−πw x)`` for Lorentzian modes of FWHM ``w``, and the decay would pull each
@@ -485,15 +485,7 @@ def check_revivals(
                 f"zpd_x_cm must lie inside the record [{x[0]:.6g}, {x[-1]:.6g}] cm, got "
                 f"{zpd_x_cm!r}"
             )
-    n = x.size
-    # the longer side, as distance from ZPD, with the untrusted far-end margin removed
-    if x[-1] - x0 >= x0 - x[0]:
-        idx = np.arange(n)[x >= x0][: max(n - margin - int(np.searchsorted(x, x0)), 0)]
-    else:
-        idx = np.arange(n)[x <= x0][::-1]
-        idx = idx[: max(idx.size - margin, 0)]
-    u = np.abs(x[idx] - x0)
-    e = env[idx]
+    u, e = _longer_side(x, env, x0, margin)
     reach = float(u[-1]) if u.size else 0.0
     if reach < P:
         return RevivalCheck(
@@ -522,31 +514,8 @@ def check_revivals(
             f"no revival of the visibility between the central burst and {min(1.5 * P, reach):.4g}"
             " cm from ZPD",
         )
-    # peaks near the multiples of the first revival
-    peaks, ks = [j], [1]
-    k = 2
-    while k * u[j] + tol * P <= reach:
-        win = np.nonzero(np.abs(u - k * u[j]) <= tol * P)[0]
-        jk = int(win[np.argmax(e[win])])
-        if e[jk] >= min_contrast * float(np.min(e[i0 : jk + 1])):
-            peaks.append(jk)
-            ks.append(k)
-        k += 1
-    # Modes of finite width make the revivals decay (as exp(-πw x) for Lorentzian modes of
-    # FWHM w), which pulls each peak's centroid towards ZPD; flatten the envelope by the
-    # exponential through the ZPD value and the revival heights before taking centroids.
-    heights = np.r_[e0, e[peaks]]
-    where = np.r_[0.0, u[peaks]]
-    rate = -float(np.polyfit(where, np.log(heights), 1)[0])
-    ef = e * np.exp(rate * u) if rate > 0 else e
-    xs, kept = [], []
-    for jk, kk in zip(peaks, ks, strict=True):
-        xk, touches = _peak_centroid(u, ef, jk)
-        if not touches:
-            xs.append(xk)
-            kept.append(kk)
-    if not xs:
-        xs, kept = [float(u[j])], [1]
+    peaks, ks = _revival_peaks(u, e, i0, j, P, reach, tol, min_contrast)
+    xs, kept = _revival_centroids(u, e, e0, j, peaks, ks)
     ks_a, xs_a = np.array(kept, float), np.array(xs)
     period = float(np.sum(ks_a * xs_a) / np.sum(ks_a * ks_a))
     rel = period / P - 1.0
@@ -563,3 +532,53 @@ def check_revivals(
         f"{found}; period {period:.6g} cm differs from 1/spacing = {P:.6g} cm by {rel:+.2%} "
         f"(allowed {tol:.0%})",
     )
+
+
+def _longer_side(x, env, x0: float, margin: int):
+    """The envelope on the longer side of ZPD as ``(distance from ZPD, envelope)``, with the
+    untrusted far-end margin removed."""
+    n = x.size
+    if x[-1] - x0 >= x0 - x[0]:
+        idx = np.arange(n)[x >= x0][: max(n - margin - int(np.searchsorted(x, x0)), 0)]
+    else:
+        idx = np.arange(n)[x <= x0][::-1]
+        idx = idx[: max(idx.size - margin, 0)]
+    return np.abs(x[idx] - x0), env[idx]
+
+
+def _revival_peaks(u, e, i0: int, j: int, P: float, reach: float, tol: float,
+                   min_contrast: float):
+    """Indices of the first revival ``j`` and of the envelope maxima near its multiples that
+    stand ``min_contrast`` above the lowest envelope before them, with their orders."""
+    peaks, ks = [j], [1]
+    k = 2
+    while k * u[j] + tol * P <= reach:
+        win = np.nonzero(np.abs(u - k * u[j]) <= tol * P)[0]
+        jk = int(win[np.argmax(e[win])])
+        if e[jk] >= min_contrast * float(np.min(e[i0 : jk + 1])):
+            peaks.append(jk)
+            ks.append(k)
+        k += 1
+    return peaks, ks
+
+
+def _revival_centroids(u, e, e0: float, j: int, peaks, ks):
+    """The revivals' centroids (cm from ZPD) and orders, peaks touching a window edge left out.
+
+    Modes of finite width make the revivals decay (as exp(−πw x) for Lorentzian modes of FWHM
+    w), which pulls each peak's centroid towards ZPD; the envelope is flattened by the
+    exponential through the ZPD value and the revival heights before the centroids are taken.
+    """
+    heights = np.r_[e0, e[peaks]]
+    where = np.r_[0.0, u[peaks]]
+    rate = -float(np.polyfit(where, np.log(heights), 1)[0])
+    ef = e * np.exp(rate * u) if rate > 0 else e
+    xs, kept = [], []
+    for jk, kk in zip(peaks, ks, strict=True):
+        xk, touches = _peak_centroid(u, ef, jk)
+        if not touches:
+            xs.append(xk)
+            kept.append(kk)
+    if not xs:
+        xs, kept = [float(u[j])], [1]
+    return xs, kept

@@ -144,9 +144,16 @@ def format_summary(result) -> str:
                 f"colour: x = {_fmt(x, '', 4)}, y = {_fmt(y, '', 4)}, dominant wavelength "
                 f"{_fmt(s.dominant_wavelength_nm, ' nm', 1)}"
             )
-    elif s.resolved:
+    elif s.peak_wavelength_nm is not None:
+        # every kind has a peak (strongest line) and a centroid (intensity-weighted mean)
+        peak = _with_u(s.peak_wavelength_nm, s.u_peak_wavelength_nm, "nm")
+        centroid = _with_u(s.centroid_wavelength_nm, s.u_centroid_wavelength_nm, "nm")
+        out.append(f"peak {peak} (strongest line), centroid {centroid} (intensity-weighted)")
+    if s.kind == "multimode" and s.fwhm_nm is not None:
+        out.append(f"envelope FWHM of the modes: {_with_u(s.fwhm_nm, s.u_fwhm_nm, 'nm')}")
+    elif s.kind != "broadband" and s.resolved:
         out.append(f"linewidth (FWHM): {_with_u(s.fwhm_nm, s.u_fwhm_nm, 'nm')}")
-    elif s.fwhm_upper_bound_nm is not None:
+    elif s.kind != "broadband" and s.fwhm_upper_bound_nm is not None:
         bound = format_significant(s.fwhm_upper_bound_nm, 2, "nm")
         lower = format_significant(s.coherence_length_lower_bound_mm, 2, "mm")
         out.append(f"linewidth: not resolved, below {bound}; coherence length above {lower}")
