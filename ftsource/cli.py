@@ -148,6 +148,7 @@ def build_parser() -> argparse.ArgumentParser:
                         "(needs the [dask] extra; default: a local process pool)")
     _add_analysis_options(b)
     _add_fft_options(b)
+    _add_output_options(b)
 
     s = sub.add_parser("simulate", help="make a record of a known source (planning, testing)",
                        epilog="Every record it writes is invented data. " + _HELP_EPILOG,
@@ -604,6 +605,7 @@ def _cmd_batch(args, out, err) -> int:
             why = r["error"] if r["error"].startswith(r["record"]) else (
                 f"{r['record']}: {r['error']}")
             out.write(f"{r['status']}: {why}\n")
+    _wrote(out, [*res.written, os.path.join(args.out, "summary.ecsv")], args.quiet)
     n = len(res.rows)
     out.write(f"batch: {n} record(s), {n - res.n_failed} analysed, {res.n_failed} not; "
               f"summary in {os.path.join(args.out, 'summary.ecsv')}\n")
