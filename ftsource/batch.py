@@ -51,7 +51,8 @@ SUMMARY_COLUMNS = (
     ("centre_wavelength_nm", "nm", "vacuum centre wavelength of the main line"),
     ("u_centre_wavelength_nm", "nm", "its standard uncertainty"),
     ("expanded_uncertainty_nm", "nm", "its expanded uncertainty (coverage factor in result.json)"),
-    ("fwhm_nm", "nm", "FWHM of the main line when resolved"),
+    ("fwhm_nm", "nm", "summary.fwhm_nm: the main line's FWHM when resolved (the modes' envelope "
+                "for a multimode laser)"),
     ("n_lines", "", "number of spectral features listed in result.json"),
     ("n_warnings", "", "number of warnings in result.json"),
 )
