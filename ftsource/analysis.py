@@ -637,7 +637,8 @@ def _lines(record, setup: _Setup, sampling: _Sampling, spectra: _Spectra) -> _Li
         found = fitting.find_lines(spec, band_per_cm=band)
     sigma_alias = 1e7 / limits.min_wavelength_nm
     flags, flag_notes = _flag_lines(found, setup.reference_wavelength_nm, sigma_alias,
-                                    setup.opd_kind, record)
+                                    setup.opd_kind, record,
+                                    _wobble_spread(sampling.path, setup.sample_rate_hz))
     alias_band, aliasing = _aliasing(
         found, spec, spectra.sweep_spectra, spectra.interferograms, sampling.path,
         setup.sample_rate_hz, sampling.bandwidth_fraction, sigma_app, factor, sigma_alias,
@@ -983,10 +984,22 @@ def _channel_delay(ifgs, path, fs, kind):
     )
 
 
-def _flag_lines(found, lam_ref, sigma_alias, kind, record):
-    """Why each line is not a source line (None when it is): a ghost (reference light,
-    harmonic or intermodulation product of a clipped detector; :mod:`ftsource.lines.ghosts`) or a
-    line beyond the alias-free limit; returns ``(flags, notes)``."""
+def _wobble_spread(path, fs) -> float:
+    """How far (cm⁻¹) the speed wobble spreads a scan artefact: a periodic error whose
+    residual depends on the speed comes with side lines at j/P, j = 1 … 3, P the wobble's OPD
+    period (:mod:`ftsource.interferogram.wobble`); 0 for an even scan."""
+    from ftsource.interferogram.wobble import WOBBLE_NOTE_DEPTH, artefact_offsets, speed_wobble
+
+    wob = speed_wobble(path.opd_cm, path.sweeps, fs)
+    offsets = artefact_offsets(wob, orders=3)
+    return float(offsets[-1]) if wob.depth >= WOBBLE_NOTE_DEPTH and offsets.size else 0.0
+
+
+def _flag_lines(found, lam_ref, sigma_alias, kind, record, wobble_spread_per_cm=0.0):
+    """Why each line is not a source line (None when it is): a ghost (reference light, side
+    line of a distorted reference, harmonic or intermodulation product of a clipped detector;
+    :mod:`ftsource.lines.ghosts`) or a line beyond the alias-free limit; returns
+    ``(flags, notes)``."""
     from ftsource.lines.ghosts import flag_ghosts
 
     flags = flag_ghosts(
@@ -996,6 +1009,7 @@ def _flag_lines(found, lam_ref, sigma_alias, kind, record):
         reference_per_cm=1e7 / lam_ref if kind.uses_reference_laser else None,
         clipped=clipped_fraction(record.columns["signal"]) > CLIPPED_FRACTION_LIMIT,
         band_edge_per_cm=1e7 / SEARCH_BAND_NM[0],
+        reference_harmonic_spread_per_cm=wobble_spread_per_cm,
         # ghosts of a laser are as narrow as the instrument line shape
         eligible=[not f.resolved or f.fwhm_per_cm < 3 * f.instrument_fwhm_per_cm for f in found],
     )
@@ -1018,7 +1032,8 @@ def _flag_lines(found, lam_ref, sigma_alias, kind, record):
     if n_ghost:
         notes.append(
             f"{n_ghost} spectral feature(s) were flagged as not from the source (reference "
-            "ghost, harmonic or intermodulation product of a clipped detector, or beyond the "
-            "alias-free limit); each such line carries its reason"
+            "ghost, side line of a distorted reference, harmonic or intermodulation product "
+            "of a clipped detector, or beyond the alias-free limit); each such line carries "
+            "its reason"
         )
     return flags, tuple(notes)
