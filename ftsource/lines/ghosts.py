@@ -11,7 +11,8 @@ and strength say it was made by the instrument:
     Harmonic distortion of the reference channel(s) leaves a phase error periodic in the
     reference fringe phase (:mod:`ftsource.interferogram.periodic` removes most of it); it
     modulates the OPD scale at k cycles per reference wavelength and puts weak lines at
-    |σ_s ± k·σ_ref|, k = 1 … :data:`MAX_REFERENCE_HARMONIC`, beside every source line σ_s, of
+    |σ_s ± k·σ_ref|, k = 1 … :data:`MAX_REFERENCE_HARMONIC`, beside every source line σ_s
+    (k = 1 beside the main line only: elsewhere it may as well be a real line), of
     relative strength about β_k·σ_s/(2σ_ref) for an error of β_k rad (first-order sidebands of
     a phase modulation). A line there at most :data:`REFERENCE_HARMONIC_LEVEL` of its parent
     is flagged.
@@ -162,8 +163,9 @@ def flag_ghosts(
        wavelength (a He-Ne, a 633 nm diode) is then far likelier than crosstalk with nothing
        else to see (the caller warns and says how to tell);
     2. reference harmonic: ``|σ_k − |σ_i ± m·σ_ref|| < tol_k`` for a source line i with
-       ``a_k ≤`` :data:`REFERENCE_HARMONIC_LEVEL` ``· a_i`` and m = 1 …
-       :data:`MAX_REFERENCE_HARMONIC` (independent of clipping), the tolerance widened by
+       ``a_k ≤`` :data:`REFERENCE_HARMONIC_LEVEL` ``· a_i`` and m = 2 …
+       :data:`MAX_REFERENCE_HARMONIC`, or m = 1 when i is a main line of step 1
+       (independent of clipping), the tolerance widened by
        ``reference_harmonic_spread_per_cm``;
     3. harmonic (clipped only): ``|σ_k − m·σ_i| < tol_k`` for a source line i stronger than k
        and m = 2 … ⌊band_edge/σ_i⌋;
@@ -228,7 +230,8 @@ def flag_ghosts(
             ):
                 flag = "reference-ghost"
             elif reference_per_cm is not None and _is_reference_harmonic(
-                k, sources, sig, amp, tol[k] + reference_harmonic_spread_per_cm, reference_per_cm
+                k, sources, mains, sig, amp, tol[k] + reference_harmonic_spread_per_cm,
+                reference_per_cm,
             ):
                 flag = "reference-harmonic"
             elif clipped:
@@ -253,11 +256,13 @@ def _is_reference_ghost(k, mains, sig, tol, s_ref) -> bool:
                for i in mains for s in (-1.0, 1.0))
 
 
-def _is_reference_harmonic(k, sources, sig, amp, tol, s_ref) -> bool:
+def _is_reference_harmonic(k, sources, mains, sig, amp, tol, s_ref) -> bool:
     for i in sources:
         if amp[k] > REFERENCE_HARMONIC_LEVEL * amp[i]:
             continue
-        for m in range(1, MAX_REFERENCE_HARMONIC + 1):
+        # m = 1 beside a line other than the main ones stays a source line: a weak line at
+        # σ_i ± σ_ref is as likely a real line as reference light mixed in (see above)
+        for m in range(1 if i in mains else 2, MAX_REFERENCE_HARMONIC + 1):
             if min(abs(sig[k] - abs(sig[i] + s * m * s_ref)) for s in (-1.0, 1.0)) < tol:
                 return True
     return False
