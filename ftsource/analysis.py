@@ -578,8 +578,23 @@ def _spectra(setup: _Setup, sampling: _Sampling, sweeps: _Sweeps, planner) -> _S
                                 phase_correction=options.phase_correction, planner=planner)
         for ig in ifgs
     ]
-    sweep_specs = _check_zpd_across_sweeps(sweep_specs, ifgs)
+    sweep_specs, revivals = _check_zpd_across_sweeps(sweep_specs, ifgs)
     rejected, notes = sweeps.rejected, ()
+    if revivals:
+        # a burst another sweep over the same path shows to be weaker than one elsewhere
+        # is a revival, not ZPD: such sweeps are left out (the others' ZPD is measured)
+        sweep_specs = [s for s in sweep_specs if s.sweep_index not in revivals]
+        ifgs = tuple(ig for ig in ifgs if ig.sweep.index not in revivals)
+        rejected += tuple(
+            (i, "its strongest burst is a coherence revival, not zero path difference (a "
+                "sweep over the same path sees a stronger burst elsewhere)")
+            for i in sorted(revivals))
+        notes += (
+            f"{len(revivals)} sweep(s) hold a coherence revival but not zero path difference "
+            "(another sweep over the same path sees a stronger burst elsewhere): they were "
+            "left out, so that the maximum path difference and the resolution count from "
+            "zero path difference",
+        )
     if any(s.zpd_found for s in sweep_specs) and not all(s.zpd_found for s in sweep_specs):
         # a magnitude spectrum of a sweep that misses ZPD does not mix with phase-corrected
         # ones (different line shapes and noise): keep the sweeps through ZPD
@@ -746,23 +761,29 @@ def _safety_notes(source_lines) -> tuple[str, ...]:
 def _check_zpd_across_sweeps(sweep_specs, ifgs):
     """Sweep spectra whose ZPD another sweep of the same stretch of reference contradicts
     (:func:`ftsource.interferogram.zpd.conflicting_zpd`) marked ambiguous: it may be a
-    coherence revival seen in a sweep that does not reach the true ZPD."""
+    coherence revival seen in a sweep that does not reach the true ZPD. Returns them with the
+    indices of the sweeps whose burst is known to be a revival (contradicted by a sweep whose
+    own burst stands clearly above all others)."""
     from ftsource.interferogram.zpd import conflicting_zpd
 
     by_index = {ig.sweep.index: ig for ig in ifgs}
     igs = [by_index[s.sweep_index] for s in sweep_specs]
     if len(igs) < 2:
-        return sweep_specs
+        return sweep_specs, frozenset()
     spans = [ig.span_cm for ig in igs]
-    bad = conflicting_zpd(
+    args = (
         [s.x_zpd_cm if s.zpd_found else np.nan for s in sweep_specs],
         [ig.sweep.segment for ig in igs],
         [(ig.x0_cm, ig.x0_cm + ig.span_cm) for ig in igs],
         [s.peak_cm for s in sweep_specs],
-        tolerance_cm=0.05 * float(np.median(spans)),
     )
+    tol = 0.05 * float(np.median(spans))
+    bad = conflicting_zpd(*args, tolerance_cm=tol)
+    known = conflicting_zpd(*args, tolerance_cm=tol,
+                            clear=[s.zpd_found and not s.zpd_ambiguous for s in sweep_specs])
+    revivals = frozenset(s.sweep_index for s, k in zip(sweep_specs, known, strict=True) if k)
     return [replace(s, zpd_ambiguous=True) if b else s
-            for s, b in zip(sweep_specs, bad, strict=True)]
+            for s, b in zip(sweep_specs, bad, strict=True)], revivals
 
 
 def _wobble_notes(source_lines, path, fs, resolution_per_cm) -> tuple[str, ...]:

@@ -12,6 +12,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from ftsource.interferogram.zpd import phase_reference
 from ftsource.measure.values import (
     C_M_S,
     air_wavelength_nm,
@@ -77,6 +78,8 @@ class ProcessingFacts:
     opd_step_nm: float | None
     zero_fill: int
     channel_delay_s: float | None
+    #: What served as the phase reference (:data:`ftsource.interferogram.zpd.PHASE_REFERENCES`).
+    phase_reference: str = "none"
 
 
 @dataclass(frozen=True)
@@ -200,6 +203,8 @@ def processing_facts(options, path, limits, sweep_spectra, rejected,
         zero_fill=int(options.zero_fill),
         channel_delay_s=finite_or_none(channel_delay.delay_s) if channel_delay is not None
         else None,
+        phase_reference=phase_reference([s.zpd_found for s in sweep_spectra],
+                                        [s.zpd_ambiguous for s in sweep_spectra]),
     )
 
 
