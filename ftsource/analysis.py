@@ -224,18 +224,18 @@ def _encoder_notes(options) -> tuple[str, ...]:
         return (
             "the OPD scale comes from a position encoder: its scale uncertainty and any "
             "cosine/Abbe error are not known to ftsource and are not in the budget; give "
-            "--encoder-scale-uncertainty and --alignment-allowance",
+            "encoder_scale_uncertainty and alignment_allowance",
         )
     if scale:
         return (
             "the OPD scale comes from a position encoder: its scale uncertainty is not known "
             "to ftsource and is not in the budget, which is then too small; give "
-            "--encoder-scale-uncertainty",
+            "encoder_scale_uncertainty",
         )
     if abbe:
         return (
             "the OPD scale comes from a position encoder: any cosine/Abbe error is not in the "
-            "budget; give --alignment-allowance",
+            "budget; give alignment_allowance",
         )
     return ()
 

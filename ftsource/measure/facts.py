@@ -178,8 +178,8 @@ def input_facts(record, options, *, opd_kind, reference_wavelength_nm,
     if air is not None and not options.air_given:
         notes = (
             "air conditions were not given: standard lab air (20 °C, 101.325 kPa, 50 % RH) "
-            "was assumed with wide uncertainties; give --air-temperature, --air-pressure and "
-            "--air-humidity (a lab above about 150 m altitude must give its pressure)",
+            "was assumed with wide uncertainties; give air_temperature, air_pressure and "
+            "air_humidity (a lab above about 150 m altitude must give its pressure)",
         )
     return facts, notes
 
