@@ -217,10 +217,10 @@ def _checked_inputs(wavelength_vac_nm, temperature_c, pressure_pa, humidity_perc
     pv = (rh / 100.0) * _svp(t)
     if np.any(pv >= p):
         raise OptionError(
-            f"a relative humidity of {np.max(rh):g} % at {np.max(t):g} °C "
+            f"a relative humidity (humidity_percent) of {np.max(rh):g} % at {np.max(t):g} °C "
             f"gives a water vapour pressure of {np.max(pv):g} Pa, not below the air pressure "
-            f"of {np.min(p):g} Pa; lower the humidity (air_humidity) or the "
-            "temperature (air_temperature), or check the pressure (air_pressure)"
+            f"(pressure_pa) of {np.min(p):g} Pa; lower the humidity or the temperature, or "
+            "check the pressure"
         )
     return args
 
