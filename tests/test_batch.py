@@ -5,6 +5,9 @@ Oracles: the serial run in this process is the reference for the process-pool an
 same record (the single-record command, itself tested against closed forms in
 test_accuracy.py); astropy's ECSV reader (a general-purpose library) reads the summary back.
 Interrupting a batch is tested on a real subprocess sent SIGINT, as a terminal's Ctrl-C is.
+
+Reference: astropy.table (ECSV reader) and dask.distributed (LocalCluster), general-purpose
+libraries from PyPI; the laser wavelengths are invented test inputs.
 """
 
 from __future__ import annotations
