@@ -50,7 +50,9 @@ def make(case: str, n: int):
     rng = np.random.default_rng(1)
     t = np.arange(n) / FS
     spf = 12.0  # samples per reference fringe on the straight parts of the scan
-    wob, amp, centre = 0.05, 0.5, 0.45
+    # -1.5 mm .. 8.5 mm: ZPD well inside the straight part of each sweep (the rounded
+    # turnarounds take 1 mm at each end)
+    wob, amp, centre = 0.05, 0.5, 0.35
     if case == "wobble":
         wob = 0.3
     elif case == "multimode":
