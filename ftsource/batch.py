@@ -79,7 +79,7 @@ class JobOutcome:
     bytes of its output files."""
 
     row: dict
-    payloads: tuple[bytes, ...] | None = None
+    payloads: dict[str, bytes] | None = None
 
 
 @dataclass
@@ -157,7 +157,7 @@ def run_job(job: BatchJob) -> JobOutcome:
             planner = FFTPlanner(effort=job.fft_planning, threads=job.fft_threads,
                                  wisdom=job.wisdom)
             result = analyze(record, job.options, planner=planner)
-            payloads = tuple(output_payloads(result))
+            payloads = output_payloads(result)
             d = result.to_dict()
     except (FtsourceError, OSError) as exc:
         return JobOutcome(_empty_row(job, "failed", _one_line(exc)))
