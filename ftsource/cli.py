@@ -484,6 +484,16 @@ def _no_reference_message(record) -> str:
     )
 
 
+def _in_cli_terms(result):
+    """The result with its warnings naming the command line's flags where the library names
+    its keyword parameters (:func:`ftsource.parameters.cli_terms`)."""
+    from dataclasses import replace
+
+    from ftsource.parameters import cli_terms
+
+    return replace(result, warnings=tuple(cli_terms(w) for w in result.warnings))
+
+
 def _cmd_analyze(args, out, err) -> int:
     from ftsource.analysis import analyze
     from ftsource.errors import AnalysisError, OptionError
@@ -509,6 +519,7 @@ def _cmd_analyze(args, out, err) -> int:
         if msg.startswith("-"):
             raise type(exc)(msg) from None
         raise type(exc)(f"{record.path}: {msg}") from None
+    result = _in_cli_terms(result)
     # Everything the user will see is made before anything is written: a failure while
     # shaping the output leaves no file behind.
     text = result_json(result) if args.json else format_summary(result) + "\n"

@@ -177,5 +177,5 @@ def check_signal_channel(signal, *, name: str = "signal") -> None:
         raise AnalysisError(
             f"the source channel '{name}' is constant ({s[0]:g} in every sample): the "
             "detector is unplugged, off or saturated; check its cable, power and gain, and the "
-            "column mapping (--columns signal=NAME)"
+            "column mapping (columns='signal=NAME')"
         )

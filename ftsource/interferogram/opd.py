@@ -23,6 +23,7 @@ from dataclasses import dataclass, replace
 import numpy as np
 
 from ftsource.errors import AnalysisError, OptionError
+from ftsource.interferogram.periodic import periodic_phase_error, remove_periodic_error
 from ftsource.interferogram.scale import HENE_VACUUM_WAVELENGTH_NM, OpdKind
 from ftsource.interferogram.turnarounds import (
     abrupt_steps_note,
@@ -102,6 +103,9 @@ class OpticalPath:
     fringe_slips: int
     dropouts: int
     warnings: tuple[str, ...]
+    #: Largest periodic phase error (rad) found and removed after the ellipse fit
+    #: (:mod:`ftsource.interferogram.periodic`); 0 when none was estimated.
+    periodic_error_rad: float = 0.0
 
     @property
     def max_speed_cm_s(self) -> float:
@@ -567,6 +571,13 @@ def opd_from_quadrature(
                                            - ph[:: max(1, old.size // 4096)]) / (2 * np.pi))
         ph *= 1 / to_phase
         x[sl] = ph
+    # harmonic distortion of the channels leaves a phase error periodic in the fringe phase
+    x *= to_phase
+    periodic = periodic_phase_error(x, seg_runs, samples_per_fringe=spf)
+    if periodic.amplitude_rad > 0:
+        for a, b in seg_runs:
+            x[a:b] = remove_periodic_error(x[a:b], periodic)
+    x *= 1 / to_phase
     if smooth:
         w = _odd(min(spf, 64))
         if w >= 5:
@@ -581,6 +592,7 @@ def opd_from_quadrature(
         fringe_slips=slips,
         dropouts=max(len(runs) - 1, 0),
         warnings=tuple(warnings),
+        periodic_error_rad=periodic.amplitude_rad,
     )
 
 
