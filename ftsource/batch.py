@@ -39,7 +39,7 @@ __all__ = [
 ]
 
 #: File name endings taken as records when a folder is given.
-RECORD_SUFFIXES = (".csv", ".tsv", ".txt", ".dat", ".npz", ".wav")
+RECORD_SUFFIXES = (".csv", ".tsv", ".txt", ".dat", ".npz", ".npy", ".raw", ".wav")
 #: The summary table's columns: name, unit (or ""), description.
 SUMMARY_COLUMNS = (
     ("record", "", "the record file as found"),
