@@ -506,9 +506,13 @@ def coadd(
     """
     if not sweep_spectra:
         raise AnalysisError("no sweep could be transformed")
-    vals = np.array([s.values for s in sweep_spectra])
-    n = vals.shape[0]
-    mean = vals.mean(axis=0)
+    n = len(sweep_spectra)
+    # summed in sweep order, as numpy's mean over the first axis of the stacked values does,
+    # without stacking them (one more copy of every sweep's spectrum)
+    mean = np.array(sweep_spectra[0].values, dtype=float)
+    for s in sweep_spectra[1:]:
+        mean += s.values
+    mean /= n
     methods = {s.method for s in sweep_spectra}
     kind = "magnitude" if methods == {"magnitude"} else "real"
     # each sweep's own noise level (its spectrum is noise over most of the grid); sweeps of
