@@ -132,8 +132,10 @@ def build_parser() -> argparse.ArgumentParser:
     b.add_argument("records", metavar="DIR|GLOB",
                    help="a folder of records, or a pattern such as 'runs/*.npz' (quote it)")
     b.add_argument("--out", metavar="DIR", required=True,
-                   help="write summary.ecsv and each record's results (DIR/<name>/) here (required)")
-    b.add_argument("--overwrite", action="store_true", help="replace result files already in --out (default: refuse)")
+                   help="write summary.ecsv and each record's results (DIR/<name>/) here "
+                        "(required)")
+    b.add_argument("--overwrite", action="store_true",
+                   help="replace result files already in --out (default: refuse)")
     b.add_argument("--workers", type=int, metavar="N",
                    help="worker processes (default: the number of CPUs; 1 runs in this process)")
     b.add_argument("--scheduler", metavar="ADDRESS",
@@ -363,137 +365,25 @@ def _add_analysis_options(a) -> None:
                    help="collimator focal length, e.g. 50mm (default: no correction)")
 
 
-def _qty(text, unit, name, *, physical_type=None, positive=False):
+def _qty(text, unit, name, *, positive=False):
     """A plain float in ``unit`` from an option's text; ``positive`` refuses zero and below."""
-    from ftsource.errors import OptionError
+    from ftsource.parameters import positive_value
     from ftsource.quantity import to_float
 
-    value = to_float(text, unit, name=name)
-    if positive and not value > 0:
-        raise OptionError(
-            f"{name}: {quote(text)} is not allowed; it must be above zero "
-            f"(e.g. {_EXAMPLE.get(unit, unit)})"
-        )
-    return value
-
-
-_EXAMPLE = {"nm": "'632.991nm'", "Hz": "'48kHz'", "m/s": "'0.5mm/s'", "m": "'25mm'",
-            "s": "'2s'", "cm": "'1mm'"}
-
-
-def _ratio(text, name):
-    """A ratio in ppm from 'QTY' (ppm, %, or a bare fraction)."""
-    from ftsource.quantity import parse_quantity
-
-    q = parse_quantity(text, physical_type="dimensionless", name=name)
-    return float(q.to_value("")) * 1e6
-
-
-def _reference_uncertainty(text):
-    """``--reference-uncertainty`` as written: ``(ppm, None)`` for a ratio (ppm, %, a bare
-    fraction), ``(None, nm)`` for a length, ``(None, None)`` when not given. A length is turned
-    into a ratio once, by the OPD scale, when the reference wavelength is known (option or
-    the record's metadata)."""
-    from ftsource.errors import OptionError
-    from ftsource.quantity import parse_quantity
-
-    if text is None:
-        return None, None
-    name = "--reference-uncertainty"
-    try:
-        return _ratio(text, name), None
-    except OptionError:
-        q = parse_quantity(text, name=name)  # re-raises a text or unit that cannot be read
-    if q.unit.physical_type != "length":
-        raise OptionError(
-            f"{name}: {quote(text)} is neither a ratio nor a length; write e.g. '1.5ppm' or "
-            "'0.001nm'"
-        )
-    return None, _qty(text, "nm", name)
+    return positive_value(text, unit, name) if positive else to_float(text, unit, name=name)
 
 
 def _options(args):
+    """The analysis options of the command line: its flags are the keyword parameters of
+    :func:`ftsource.analyze` (:data:`ftsource.parameters.PARAMETERS`), read by the same
+    :func:`ftsource.parameters.option_fields`; messages name the flags through
+    :func:`ftsource.parameters.cli_terms` in :func:`main`."""
     from ftsource.analysis import AnalysisOptions
-    from ftsource.physics.air import AirConditions
+    from ftsource.parameters import PARAMETERS, option_fields
 
-    conds = ("temperature", "pressure", "humidity", "co2")
-    given = {k: getattr(args, f"air_{k}") for k in conds
-             if getattr(args, f"air_{k}") is not None}
-    u_given = {k: getattr(args, f"air_{k}_uncertainty") for k in conds
-               if getattr(args, f"air_{k}_uncertainty") is not None}
-    air = None
-    if args.medium == "air":
-        from ftsource.errors import OptionError
-        from ftsource.quantity import parse_quantity
-
-        types = {"temperature": "temperature", "pressure": "pressure",
-                 "humidity": "dimensionless", "co2": "dimensionless"}
-        q = {k: parse_quantity(v, physical_type=types[k], name=f"--air-{k}")
-             for k, v in given.items()}
-        for k, v in u_given.items():
-            name = f"--air-{k}-uncertainty"
-            uq = parse_quantity(v, physical_type=types[k], name=name)
-            if not (float(uq.value) >= 0 and float(uq.value) < float("inf")):
-                raise OptionError(f"{name}: {quote(v)} is not allowed; give a finite value ≥ 0")
-            q[f"u_{k}"] = uq
-        air = AirConditions.from_quantities(**q)
-    elif given or u_given:
-        from ftsource.errors import OptionError
-
-        first = next(iter(given or u_given))
-        raise OptionError(
-            f"--air-{first}{'' if given else '-uncertainty'} needs --medium air (the default); "
-            "in vacuum there is no air to describe"
-        )
-    lam = None
-    if args.reference_wavelength is not None:
-        lam = _qty(args.reference_wavelength, "nm", "--reference-wavelength", positive=True)
-    ref_u_ppm, ref_u_nm = _reference_uncertainty(args.reference_uncertainty)
-    esu = None
-    if args.encoder_scale_uncertainty is not None:
-        esu = _ratio(args.encoder_scale_uncertainty, "--encoder-scale-uncertainty")
-        if not 0.0 <= esu <= 1e5:
-            from ftsource.errors import OptionError
-
-            raise OptionError(
-                f"--encoder-scale-uncertainty: {quote(args.encoder_scale_uncertainty)} is not "
-                "allowed; give a ratio from 0 to 10 %, e.g. '5ppm'"
-            )
-
-    def opt(value, unit, name):
-        return None if value is None else _qty(value, unit, name, positive=True)
-
-    cal = None
-    if args.calibration is not None:
-        from ftsource.calibrate.calibration import load_calibration
-
-        cal = load_calibration(args.calibration)
-    resp = None
-    if args.response is not None:
-        from ftsource.calibrate.response import ResponseCurve
-
-        resp = ResponseCurve.from_file(args.response)
-    return AnalysisOptions(
-        reference_wavelength_nm=lam,
-        reference_uncertainty_ppm=ref_u_ppm,
-        reference_uncertainty_nm=ref_u_nm,
-        alignment_allowance_ppm=_ratio(args.alignment_allowance, "--alignment-allowance"),
-        medium=args.medium,
-        air=air,
-        air_given=tuple(sorted(k for k in given if k != "co2")),
-        air_uncertainty_given=tuple(sorted(u_given)),
-        air_model=args.air_model,
-        encoder_scale_uncertainty_ppm=esu,
-        sample_rate_hz=opt(args.sample_rate, "Hz", "--sample-rate"),
-        mirror_speed_m_s=opt(args.mirror_speed, "m/s", "--mirror-speed"),
-        apodization=args.apodization,
-        phase_correction=args.phase_correction,
-        fft_planning=args.fft_planning,
-        calibration=cal,
-        response=resp,
-        aperture_diameter_m=opt(args.aperture_diameter, "m", "--aperture-diameter"),
-        focal_length_m=opt(args.focal_length, "m", "--focal-length"),
-    )
+    params = {k: getattr(args, k) for k in PARAMETERS
+              if k != "columns" and getattr(args, k, None) is not None}
+    return AnalysisOptions(**option_fields(**params))
 
 
 def _no_reference_message(record) -> str:

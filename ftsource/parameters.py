@@ -16,7 +16,7 @@ import re
 
 from ftsource._checks import quote
 
-__all__ = ["PARAMETERS", "option_fields", "cli_terms"]
+__all__ = ["PARAMETERS", "option_fields", "positive_value", "cli_terms"]
 
 #: Every keyword parameter of :func:`ftsource.analyze`, with what it is.
 PARAMETERS: dict[str, str] = {
@@ -56,7 +56,7 @@ _EXAMPLE = {"nm": "'632.991nm'", "Hz": "'48kHz'", "m/s": "'0.5mm/s'", "m": "'25m
             "s": "'2s'", "cm": "'1mm'"}
 
 
-def _positive(value, unit, name):
+def positive_value(value, unit, name):
     """A plain float in ``unit`` from a quantity (text or Quantity), above zero."""
     from ftsource.errors import OptionError
     from ftsource.quantity import to_float
@@ -168,7 +168,7 @@ def option_fields(**params) -> dict:
     air, air_given, air_u_given = _air(p)
     lam = None
     if p.get("reference_wavelength") is not None:
-        lam = _positive(p["reference_wavelength"], "nm", "reference_wavelength")
+        lam = positive_value(p["reference_wavelength"], "nm", "reference_wavelength")
     ref_u_ppm, ref_u_nm = (None, None) if p.get("reference_uncertainty") is None else \
         _reference_uncertainty(p["reference_uncertainty"])
     esu = None
@@ -181,7 +181,7 @@ def option_fields(**params) -> dict:
             )
 
     def opt(key, unit):
-        return None if p.get(key) is None else _positive(p[key], unit, key)
+        return None if p.get(key) is None else positive_value(p[key], unit, key)
 
     extra = {}
     if p.get("zero_fill") is not None:

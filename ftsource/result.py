@@ -48,6 +48,19 @@ def _num(v):
     return finite_or_none(v)
 
 
+class _Figure:
+    """A field of the result's :class:`~ftsource.measure.figures.SourceFigures` read as an
+    astropy Quantity in ``unit`` (None where the data gave none)."""
+
+    def __init__(self, field: str, unit: str, doc: str):
+        self.field, self.unit, self.__doc__ = field, unit, doc
+
+    def __get__(self, result, owner=None):
+        if result is None:
+            return self
+        return _quantity(getattr(result.figures, self.field), self.unit)
+
+
 @dataclass(frozen=True)
 class Result:
     """Everything an analysis found (:func:`ftsource.analysis.analyze` builds it).
@@ -113,81 +126,44 @@ class Result:
         """The source's kind: ``"narrow"``, ``"multimode"``, ``"broadband"`` or ``"none"``."""
         return self.figures.kind
 
-    @property
-    def centre_wavelength(self):
-        """Centre wavelength in vacuum (corrected, the budget's measurand)."""
-        return _quantity(self.figures.centre_wavelength_nm, "nm")
-
-    @property
-    def centre_wavelength_air(self):
-        """Centre wavelength in the analysis's air (None in vacuum or outside 300–1700 nm)."""
-        return _quantity(self.figures.centre_wavelength_air_nm, "nm")
-
-    @property
-    def u_centre_wavelength(self):
-        """Combined standard uncertainty of the centre wavelength (JCGM 100)."""
-        return _quantity(self.figures.u_centre_wavelength_nm, "nm")
-
-    @property
-    def expanded_uncertainty(self):
-        """Expanded uncertainty of the centre wavelength (about 95 % coverage)."""
-        return _quantity(self.figures.expanded_uncertainty_nm, "nm")
+    centre_wavelength = _Figure(
+        "centre_wavelength_nm", "nm",
+        "Centre wavelength in vacuum (corrected, the budget's measurand).")
+    centre_wavelength_air = _Figure(
+        "centre_wavelength_air_nm", "nm",
+        "Centre wavelength in the analysis's air (None in vacuum or outside 300–1700 nm).")
+    u_centre_wavelength = _Figure(
+        "u_centre_wavelength_nm", "nm",
+        "Combined standard uncertainty of the centre wavelength (JCGM 100).")
+    expanded_uncertainty = _Figure(
+        "expanded_uncertainty_nm", "nm",
+        "Expanded uncertainty of the centre wavelength (about 95 % coverage).")
+    wavenumber = _Figure("wavenumber_per_cm", "1/cm", "Vacuum wavenumber of the centre.")
+    frequency = _Figure("frequency_thz", "THz", "Optical frequency of the centre.")
+    linewidth = _Figure(
+        "fwhm_nm", "nm",
+        "FWHM of the main line or band (None when not resolved: see linewidth_upper_bound).")
+    u_linewidth = _Figure("u_fwhm_nm", "nm", "Standard uncertainty of the linewidth.")
+    linewidth_upper_bound = _Figure(
+        "fwhm_upper_bound_nm", "nm",
+        "Upper bound of the FWHM of an unresolved line (about 95 % coverage).")
+    coherence_length = _Figure(
+        "coherence_length_mm", "mm",
+        "Coherence length from the spectrum (Goodman's integral definition).")
+    u_coherence_length = _Figure(
+        "u_coherence_length_mm", "mm", "Standard uncertainty of the coherence length.")
+    coherence_length_lower_bound = _Figure(
+        "coherence_length_lower_bound_mm", "mm",
+        "Lower bound of the coherence length of an unresolved line.")
+    peak_wavelength = _Figure(
+        "peak_wavelength_nm", "nm", "Peak wavelength of a broad band (vacuum).")
+    centroid_wavelength = _Figure(
+        "centroid_wavelength_nm", "nm", "Centroid wavelength of a broad band (vacuum).")
 
     @property
     def coverage_factor(self) -> float | None:
         """The coverage factor k of :attr:`expanded_uncertainty`."""
         return self.figures.coverage_factor
-
-    @property
-    def wavenumber(self):
-        """Vacuum wavenumber of the centre."""
-        return _quantity(self.figures.wavenumber_per_cm, "1/cm")
-
-    @property
-    def frequency(self):
-        """Optical frequency of the centre."""
-        return _quantity(self.figures.frequency_thz, "THz")
-
-    @property
-    def linewidth(self):
-        """FWHM of the main line or band (None when not resolved: see
-        :attr:`linewidth_upper_bound`)."""
-        return _quantity(self.figures.fwhm_nm, "nm")
-
-    @property
-    def u_linewidth(self):
-        """Standard uncertainty of :attr:`linewidth`."""
-        return _quantity(self.figures.u_fwhm_nm, "nm")
-
-    @property
-    def linewidth_upper_bound(self):
-        """Upper bound of the FWHM of an unresolved line (about 95 % coverage)."""
-        return _quantity(self.figures.fwhm_upper_bound_nm, "nm")
-
-    @property
-    def coherence_length(self):
-        """Coherence length from the spectrum (Goodman's integral definition)."""
-        return _quantity(self.figures.coherence_length_mm, "mm")
-
-    @property
-    def u_coherence_length(self):
-        """Standard uncertainty of :attr:`coherence_length`."""
-        return _quantity(self.figures.u_coherence_length_mm, "mm")
-
-    @property
-    def coherence_length_lower_bound(self):
-        """Lower bound of the coherence length of an unresolved line."""
-        return _quantity(self.figures.coherence_length_lower_bound_mm, "mm")
-
-    @property
-    def peak_wavelength(self):
-        """Peak wavelength of a broad band (vacuum)."""
-        return _quantity(self.figures.peak_wavelength_nm, "nm")
-
-    @property
-    def centroid_wavelength(self):
-        """Centroid wavelength of a broad band (vacuum)."""
-        return _quantity(self.figures.centroid_wavelength_nm, "nm")
 
     @property
     def mode_spacing(self):

@@ -256,10 +256,95 @@ def fit_line(
     .. [3] JCGM 100:2008, Evaluation of measurement data — Guide to the expression of
        uncertainty in measurement, §4.2 (Type A evaluation).
     """
-    from scipy.optimize import least_squares
-
     if profile not in ("auto", "gaussian", "lorentzian", "voigt"):
         raise ValueError(f"profile must be auto, gaussian, lorentzian or voigt, not {profile!r}")
+    win = _window(spec, centre_guess_per_cm, others)
+    ils = win.ils
+    first = "gaussian" if profile in ("auto", "gaussian") else profile
+    results = {first: _run_profile(win, first)}
+    cov, dof = _covariance(results[first][0], win)
+    w, uw, g, lw = _widths(first, results[first][0].x, cov)
+    resolved = bool(w >= RESOLVED_FACTOR * ils and w > 3 * uw)
+    sel = _Selection(first, results[first][0], cov, dof, float(results[first][0].x[1]),
+                     float(np.sqrt(max(cov[1, 1], 0.0))), w, uw, g, lw, {first: 1.0},
+                     {first: (float(g), float(lw), float(uw))})
+    if profile == "auto" and resolved:
+        for prof in ("lorentzian", "voigt"):
+            results[prof] = _run_profile(win, prof)
+        sel = _select_profile(win, results)
+    elements = sel.fwhm / ils if ils > 0 else 0.0
+    claimed = _claimed_profile(sel, resolved and elements >= MIN_ELEMENTS_FOR_PROFILE,
+                               forced=profile != "auto")
+    pair, pair_lines = False, ()
+    if profile == "auto" and (resolved and elements < PAIR_ELEMENTS
+                              or not resolved and sel.fwhm > 0.5 * ils):
+        aic_pair, pp = _run_pair(win, sel.centre, sel.fwhm)
+        results["pair"] = (None, aic_pair)
+        pair, pair_lines = _pair_verdict(aic_pair, pp, results[sel.best][1], ils, resolved)
+    res, perr = sel.res, np.sqrt(np.clip(np.diag(sel.cov), 0, None))
+    bound = None
+    if not resolved:
+        # upper bound at coverage factor BOUND_K on the Gaussian width parameter q = FWHM²
+        q, uq = ((res.x[3], perr[3]) if sel.best in ("gaussian", "voigt")
+                 else (sel.fwhm**2, 2 * sel.fwhm * sel.u_fwhm))
+        bound = float(max(np.sqrt(max(q + BOUND_K * uq, 0.0)), ils))
+    noise_at = float(spec.noise[win.i0])
+    p = res.x
+    peak = float(p[0] * spec.line_shape.kernel(np.zeros(1), sel.gauss, sel.lorentz)[0] / win.k00)
+    return LineFit(
+        centre_per_cm=sel.centre,
+        u_centre_per_cm=sel.u_centre,
+        height=float(p[0]),
+        peak=peak,
+        area=float(p[0] / win.k00),
+        u_area=float(perr[0] / win.k00),
+        profile=claimed,
+        gauss_fwhm_per_cm=float(sel.gauss),
+        lorentz_fwhm_per_cm=float(sel.lorentz),
+        fwhm_per_cm=float(sel.fwhm),
+        u_fwhm_per_cm=float(sel.u_fwhm),
+        resolved=resolved,
+        fwhm_upper_bound_per_cm=bound,
+        instrument_fwhm_per_cm=float(ils),
+        snr=float(peak / noise_at) if noise_at > 0 else float("inf"),
+        n_points=int(win.x.size),
+        n_effective=float(win.n_eff),
+        dof=float(sel.dof),
+        success=bool(res.success),
+        message=str(res.message),
+        aic={k: float(v[1]) for k, v in results.items()},
+        profile_weights=sel.weights,
+        profile_widths=sel.widths,
+        pair_possible=pair,
+        pair_lines=pair_lines,
+        bic_gain=_bic_gain(win, res),
+    )
+
+
+@dataclass(frozen=True)
+class _Window:
+    """The points a line is fitted on: weights, noise correlation and line-shape tables."""
+
+    i0: int
+    x: np.ndarray
+    y: np.ndarray
+    wts: np.ndarray
+    ils: float
+    excess2: float
+    h0: float
+    sigma0: float
+    n_eff: float
+    rmat: np.ndarray
+    ev: object
+    k00: float
+
+    def aic(self, rss: float, n_par: int) -> float:
+        """Akaike's criterion on the effective number of independent points."""
+        return self.n_eff * np.log(max(rss, 1e-300) / self.x.size) + 2 * n_par
+
+
+def _window(spec: Spectrum, centre_guess_per_cm: float, others) -> _Window:
+    """The fit window around the local maximum nearest ``centre_guess_per_cm``."""
     sig = spec.sigma_per_cm
     y_all = spec.density
     if others is not None:
@@ -279,216 +364,193 @@ def fit_line(
     stride = max(1, int(np.ceil((win.stop - win.start) / MAX_FIT_POINTS)))
     win = slice(win.start, win.stop, stride)
     x = sig[win]
-    y = y_all[win]
-    wts = 1.0 / spec.noise[win]
-    excess2 = max(obs**2 - ils**2, 0.0)
     ds = (sig[1] - sig[0]) * stride
     # effective number of independent points: N / Σ_k R(k·Δσ)
     lags = ds * np.arange(-x.size + 1, x.size)
     r = spec.line_shape.noise_correlation(lags)
     corr_len = float(np.sum(r[np.abs(lags) <= 4 * ils]))
-    n_eff = x.size / max(corr_len, 1.0)
-    rmat = r[(np.arange(x.size)[:, None] - np.arange(x.size)[None, :]) + x.size - 1]
-    # the line shape at the fit points, with quadrature and trigonometric tables built once
-    ev = spec.line_shape.evaluator(x)
-    k00 = spec.line_shape.kernel(np.zeros(1))[0]
-    h0 = float(y_all[i0])
-    hs = abs(h0) + 1e-300
-
-    def aic_of(rss, n_par):
-        return n_eff * np.log(max(rss, 1e-300) / x.size) + 2 * n_par
-
-    def run(prof):
-        gq = prof in ("gaussian", "voigt")
-        lz = prof in ("lorentzian", "voigt")
-        p0 = [h0, sig[i0], 0.0]
-        scale = [hs, ils, hs]
-        if gq:
-            p0.append(excess2 if prof == "gaussian" else 0.5 * excess2)
-            scale.append(ils**2)
-        if lz:
-            p0.append(np.sqrt(excess2) * (1.0 if prof == "lorentzian" else 0.5))
-            scale.append(ils)
-
-        def widths(p):
-            return (p[3] if gq else 0.0), (p[-1] if lz else 0.0)
-
-        def fun(p):
-            q, lor = widths(p)
-            return (p[0] * ev(p[1], q, lor) / k00 + p[2] - y) * wts
-
-        def jac(p):
-            q, lor = widths(p)
-            k, dc, dq, dl = ev(p[1], q, lor, derivatives=True)
-            cols = [k / k00, p[0] * dc / k00, np.ones_like(k)]
-            if gq:
-                cols.append(p[0] * dq / k00)
-            if lz:
-                cols.append(p[0] * dl / k00)
-            return np.column_stack(cols) * wts[:, None]
-
-        # trial steps to large negative (signed) widths overflow the growing envelope; the
-        # solver rejects their non-finite cost, so numpy's overflow warnings are noise here
-        with np.errstate(over="ignore", invalid="ignore"):
-            res = least_squares(fun, p0, jac=jac, x_scale=np.array(scale), method="trf",
-                                max_nfev=100 * len(p0))
-        return res, aic_of(float(np.sum(res.fun**2)), res.x.size)
-
-    def run_pair(fit_c, fit_w):
-        """Two unresolved lines (instrument line shape) instead of one broad line."""
-        half = 0.5 * max(fit_w, 0.5 * ils)
-
-        def fun(p):
-            return (p[0] * ev(p[1], 0.0, 0.0) / k00 + p[2] * ev(p[3], 0.0, 0.0) / k00 + p[4]
-                    - y) * wts
-
-        def jac(p):
-            k1, d1, _, _ = ev(p[1], 0.0, 0.0, derivatives=True)
-            k2, d2, _, _ = ev(p[3], 0.0, 0.0, derivatives=True)
-            cols = [k1 / k00, p[0] * d1 / k00, k2 / k00, p[2] * d2 / k00, np.ones_like(k1)]
-            return np.column_stack(cols) * wts[:, None]
-
-        p0 = [0.5 * h0, fit_c - half, 0.5 * h0, fit_c + half, 0.0]
-        with np.errstate(over="ignore", invalid="ignore"):
-            res = least_squares(fun, p0, jac=jac, x_scale=np.array([hs, ils, hs, ils, hs]),
-                                method="trf", max_nfev=500)
-        return aic_of(float(np.sum(res.fun**2)), res.x.size), res.x
-
-    def covariance(res):
-        # Jacobian columns scaled to unit norm first: the width column is orders of magnitude
-        # below the height column, and pinv's relative cutoff would otherwise drop it
-        d = np.linalg.norm(res.jac, axis=0)
-        d[d == 0] = 1.0
-        J = res.jac / d
-        jtj_inv = np.linalg.pinv(J.T @ J)
-        jrj = J.T @ rmat @ J
-        # residual degrees of freedom for correlated noise: E[rss] = tr((I − H)R)
-        # = n − tr((JᵀJ)⁻¹JᵀRJ), not n − p (which biases the residual scale low)
-        dof = max(x.size - float(np.trace(jtj_inv @ jrj)), 1.0)
-        # The residuals are weighted by the spectrum's noise estimate (from thousands of
-        # points), so their variance should be 1. Scale by the residuals only when they are
-        # significantly larger (model mismatch, noise the estimate misses): then the
-        # uncertainty is residual-based with ``dof`` degrees of freedom; otherwise it rests on
-        # the noise estimate, whose degrees of freedom are many (taken as infinite).
-        ratio = float(np.sum(res.fun**2)) / dof
-        if ratio > 1.0 + 2.0 * np.sqrt(2.0 / dof):
-            s2, dof_out = ratio, dof
-        else:
-            s2, dof_out = 1.0, np.inf
-        return jtj_inv @ jrj @ jtj_inv * s2 / np.outer(d, d), dof_out
-
-    first = "gaussian" if profile in ("auto", "gaussian") else profile
-    res, aic = run(first)
-    results = {first: (res, aic)}
-    cov, dof = covariance(res)
-    w, uw, g, lw = _widths(first, res.x, cov)
-    perr = np.sqrt(np.clip(np.diag(cov), 0, None))
-    centre, u_centre = float(res.x[1]), float(perr[1])
-    resolved = bool(w >= RESOLVED_FACTOR * ils and w > 3 * uw)
-    elements = w / ils if ils > 0 else 0.0
-    best = first
-    weights = {first: 1.0}
-    pwidths = {first: (float(g), float(lw), float(uw))}
-    if profile == "auto" and resolved:
-        for prof in ("lorentzian", "voigt"):
-            results[prof] = run(prof)
-        # a Voigt with a Gaussian or Lorentzian part at or below zero width is no Voigt (the
-        # other pure profile, or an envelope growing with OPD): it cannot be the one claimed
-        v = results["voigt"][0].x
-        choices = [k for k in results if k != "voigt" or (v[3] > 0 and v[4] > 0)]
-        best = min(choices, key=lambda k: results[k][1])
-        fits = {}
-        for k in choices:
-            ck, dk = covariance(results[k][0])
-            fits[k] = (results[k][0], ck, dk, _widths(k, results[k][0].x, ck))
-        res, cov, dof, (_, _, g, lw) = fits[best][0], fits[best][1], fits[best][2], fits[best][3]
-        perr = np.sqrt(np.clip(np.diag(cov), 0, None))
-        aics = [results[k][1] for k in choices]
-        # the selected profile's estimates, with the spread over the profiles in their
-        # uncertainties
-        w, uw, wts_m = akaike_average([fits[k][3][0] for k in choices],
-                                      [fits[k][3][1] for k in choices], aics,
-                                      about=fits[best][3][0])
-        centre, u_centre, _ = akaike_average(
-            [fits[k][0].x[1] for k in choices],
-            [np.sqrt(max(fits[k][1][1, 1], 0.0)) for k in choices], aics, about=res.x[1])
-        weights = {k: float(v) for k, v in zip(choices, wts_m, strict=True)}
-        pwidths = {k: (float(fits[k][3][2]), float(fits[k][3][3]), float(fits[k][3][1]))
-                   for k in choices}
-        elements = w / ils if ils > 0 else 0.0
-    # the claim stands when the data decide between Gaussian and Lorentzian: the other pure
-    # profile (for a Voigt, the pure profile it is further from) keeps at most
-    # 1 − PROFILE_WEIGHT of the weight; a Voigt that fits as well as the pure profile it
-    # contains does not argue against that profile
-    g_w, l_w = weights.get("gaussian", 0.0), weights.get("lorentzian", 0.0)
-    rivals = {"gaussian": ("lorentzian",), "lorentzian": ("gaussian",),
-              "voigt": ("gaussian",) if l_w >= g_w else ("lorentzian",)}[best]
-    clear = sum(weights.get(k, 0.0) for k in rivals) <= 1.0 - PROFILE_WEIGHT
-    wide = resolved and elements >= MIN_ELEMENTS_FOR_PROFILE
-    claimed = best if wide and (clear or profile != "auto") else "undetermined"
-    pair = False
-    pair_lines = ()
-    if profile == "auto" and (resolved and elements < PAIR_ELEMENTS
-                              or not resolved and w > 0.5 * ils):
-        aic_pair, pp = run_pair(centre, w)
-        results["pair"] = (None, aic_pair)
-        if aic_pair < results[best][1] - PAIR_AIC_MARGIN and min(pp[0], pp[2]) > 0 \
-                and abs(pp[3] - pp[1]) > 0.25 * ils:
-            # the data show two lines clearly: find_lines takes them as two
-            pair, pair_lines = True, ((float(pp[1]), float(pp[0])), (float(pp[3]), float(pp[2])))
-        elif resolved:
-            # a broad line a pair of narrow ones fits as well: the data cannot tell (a pair
-            # nests an unresolved single line, so this is asked of resolved lines only)
-            pair = bool(aic_pair < results[best][1] + PAIR_AIC_MARGIN)
-    bound = None
-    if not resolved:
-        # upper bound at coverage factor BOUND_K on the Gaussian width parameter q = FWHM²
-        q, uq = (res.x[3], perr[3]) if best in ("gaussian", "voigt") else (w**2, 2 * w * uw)
-        bound = float(max(np.sqrt(max(q + BOUND_K * uq, 0.0)), ils))
-    noise_at = float(spec.noise[i0])
-    p = res.x
-    peak = float(p[0] * spec.line_shape.kernel(np.zeros(1), g, lw)[0] / k00)
-    # evidence for a line here at all: Schwarz's criterion of this fit against the baseline
-    # alone (others subtracted), on the effective number of points
-    rss_fit = float(np.sum(res.fun**2))
-    b0 = float(np.sum(y * wts * wts) / np.sum(wts * wts))
-    rss_null = float(np.sum(((y - b0) * wts) ** 2))
-    bic_gain = float(n_eff * np.log(max(rss_null, 1e-300) / max(rss_fit, 1e-300))
-                     - (p.size - 1) * np.log(max(n_eff, 2.0)))
-    return LineFit(
-        centre_per_cm=centre,
-        u_centre_per_cm=u_centre,
-        height=float(p[0]),
-        peak=peak,
-        area=float(p[0] / k00),
-        u_area=float(perr[0] / k00),
-        profile=claimed,
-        gauss_fwhm_per_cm=float(g),
-        lorentz_fwhm_per_cm=float(lw),
-        fwhm_per_cm=float(w),
-        u_fwhm_per_cm=float(uw),
-        resolved=resolved,
-        fwhm_upper_bound_per_cm=bound,
-        instrument_fwhm_per_cm=float(ils),
-        snr=float(peak / noise_at) if noise_at > 0 else float("inf"),
-        n_points=int(x.size),
-        n_effective=float(n_eff),
-        dof=float(dof),
-        success=bool(res.success),
-        message=str(res.message),
-        aic={k: float(v[1]) for k, v in results.items()},
-        profile_weights=weights,
-        profile_widths=pwidths,
-        pair_possible=pair,
-        pair_lines=pair_lines,
-        bic_gain=bic_gain,
+    return _Window(
+        i0=i0, x=x, y=y_all[win], wts=1.0 / spec.noise[win], ils=ils,
+        excess2=max(obs**2 - ils**2, 0.0), h0=float(y_all[i0]), sigma0=float(sig[i0]),
+        n_eff=x.size / max(corr_len, 1.0),
+        rmat=r[(np.arange(x.size)[:, None] - np.arange(x.size)[None, :]) + x.size - 1],
+        # the line shape at the fit points, with quadrature and trigonometric tables built once
+        ev=spec.line_shape.evaluator(x), k00=float(spec.line_shape.kernel(np.zeros(1))[0]),
     )
 
 
-def _failed(spec, centre, ils, msg) -> LineFit:
-    nan = float("nan")
-    return LineFit(centre, nan, nan, nan, nan, nan, "undetermined", nan, nan, nan, nan, False,
-                   ils, ils, nan, 0, 0.0, nan, False, msg, {})
+def _run_profile(win: _Window, prof: str):
+    """Least-squares fit of profile ``prof`` on the window: ``(result, AIC)``."""
+    from scipy.optimize import least_squares
+
+    ev, k00, y, wts, ils = win.ev, win.k00, win.y, win.wts, win.ils
+    hs = abs(win.h0) + 1e-300
+    gq = prof in ("gaussian", "voigt")
+    lz = prof in ("lorentzian", "voigt")
+    p0 = [win.h0, win.sigma0, 0.0]
+    scale = [hs, ils, hs]
+    if gq:
+        p0.append(win.excess2 if prof == "gaussian" else 0.5 * win.excess2)
+        scale.append(ils**2)
+    if lz:
+        p0.append(np.sqrt(win.excess2) * (1.0 if prof == "lorentzian" else 0.5))
+        scale.append(ils)
+
+    def widths(p):
+        return (p[3] if gq else 0.0), (p[-1] if lz else 0.0)
+
+    def fun(p):
+        q, lor = widths(p)
+        return (p[0] * ev(p[1], q, lor) / k00 + p[2] - y) * wts
+
+    def jac(p):
+        q, lor = widths(p)
+        k, dc, dq, dl = ev(p[1], q, lor, derivatives=True)
+        cols = [k / k00, p[0] * dc / k00, np.ones_like(k)]
+        if gq:
+            cols.append(p[0] * dq / k00)
+        if lz:
+            cols.append(p[0] * dl / k00)
+        return np.column_stack(cols) * wts[:, None]
+
+    # trial steps to large negative (signed) widths overflow the growing envelope; the
+    # solver rejects their non-finite cost, so numpy's overflow warnings are noise here
+    with np.errstate(over="ignore", invalid="ignore"):
+        res = least_squares(fun, p0, jac=jac, x_scale=np.array(scale), method="trf",
+                            max_nfev=100 * len(p0))
+    return res, win.aic(float(np.sum(res.fun**2)), res.x.size)
+
+
+def _run_pair(win: _Window, fit_c: float, fit_w: float):
+    """Two unresolved lines (instrument line shape) instead of one broad line:
+    ``(AIC, parameters)`` with parameters ``(h1, σ1, h2, σ2, baseline)``."""
+    from scipy.optimize import least_squares
+
+    ev, k00, y, wts, ils = win.ev, win.k00, win.y, win.wts, win.ils
+    hs = abs(win.h0) + 1e-300
+    half = 0.5 * max(fit_w, 0.5 * ils)
+
+    def fun(p):
+        return (p[0] * ev(p[1], 0.0, 0.0) / k00 + p[2] * ev(p[3], 0.0, 0.0) / k00 + p[4]
+                - y) * wts
+
+    def jac(p):
+        k1, d1, _, _ = ev(p[1], 0.0, 0.0, derivatives=True)
+        k2, d2, _, _ = ev(p[3], 0.0, 0.0, derivatives=True)
+        cols = [k1 / k00, p[0] * d1 / k00, k2 / k00, p[2] * d2 / k00, np.ones_like(k1)]
+        return np.column_stack(cols) * wts[:, None]
+
+    p0 = [0.5 * win.h0, fit_c - half, 0.5 * win.h0, fit_c + half, 0.0]
+    with np.errstate(over="ignore", invalid="ignore"):
+        res = least_squares(fun, p0, jac=jac, x_scale=np.array([hs, ils, hs, ils, hs]),
+                            method="trf", max_nfev=500)
+    return win.aic(float(np.sum(res.fun**2)), res.x.size), res.x
+
+
+def _covariance(res, win: _Window):
+    """Covariance of the fitted parameters for correlated noise, and its degrees of freedom.
+
+    The Jacobian's columns are scaled to unit norm first: the width column is orders of
+    magnitude below the height column, and pinv's relative cutoff would otherwise drop it.
+    The residual degrees of freedom for correlated noise are ``E[rss] = tr((I − H)R) = n −
+    tr((JᵀJ)⁻¹JᵀRJ)``, not ``n − p`` (which biases the residual scale low). The residuals are
+    weighted by the spectrum's noise estimate (from thousands of points), so their variance
+    should be 1; they scale the covariance only when significantly larger (model mismatch,
+    noise the estimate misses), and then with ``dof`` degrees of freedom; otherwise the
+    uncertainty rests on the noise estimate, whose degrees of freedom are many (infinite).
+    """
+    d = np.linalg.norm(res.jac, axis=0)
+    d[d == 0] = 1.0
+    J = res.jac / d
+    jtj_inv = np.linalg.pinv(J.T @ J)
+    jrj = J.T @ win.rmat @ J
+    dof = max(win.x.size - float(np.trace(jtj_inv @ jrj)), 1.0)
+    ratio = float(np.sum(res.fun**2)) / dof
+    if ratio > 1.0 + 2.0 * np.sqrt(2.0 / dof):
+        s2, dof_out = ratio, dof
+    else:
+        s2, dof_out = 1.0, np.inf
+    return jtj_inv @ jrj @ jtj_inv * s2 / np.outer(d, d), dof_out
+
+
+@dataclass(frozen=True)
+class _Selection:
+    """The profile chosen for a line and the estimates reported from it."""
+
+    best: str
+    res: object
+    cov: np.ndarray
+    dof: float
+    centre: float
+    u_centre: float
+    fwhm: float
+    u_fwhm: float
+    gauss: float
+    lorentz: float
+    weights: dict
+    widths: dict
+
+
+def _select_profile(win: _Window, results: dict) -> _Selection:
+    """The profile of lowest AIC among Gaussian, Lorentzian and a genuine Voigt, with the
+    spread over the valid profiles carried into the uncertainties (:func:`akaike_average`)."""
+    # a Voigt with a Gaussian or Lorentzian part at or below zero width is no Voigt (the
+    # other pure profile, or an envelope growing with OPD): it cannot be the one claimed
+    v = results["voigt"][0].x
+    choices = [k for k in results if k != "voigt" or (v[3] > 0 and v[4] > 0)]
+    best = min(choices, key=lambda k: results[k][1])
+    fits = {}
+    for k in choices:
+        ck, dk = _covariance(results[k][0], win)
+        fits[k] = (results[k][0], ck, dk, _widths(k, results[k][0].x, ck))
+    res, cov, dof, (_, _, g, lw) = fits[best]
+    aics = [results[k][1] for k in choices]
+    w, uw, wts_m = akaike_average([fits[k][3][0] for k in choices],
+                                  [fits[k][3][1] for k in choices], aics,
+                                  about=fits[best][3][0])
+    centre, u_centre, _ = akaike_average(
+        [fits[k][0].x[1] for k in choices],
+        [np.sqrt(max(fits[k][1][1, 1], 0.0)) for k in choices], aics, about=res.x[1])
+    return _Selection(
+        best, res, cov, dof, centre, u_centre, w, uw, g, lw,
+        {k: float(v) for k, v in zip(choices, wts_m, strict=True)},
+        {k: (float(fits[k][3][2]), float(fits[k][3][3]), float(fits[k][3][1])) for k in choices},
+    )
+
+
+def _claimed_profile(sel: _Selection, wide: bool, *, forced: bool) -> str:
+    """The profile claimed for a line: only for a line of at least
+    :data:`MIN_ELEMENTS_FOR_PROFILE` elements when the data decide between Gaussian and
+    Lorentzian (the other pure profile, for a Voigt the pure profile it is further from, keeps
+    at most 1 − :data:`PROFILE_WEIGHT` of the weight; a Voigt that fits as well as the pure
+    profile it contains does not argue against that profile), or when the profile was forced."""
+    g_w, l_w = sel.weights.get("gaussian", 0.0), sel.weights.get("lorentzian", 0.0)
+    rivals = {"gaussian": ("lorentzian",), "lorentzian": ("gaussian",),
+              "voigt": ("gaussian",) if l_w >= g_w else ("lorentzian",)}[sel.best]
+    clear = sum(sel.weights.get(k, 0.0) for k in rivals) <= 1.0 - PROFILE_WEIGHT
+    return sel.best if wide and (clear or forced) else "undetermined"
+
+
+def _pair_verdict(aic_pair: float, pp, aic_single: float, ils: float, resolved: bool):
+    """``(pair_possible, pair_lines)`` from the pair fit against the single line's."""
+    if aic_pair < aic_single - PAIR_AIC_MARGIN and min(pp[0], pp[2]) > 0 \
+            and abs(pp[3] - pp[1]) > 0.25 * ils:
+        # the data show two lines clearly: find_lines takes them as two
+        return True, ((float(pp[1]), float(pp[0])), (float(pp[3]), float(pp[2])))
+    # a broad line a pair of narrow ones fits as well: the data cannot tell (a pair nests an
+    # unresolved single line, so this is asked of resolved lines only)
+    return bool(resolved and aic_pair < aic_single + PAIR_AIC_MARGIN), ()
+
+
+def _bic_gain(win: _Window, res) -> float:
+    """Evidence for a line here at all: Schwarz's criterion of the fit against the baseline
+    alone (others subtracted), on the effective number of points."""
+    rss_fit = float(np.sum(res.fun**2))
+    y, wts = win.y, win.wts
+    b0 = float(np.sum(y * wts * wts) / np.sum(wts * wts))
+    rss_null = float(np.sum(((y - b0) * wts) ** 2))
+    return float(win.n_eff * np.log(max(rss_null, 1e-300) / max(rss_fit, 1e-300))
+                 - (res.x.size - 1) * np.log(max(win.n_eff, 2.0)))
 
 
 def _reach(fit: LineFit) -> float:

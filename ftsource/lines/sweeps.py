@@ -425,74 +425,17 @@ def aliasing_check(
         hyps = [(0, c0)]  # (fold m, true σ); m = 0 is "real"
         for m in range(1, max_fold + 1):
             hyps += [(m, st) for st in (m * fs / v[j] - c0, m * fs / v[j] + c0) if st > 0]
-        status, matched = [], []
-        for m, st in hyps:
-            stat = ["seed" if kk == j else "" for kk in range(n_sw)]
-            idx = [q if kk == j else -1 for kk in range(n_sw)]
-            for kk in range(n_sw):
-                if kk == j:
-                    continue
-                pred = abs(st - m * fs / v[kk])  # σ_app = |σ − m f_s/v|; m = 0: σ itself
-                u_pred = np.hypot(u0, m * fs * speed_rtol * np.hypot(1 / v[j], 1 / v[kk]))
-                sig = spectra[kk][0]
-                if not (sig[0] < pred < sig[-1]):
-                    stat[kk] = "out of band"
-                    continue
-                pk = peaks[kk]
-                dist = np.abs(pk[:, 0] - pred) / np.hypot(pk[:, 1], u_pred) if pk.size else []
-                if len(dist) and np.min(dist) <= k:
-                    stat[kk] = "match"
-                    idx[kk] = int(np.argmin(dist))
-                else:
-                    stat[kk] = "miss"
-            status.append(stat)
-            matched.append(idx)
+        status, matched = _match_hypotheses(hyps, j, q, u0, v, fs, speed_rtol, k, spectra,
+                                            peaks)
         # sweeps that can tell the line from its first-fold alias (higher folds move more)
         tell = []
         for kk in range(n_sw):
             diff = fs * abs(1 / v[kk] - 1 / v[j])
             u_tot = np.hypot(np.sqrt(2) * u0, fs * speed_rtol * np.hypot(1 / v[j], 1 / v[kk]))
             tell.append(kk != j and diff > k * u_tot)
-        real = status[0]
-        pick, tsig, fold = 0, float("nan"), 0
-        if not any(tell):
-            verdict = "cannot be excluded"
-            why = (
-                f"the sweeps' speeds (spread {100 * spread:.3g} %) are too alike for their "
-                f"±{100 * speed_rtol:.2g} % speed uncertainty: an alias would move by less "
-                f"than {k:g} uncertainties"
-            )
-        elif "miss" not in real and any(
-            t and r == "match" for t, r in zip(tell, real, strict=True)
-        ):
-            verdict = "real"
-            why = "stays put in sweeps of speeds different enough to move an alias"
-        elif any(t and r == "miss" for t, r in zip(tell, real, strict=True)):
-            ok = [
-                h
-                for h in range(1, len(hyps))
-                if "miss" not in status[h]
-                and any(t and st == "match" for t, st in zip(tell, status[h], strict=True))
-            ]
-            if ok:
-                pick = min(
-                    ok,
-                    key=lambda h: _match_chi2(
-                        hyps[h], j, c0, u0, v, fs, speed_rtol, peaks, matched[h]
-                    ),
-                )
-                fold, tsig = hyps[pick]
-                verdict = "alias"
-                why = (
-                    f"absent from its place in sweeps of other speeds and found where an alias "
-                    f"(fold m = {fold}) of {tsig:.6g} cm⁻¹ (= {1e7 / tsig:.5g} nm) would be"
-                )
-            else:
-                verdict = "cannot be excluded"
-                why = "moves between sweeps, but not as an alias of one wavenumber would"
-        else:
-            verdict = "cannot be excluded"
-            why = "the line is not found consistently in the sweeps that could tell"
+        verdict, why, pick = _alias_verdict(hyps, status, matched, tell, j, c0, u0, v, fs,
+                                            speed_rtol, k, spread, peaks)
+        fold, tsig = hyps[pick] if pick else (0, float("nan"))
         for kk, bb in enumerate(matched[pick]):
             if bb >= 0:
                 used[kk][bb] = True
@@ -510,6 +453,68 @@ def aliasing_check(
         f"{100 * spread:.3g} %"
     )
     return AliasCheck(tuple(lines), crit, spread)
+
+
+def _match_hypotheses(hyps, j, q, u0, v, fs, speed_rtol, k, spectra, peaks):
+    """For each hypothesis ``(m, σ)`` (m = 0: real), per sweep: "seed", "match", "miss" or
+    "out of band", and the index of the matched peak (−1 for none)."""
+    n_sw = len(peaks)
+    status, matched = [], []
+    for m, st in hyps:
+        stat = ["seed" if kk == j else "" for kk in range(n_sw)]
+        idx = [q if kk == j else -1 for kk in range(n_sw)]
+        for kk in range(n_sw):
+            if kk == j:
+                continue
+            pred = abs(st - m * fs / v[kk])  # σ_app = |σ − m f_s/v|; m = 0: σ itself
+            u_pred = np.hypot(u0, m * fs * speed_rtol * np.hypot(1 / v[j], 1 / v[kk]))
+            sig = spectra[kk][0]
+            if not (sig[0] < pred < sig[-1]):
+                stat[kk] = "out of band"
+                continue
+            pk = peaks[kk]
+            dist = np.abs(pk[:, 0] - pred) / np.hypot(pk[:, 1], u_pred) if pk.size else []
+            if len(dist) and np.min(dist) <= k:
+                stat[kk] = "match"
+                idx[kk] = int(np.argmin(dist))
+            else:
+                stat[kk] = "miss"
+        status.append(stat)
+        matched.append(idx)
+    return status, matched
+
+
+def _alias_verdict(hyps, status, matched, tell, j, c0, u0, v, fs, speed_rtol, k, spread, peaks):
+    """``(verdict, reason, index of the hypothesis kept)`` for one seed line (see
+    :func:`aliasing_check`)."""
+    real = status[0]
+    if not any(tell):
+        return "cannot be excluded", (
+            f"the sweeps' speeds (spread {100 * spread:.3g} %) are too alike for their "
+            f"±{100 * speed_rtol:.2g} % speed uncertainty: an alias would move by less "
+            f"than {k:g} uncertainties"
+        ), 0
+    if "miss" not in real and any(t and r == "match" for t, r in zip(tell, real, strict=True)):
+        return "real", "stays put in sweeps of speeds different enough to move an alias", 0
+    if not any(t and r == "miss" for t, r in zip(tell, real, strict=True)):
+        return ("cannot be excluded",
+                "the line is not found consistently in the sweeps that could tell", 0)
+    ok = [
+        h
+        for h in range(1, len(hyps))
+        if "miss" not in status[h]
+        and any(t and st == "match" for t, st in zip(tell, status[h], strict=True))
+    ]
+    if not ok:
+        return ("cannot be excluded",
+                "moves between sweeps, but not as an alias of one wavenumber would", 0)
+    pick = min(ok, key=lambda h: _match_chi2(hyps[h], j, c0, u0, v, fs, speed_rtol, peaks,
+                                             matched[h]))
+    fold, tsig = hyps[pick]
+    return "alias", (
+        f"absent from its place in sweeps of other speeds and found where an alias "
+        f"(fold m = {fold}) of {tsig:.6g} cm⁻¹ (= {1e7 / tsig:.5g} nm) would be"
+    ), pick
 
 
 def sweep_line_centres(spectrum, sweep_spectra, sigma_per_cm: float, *, cache=None):

@@ -423,8 +423,8 @@ def wavelength_budget(
         error belongs in the encoder's scale uncertainty instead.
     ``extra``
         Further components already in nm (for example the field-of-view residual after the
-        Jacquinot correction of :mod:`ftsource.physics.instrument`, or the encoder's scale), appended
-        as given.
+        Jacquinot correction of :mod:`ftsource.physics.instrument`, or the encoder's
+        scale), appended as given.
 
     Components whose uncertainty is zero are left out of the budget (air index in vacuum),
     except the reference wavelength of a reference-laser scale and the alignment component,
@@ -474,59 +474,68 @@ def wavelength_budget(
         )
     corr, u_align = one_sided_rectangular(a)
     corrected = lam * (1.0 - corr)
-
     comps = [
         Component(
             "line fit", u_fit, nu_fit, "A",
             f"statistical uncertainty of the fitted centre, {nu_fit:g} degrees of freedom",
         ),
+        *_scale_components(corrected, ref, air, laser=laser),
+        *_alignment_components(corrected, a, u_align, opd_scale, alignment_note),
     ]
+    comps.extend(extra)
+    return corrected, Budget("centre wavelength (vacuum)", "nm", tuple(comps), coverage)
+
+
+def _scale_components(corrected: float, ref: float, air: float, *, laser: bool) -> list:
+    """The OPD scale's components: the reference wavelength (always named for a laser scale)
+    and the air's index ratio (laser scale) or absolute index (geometric scale)."""
+    comps = []
     if laser:
         comps.append(Component.from_input(
             "reference wavelength", ref, corrected, kind="B",
             note=f"relative standard uncertainty {ref:.3g} of the reference vacuum wavelength",
         ))
     if air > 0 and laser:
-        comps.append(
-            Component.from_input(
-                "refractive-index ratio", air, corrected, kind="B",
-                note=f"relative standard uncertainty {air:.3g} of n(source)/n(reference)",
-            )
-        )
+        comps.append(Component.from_input(
+            "refractive-index ratio", air, corrected, kind="B",
+            note=f"relative standard uncertainty {air:.3g} of n(source)/n(reference)",
+        ))
     elif air > 0:
-        comps.append(
-            Component.from_input(
-                "refractive index of air", air, corrected, kind="B",
-                note=(
-                    f"relative standard uncertainty {air:.3g} of the absolute index n(source) "
-                    "of air: the OPD scale is geometric, x = 2 × mirror position"
-                ),
-            )
-        )
+        comps.append(Component.from_input(
+            "refractive index of air", air, corrected, kind="B",
+            note=(
+                f"relative standard uncertainty {air:.3g} of the absolute index n(source) "
+                "of air: the OPD scale is geometric, x = 2 × mirror position"
+            ),
+        ))
+    return comps
+
+
+def _alignment_components(corrected: float, a: float, u_align: float, opd_scale: str,
+                          alignment_note: str | None) -> list:
+    """The one-sided alignment component; named with u = 0 when no allowance was given (not
+    for an assumed constant speed, whose own uncertainty dwarfs it)."""
     what = "cosine/Abbe error" if opd_scale == "encoder" else "cosine error"
-    if a == 0 and opd_scale != "constant-speed":
+    if a == 0:
+        if opd_scale == "constant-speed":
+            return []
         # named even when no allowance was given: the budget says what it leaves out
-        comps.append(Component(
+        return [Component(
             f"alignment ({what})", 0.0, kind="B",
             note=alignment_note or (
                 "no allowance given (--alignment-allowance): a reference beam or encoder tilted "
                 "by θ against the mirror's travel reads every wavelength about θ²/2 short; a "
                 "rig calibration (--calibration) removes it"
             ),
-        ))
-    if a != 0:
-        side = "long" if a > 0 else "short"
-        comps.append(
-            Component.from_input(
-                f"alignment ({what})", u_align, corrected, kind="B",
-                note=(
-                    f"one-sided: measured up to {abs(a):.3g} (relative) too {side}; "
-                    f"corrected by half of it, u = |a|/sqrt(12)"
-                ),
-            )
-        )
-    comps.extend(extra)
-    return corrected, Budget("centre wavelength (vacuum)", "nm", tuple(comps), coverage)
+        )]
+    side = "long" if a > 0 else "short"
+    return [Component.from_input(
+        f"alignment ({what})", u_align, corrected, kind="B",
+        note=(
+            f"one-sided: measured up to {abs(a):.3g} (relative) too {side}; "
+            f"corrected by half of it, u = |a|/sqrt(12)"
+        ),
+    )]
 
 
 class Consistency(NamedTuple):
