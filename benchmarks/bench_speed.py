@@ -173,15 +173,20 @@ def peak_memory(path) -> dict:
         from ftsource.io.records import read_record
         from ftsource.spectrum.transform import FFTPlanner
         import ftsource.result, ftsource.lines.fitting, ftsource.interferogram.resample
-        rss0 = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss
+        def hwm():  # peak resident set of this process since exec (ru_maxrss would start
+            # from the parent's: fork copies it)
+            for line in open("/proc/self/status"):
+                if line.startswith("VmHWM:"):
+                    return int(line.split()[1]) * 1024
+        rss0 = hwm()
         tracemalloc.start()
         rec = read_record({str(path)!r})
         size = sum(c.nbytes for c in rec.columns.values())
         res = analyze(rec, AnalysisOptions(reference_wavelength_nm={REF_NM}, medium="vacuum"),
                       planner=FFTPlanner())
         cur, peak = tracemalloc.get_traced_memory()
-        rss1 = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss
-        print(json.dumps(dict(size=size, peak=peak, rss_growth=(rss1 - rss0) * 1024)))
+        rss1 = hwm()
+        print(json.dumps(dict(size=size, peak=peak, rss_growth=rss1 - rss0)))
         """
     )
     _, out = _run([sys.executable, "-c", code], env=_env())
