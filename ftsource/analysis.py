@@ -269,7 +269,10 @@ def _air_conditions(record, options):
     for cond, key, ptype, fld in _AIR_KEYS:
         if cond in options.air_given or getattr(air, fld) != getattr(nominal, fld):
             continue  # stated by the caller: it wins
-        q = record.metadata_quantity(key, ptype)
+        if cond == "humidity":
+            q = _metadata_humidity(record, key)
+        else:
+            q = record.metadata_quantity(key, ptype)
         if q is None:
             continue
         try:
@@ -593,6 +596,8 @@ def _spectra(setup: _Setup, sampling: _Sampling, sweeps: _Sweeps, planner) -> _S
             f"{len(dropped)} sweep(s) that do not reach zero path difference were left out "
             "(the others do, and give phase-corrected spectra)",
         )
+    sweep_specs, ifgs, dropped_glass = _dispersion_sweeps(sweep_specs, ifgs)
+    rejected += dropped_glass
     notes += _burst_notes(sweep_specs)
     sigma_app = np.arange(n_fft // 2 + 1) / (n_fft * sampling.limits.dx_cm)
     factor = _index_factor(sigma_app, setup.scale, options)
@@ -609,6 +614,37 @@ def _spectra(setup: _Setup, sampling: _Sampling, sweeps: _Sweeps, planner) -> _S
         )
     return _Spectra(tuple(sweep_specs), ifgs, spec, sigma_app, factor, rejected,
                     sweeps.channel_delay, sweeps.notes + notes)
+
+
+def _dispersion_sweeps(sweep_specs, ifgs):
+    """Leave out the sweeps through ZPD whose phase missed the dispersion treatment when
+    others got it (:func:`ftsource.spectrum.spectrum.dispersed_mertz`): with unequal glass,
+    such a sweep's chirped burst runs off its short side (a partial sweep), and its Mertz
+    spectrum is distorted though its short double-sided part shows no residual. Returns the
+    sweeps kept, their interferograms and the ``(index, reason)`` of those left out."""
+    treated = [np.isfinite(s.dispersion_cm2) for s in sweep_specs]
+    drop = {s.sweep_index for s, t in zip(sweep_specs, treated, strict=True)
+            if s.zpd_found and not t}
+    if not any(treated) or not drop:
+        return sweep_specs, ifgs, ()
+    rejected = tuple((i, "the chirped centre burst (unequal glass in the arms) runs off this "
+                      "sweep's short side: its phase cannot be corrected") for i in sorted(drop))
+    return ([s for s in sweep_specs if s.sweep_index not in drop],
+            tuple(ig for ig in ifgs if ig.sweep.index not in drop), rejected)
+
+
+def _metadata_humidity(record, key):
+    """The record's humidity metadata in percent (bare numbers above 1 are percent,
+    :func:`ftsource.quantity.parse_humidity`), or None when absent."""
+    from ftsource.errors import RecordError
+    from ftsource.quantity import parse_humidity
+
+    if key not in record.metadata:
+        return None
+    try:
+        return parse_humidity(record.metadata[key], name=f"{record.path}: metadata {key}")
+    except OptionError as exc:
+        raise RecordError(str(exc)) from None
 
 
 def _lines(record, setup: _Setup, sampling: _Sampling, spectra: _Spectra) -> _Lines:
@@ -677,6 +713,10 @@ def _result(record, setup: _Setup, sampling: _Sampling, spectra: _Spectra, lines
         reference_uncertainty_ppm=ref_u_ppm,
     )
     health, health_notes = facts.health_facts(record, path, sweep_specs)
+    from functools import partial
+
+    from ftsource.measure.budget import line_budget
+
     # weak lines off a multimode laser's comb are artefacts, not source lines
     from ftsource.measure.classify import classify_source
 
@@ -695,6 +735,9 @@ def _result(record, setup: _Setup, sampling: _Sampling, spectra: _Spectra, lines
     reports, line_notes = facts.line_reports(
         lines.found, flags, lines.aliasing, options=options,
         reference_uncertainty_ppm=ref_u_ppm, main=main,
+        budget=partial(line_budget, opd_kind=path.kind, options=options,
+                       reference_wavelength_nm=setup.reference_wavelength_nm,
+                       field_of_view_factor=lines.field_of_view_factor),
     )
     line_notes = tuple(line_notes) + comb_notes
     figures = source_figures(
@@ -702,21 +745,95 @@ def _result(record, setup: _Setup, sampling: _Sampling, spectra: _Spectra, lines
         opd_kind=path.kind, reference_wavelength_nm=setup.reference_wavelength_nm,
         field_of_view_factor=lines.field_of_view_factor, sweep_fit_cache=lines.sweep_fits,
     )
+    scan = _scan_health(record, setup, sampling, spectra, figures.kind, source_lines)
+    glass, glass_notes = facts.glass_facts(sweep_specs, main)
     notes = (setup.notes + sampling.notes + spectra.notes + lines.notes + input_notes
-             + health_notes + line_notes + figures.notes
+             + health_notes + glass_notes + line_notes + figures.notes
              + alias_notes(main, limits.min_wavelength_nm, lines.alias_band)
              + _safety_notes(lines.source_lines))
     return Result(
         input=inp,
         processing=facts.processing_facts(options, path, limits, sweep_specs, spectra.rejected,
-                                          spectra.channel_delay),
+                                          spectra.channel_delay, glass),
         instrument=facts.instrument_facts(spec, limits, main, options.apodization),
         figures=figures,
         lines=reports,
         health=health,
+        scan_health=scan,
         warnings=tuple(dict.fromkeys(n for n in notes if n)),
         spectrum=spec,
         interferograms=tuple(spectra.interferograms),
+        plot=_plot_data(record, setup, sampling, lines, flags, source_lines, figures),
+    )
+
+
+def _scan_health(record, setup: _Setup, sampling: _Sampling, spectra: _Spectra, kind: str,
+                 source_lines):
+    """The scan-health stage (:func:`ftsource.measure.health.scan_health`)."""
+    from ftsource.measure.health import scan_health
+
+    path, limits = sampling.path, sampling.limits
+    signal = record.columns["signal"]
+    main = max(source_lines, key=lambda f: f.area) if source_lines else None
+    return scan_health(
+        signal, _reference_channels(record, setup), path.opd_cm, path.sweeps,
+        spectra.interferograms, setup.sample_rate_hz,
+        opd_kind=path.kind.value, used_sweeps={s.sweep_index for s in spectra.sweep_spectra},
+        dropouts=path.dropouts,
+        samples_per_reference_fringe=limits.samples_per_reference_fringe,
+        min_wavelength_nm=limits.min_wavelength_nm, source_kind=kind,
+        main_snr=None if main is None else main.snr,
+        shortest_line_nm=min((f.wavelength_nm for f in source_lines), default=None),
+        clipped_fraction=clipped_fraction(signal),
+    )
+
+
+def _reference_channels(record, setup: _Setup) -> list:
+    """The reference laser's detector columns (none for an encoder or an assumed speed)."""
+    if not setup.scale.uses_reference_laser:
+        return []
+    return [record.columns[c] for c in ("ref_i", "ref_q", "ref") if c in record.columns]
+
+
+def _plot_data(record, setup: _Setup, sampling: _Sampling, lines: _Lines, flags, source_lines,
+               figures):
+    """What the figures need (:func:`ftsource.measure.plotdata.plot_data`)."""
+    from ftsource.lines.sweeps import sweep_line_centres
+    from ftsource.measure.plotdata import plot_data, spectrum_band
+
+    path, limits, spectra = sampling.path, sampling.limits, lines.spectra
+    spec, sweep_specs, ifgs = spectra.spectrum, spectra.sweep_spectra, spectra.interferograms
+    main = max(source_lines, key=lambda f: f.area) if source_lines else None
+    band = spectrum_band(
+        spec.sigma_per_cm, spec.density, spec.noise, spec.resolution_per_cm,
+        line_centres_per_cm=[f.centre_per_cm for f in lines.found],
+        min_wavelength_nm=limits.min_wavelength_nm, zero_fill=1,  # every point: peaks drawn whole
+    )
+    centres = []
+    if main is not None and len(sweep_specs) >= 2:
+        try:
+            fits = sweep_line_centres(spec, sweep_specs, main.centre_per_cm,
+                                      cache=lines.sweep_fits)
+        except (AnalysisError, ValueError):
+            fits = []
+        centres = [(i, 1e7 / c, 1e7 * u / c**2) for i, c, u in fits
+                   if np.isfinite(c) and c > 0]
+    zpd = [(ig, s.x_zpd_cm) for ig, s in zip(ifgs, sweep_specs, strict=False) if s.zpd_found]
+    zpd_ig, zpd_x = zpd[0] if zpd else (ifgs[0] if ifgs else None, None)
+    budget = figures.budget
+    refs = _reference_channels(record, setup)
+    return plot_data(
+        signal=record.columns["signal"], sample_rate_hz=setup.sample_rate_hz,
+        reference=refs[0] if refs else None, opd_cm=path.opd_cm, sweeps=path.sweeps,
+        used={s.sweep_index for s in sweep_specs}, interferogram=zpd_ig, zpd_x_cm=zpd_x,
+        spectrum=spec, band_index=band.index,
+        lines=[(f.wavelength_nm, fl is not None) for f, fl in zip(lines.found, flags,
+                                                                   strict=True)],
+        main_centre_per_cm=None if main is None else main.centre_per_cm,
+        sweep_centres=centres,
+        mean_nm=None if main is None else main.wavelength_nm,
+        u_mean_nm=None if main is None else 1e7 * main.u_centre_per_cm / main.centre_per_cm**2,
+        budget=() if budget is None else [(c.name, c.u) for c in budget.components],
     )
 
 

@@ -82,7 +82,7 @@ class JobOutcome:
     bytes of its output files."""
 
     row: dict
-    payloads: tuple[bytes, ...] | None = None
+    payloads: dict[str, bytes] | None = None
 
 
 @dataclass
@@ -160,7 +160,7 @@ def run_job(job: BatchJob) -> JobOutcome:
             planner = FFTPlanner(effort=job.fft_planning, threads=job.fft_threads,
                                  wisdom=job.wisdom)
             result = analyze(record, job.options, planner=planner)
-            payloads = tuple(output_payloads(result))
+            payloads = output_payloads(result)
             d = result.to_dict()
     except (FtsourceError, OSError) as exc:
         return JobOutcome(_empty_row(job, "failed", _one_line(exc)))

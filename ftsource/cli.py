@@ -116,10 +116,15 @@ def build_parser() -> argparse.ArgumentParser:
     a.add_argument("--json", action="store_true",
                    help="print the result JSON instead of the text summary (default: text)")
     a.add_argument("--out", metavar="DIR",
-                   help="also write result.json and spectrum.ecsv into DIR (default: write "
-                        "nothing)")
+                   help="also write result.json, spectrum.ecsv, spectrum.fits, report.html and "
+                        "the figures (fig-*.png) into DIR (default: write nothing)")
     a.add_argument("--overwrite", action="store_true",
                    help="replace result files already in --out (default: refuse)")
+    _add_output_options(a)
+    a.add_argument("--full-spectrum", action="store_true",
+                   help="store every point of the zero-filled spectrum over the detector band "
+                        "in spectrum.ecsv/.fits (default: the source's band at the instrument's "
+                        "own sampling)")
     _add_fft_options(a)
     a.add_argument(
         "--strict", action="store_true",
@@ -154,7 +159,8 @@ def build_parser() -> argparse.ArgumentParser:
                    help="the light: laser:WL[:FWHM], led:WL:FWHM or "
                         "multimode:WL:SPACING:ENVELOPE, lengths with units (e.g. laser:532nm, "
                         "led:590nm:15nm, multimode:650nm:0.08nm:1nm); repeat to add sources "
-                        "(default: laser:650nm)")
+                        "(default: laser:650nm). An LED's WL and FWHM are the peak and width "
+                        "of its density per unit wavelength, the figures analyze reports")
     s.add_argument("--reference", default="quadrature",
                    choices=("quadrature", "single", "encoder", "none"),
                    help="what records the optical path: quadrature (two reference-laser "
@@ -197,6 +203,18 @@ def build_parser() -> argparse.ArgumentParser:
                    help="also write each result into DIR/<record>/ (default: write nothing)")
     d.add_argument("--overwrite", action="store_true",
                    help="replace result files already in DIR (default: refuse)")
+    _add_output_options(d)
+
+    pt = sub.add_parser("plot", help="redraw the figures of a saved result.json as PNG files",
+                        epilog=_HELP_EPILOG,
+                        description="Redraw the figures (fig-*.png) from the 'plot' object of a "
+                                    "result.json written by 'analyze --out'.")
+    pt.add_argument("result", help="a result.json written by 'analyze --out'")
+    pt.add_argument("--out", metavar="DIR",
+                    help="folder for the fig-*.png files (default: the result's folder)")
+    pt.add_argument("--overwrite", action="store_true",
+                    help="replace existing figures (default: refuse)")
+    _add_output_options(pt)
 
     ln = sub.add_parser("lines", help="list and search the bundled reference line lists",
                         epilog=_HELP_EPILOG,
@@ -270,7 +288,69 @@ def build_parser() -> argparse.ArgumentParser:
     r.add_argument("--overwrite", action="store_true",
                    help="replace an existing FILE (default: refuse)")
     _add_analysis_options(r)
+
+    pl = sub.add_parser(
+        "plan", help="plan a scan and its optics: travel, speed, rates, aperture, lenses",
+        description="Each part runs when its options are given: the scan (--resolution), "
+                    "whether a line is resolved (--linewidth), the collimator (--lens1, "
+                    "--lens2) and a lens's focal length (--object-distance, --image-distance).",
+        epilog=SAFETY_LINE,
+    )
+    pl.add_argument("--resolution", metavar="QTY",
+                    help="wanted resolution (FWHM of the line shape): a wavenumber, e.g. "
+                         "0.5/cm, or a length, then at the band's short end, e.g. 0.02nm "
+                         "(default: no scan plan)")
+    pl.add_argument("--band", metavar="QTY:QTY", default="400nm:1100nm",
+                    help="shortest and longest vacuum wavelength to measure (default "
+                         "400nm:1100nm)")
+    pl.add_argument("--sample-rate", metavar="QTY", default="48kHz",
+                    help="recorder sample rate (default 48kHz)")
+    pl.add_argument("--bandwidth-fraction", type=float, default=0.45,
+                    help="usable fraction of the sample rate: 0.45 for a sound card, 0.5 for "
+                         "an ADC with a sharp anti-alias filter (default 0.45)")
+    pl.add_argument("--reference-wavelength", metavar="QTY", default="632.991nm",
+                    help="vacuum wavelength of the reference laser (default 632.991nm)")
+    pl.add_argument("--apodization", metavar="NAME", default="happ-genzel",
+                    help="apodization the analysis will use (default happ-genzel)")
+    pl.add_argument("--focal-length", metavar="QTY",
+                    help="collimator focal length, for the largest field-stop diameter "
+                         "(default: none, the solid angle only)")
+    pl.add_argument("--linewidth", metavar="QTY",
+                    help="expected FWHM of a source line, e.g. 0.001nm (default: no check)")
+    pl.add_argument("--wavelength", metavar="QTY",
+                    help="wavelength of that line (default: the band's short end)")
+    pl.add_argument("--max-opd", metavar="QTY",
+                    help="maximum OPD of the scan to check, e.g. 5mm (default: the planned "
+                         "scan's)")
+    pl.add_argument("--lens1", metavar="QTY",
+                    help="focal length of the collimator's first lens, e.g. 25mm (negative "
+                         "for a diverging lens; default: no collimator)")
+    pl.add_argument("--lens2", metavar="QTY",
+                    help="focal length of the second lens (default: no collimator)")
+    pl.add_argument("--spacing-error", metavar="QTY", default="0.5mm",
+                    help="error of the lens spacing for the residual divergence (default 0.5mm)")
+    pl.add_argument("--beam-diameter", metavar="QTY", default="2mm",
+                    help="diameter of the beam entering the first lens (default 2mm)")
+    pl.add_argument("--object-distance", metavar="QTY",
+                    help="object-to-lens distance of a sharp image (default: no lens "
+                         "measurement)")
+    pl.add_argument("--image-distance", metavar="QTY",
+                    help="lens-to-image distance (default: no lens measurement)")
+    pl.add_argument("--distance-uncertainty", metavar="QTY", default="1mm",
+                    help="standard uncertainty of each distance (default 1mm)")
+    pl.add_argument("--json", action="store_true", help="print the plan as JSON (default off)")
     return p
+
+
+def _add_output_options(a) -> None:
+    a.add_argument("--quiet", action="store_true",
+                   help="do not print a 'wrote PATH' line per file written (default: print)")
+
+
+def _wrote(out, paths, quiet: bool) -> None:
+    """One ``wrote PATH`` line per file written, unless ``quiet``."""
+    if not quiet:
+        out.write("".join(f"wrote {p}\n" for p in paths))
 
 
 def _add_fft_options(a) -> None:
@@ -307,7 +387,8 @@ def _add_analysis_options(a) -> None:
                         "101.325 kPa ± 2 kPa)")
     a.add_argument("--air-humidity", metavar="QTY",
                    help="relative humidity, e.g. 45%% (default: metadata air_humidity, else "
-                        "50 %% ± 20 %%)")
+                        "50 %% ± 20 %%); a bare number above 1 is percent (45 = 45 %%); write "
+                        "a fraction as '0.45 fraction'")
     a.add_argument("--air-co2", metavar="QTY",
                    help="CO2 mole fraction, e.g. 420ppm (default: 450 ppm ± 150 ppm)")
     a.add_argument("--air-temperature-uncertainty", metavar="QTY",
@@ -318,7 +399,7 @@ def _add_analysis_options(a) -> None:
                         "the pressure is given)")
     a.add_argument("--air-humidity-uncertainty", metavar="QTY",
                    help="standard uncertainty of the humidity, e.g. 3%% (default: 3 %% when the "
-                        "humidity is given)")
+                        "humidity is given); bare numbers as for --air-humidity")
     a.add_argument("--air-co2-uncertainty", metavar="QTY",
                    help="standard uncertainty of the CO2 fraction, e.g. 50ppm (default: 30 ppm "
                         "when --air-co2 is given)")
@@ -430,16 +511,26 @@ def _cmd_analyze(args, out, err) -> int:
     # Everything the user will see is made before anything is written: a failure while
     # shaping the output leaves no file behind.
     text = result_json(result) if args.json else format_summary(result) + "\n"
+    written = []
     if args.out is not None:
-        write_outputs(result, args.out, overwrite=args.overwrite)
+        written = write_outputs(result, args.out, overwrite=args.overwrite,
+                                full_spectrum=args.full_spectrum)
     _save_wisdom(planner, args)
     out.write(text)
+    _wrote(out, written, args.quiet or args.json)  # with --json stdout is the JSON alone
     if args.strict and not any(ln["flag"] is None for ln in result.to_dict()["lines"]):
         err.write(
             "error: no source found (--strict): no spectral line stands above the noise; check "
             "that the source reaches the detector, its gain and the column mapping\n"
         )
         return 1
+    return 0
+
+
+def _cmd_plot(args, out, err) -> int:
+    from ftsource.report.page import redraw
+
+    _wrote(out, redraw(args.result, args.out, overwrite=args.overwrite), args.quiet)
     return 0
 
 
@@ -633,7 +724,7 @@ def _cmd_demo(args, out, err) -> int:
         _scenario, records = demo_records()
         for r in records:
             check_outputs(Path(args.out) / Path(r["file"]).stem, overwrite=args.overwrite)
-    return run_demo(out, out_dir=args.out, overwrite=args.overwrite)
+    return run_demo(out, out_dir=args.out, overwrite=args.overwrite, quiet=args.quiet)
 
 
 def _cmd_lines(args, out, err) -> int:
@@ -848,6 +939,16 @@ def _cmd_response(args, out, err) -> int:
     return 0
 
 
+def _cmd_plan(args, out, err) -> int:
+    import json
+
+    from ftsource.plan import plan_report
+
+    report, lines = plan_report(args)
+    out.write(json.dumps(report, indent=2) + "\n" if args.json else "\n".join(lines) + "\n")
+    return 0
+
+
 def main(argv=None) -> int:
     """Run the command line; returns the exit status.
 
@@ -882,6 +983,8 @@ def main(argv=None) -> int:
         "lines": _cmd_lines,
         "calibrate": _cmd_calibrate,
         "response": _cmd_response,
+        "plan": _cmd_plan,
+        "plot": _cmd_plot,
     }[args.command]
     import warnings
 

@@ -41,8 +41,9 @@ def demo_records() -> tuple[str, list[dict]]:
     return manifest["scenario"], recs
 
 
-def run_demo(out, *, out_dir=None, overwrite: bool = False) -> int:
-    """Analyse every demo record and print a summary of each (and write files to ``out_dir``)."""
+def run_demo(out, *, out_dir=None, overwrite: bool = False, quiet: bool = False) -> int:
+    """Analyse every demo record and print a summary of each (and write files to ``out_dir``,
+    with one ``wrote PATH`` line per file unless ``quiet``)."""
     from ftsource.analysis import AnalysisOptions, analyze
     from ftsource.io.records import read_record
     from ftsource.physics.air import AirConditions
@@ -66,7 +67,10 @@ def run_demo(out, *, out_dir=None, overwrite: bool = False) -> int:
         text = format_summary(result).splitlines()
         out.write("\n".join(t for t in text if not t.startswith("safety:")) + "\n")
         if out_dir is not None:
-            write_outputs(result, Path(out_dir) / Path(r["file"]).stem, overwrite=overwrite)
+            written = write_outputs(result, Path(out_dir) / Path(r["file"]).stem,
+                                    overwrite=overwrite)
+            if not quiet:
+                out.write("".join(f"wrote {p}\n" for p in written))
     from ftsource.safety import LASER_NOTICE
 
     out.write("\n" + LASER_NOTICE + "\n")

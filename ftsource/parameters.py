@@ -28,7 +28,8 @@ PARAMETERS: dict[str, str] = {
     "medium": "'air' (default) or 'vacuum'",
     "air_temperature": "air temperature in the arms (temperature)",
     "air_pressure": "air pressure (pressure)",
-    "air_humidity": "relative humidity (ratio, e.g. '45 %')",
+    "air_humidity": "relative humidity (ratio, e.g. '45 %'; a bare number above 1 is "
+                    "percent, a fraction is written '0.45 fraction')",
     "air_co2": "CO2 mole fraction (ratio, e.g. '420 ppm')",
     "air_temperature_uncertainty": "standard uncertainty of the air temperature",
     "air_pressure_uncertainty": "standard uncertainty of the air pressure",
@@ -103,7 +104,7 @@ def _air(params):
     """The air conditions from ``air_*`` parameters, and which were given."""
     from ftsource.errors import OptionError
     from ftsource.physics.air import AirConditions
-    from ftsource.quantity import parse_quantity
+    from ftsource.quantity import parse_humidity, parse_quantity
 
     given = {k: params[f"air_{k}"] for k in _AIR if params.get(f"air_{k}") is not None}
     u_given = {k: params[f"air_{k}_uncertainty"] for k in _AIR
@@ -116,11 +117,16 @@ def _air(params):
                 "default); in vacuum there is no air to describe"
             )
         return None, (), ()
-    q = {k: parse_quantity(v, physical_type=_AIR_TYPES[k], name=f"air_{k}")
-         for k, v in given.items()}
+    def parse(value, k, name):
+        # a bare humidity above 1 is percent (ftsource.quantity.parse_humidity)
+        if k == "humidity":
+            return parse_humidity(value, name=name)
+        return parse_quantity(value, physical_type=_AIR_TYPES[k], name=name)
+
+    q = {k: parse(v, k, f"air_{k}") for k, v in given.items()}
     for k, v in u_given.items():
         name = f"air_{k}_uncertainty"
-        uq = parse_quantity(v, physical_type=_AIR_TYPES[k], name=name)
+        uq = parse(v, k, name)
         if not (float(uq.value) >= 0 and float(uq.value) < float("inf")):
             raise OptionError(f"{name}: {quote(v)} is not allowed; give a finite value ≥ 0")
         q[f"u_{k}"] = uq

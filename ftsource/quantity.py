@@ -20,6 +20,12 @@ A bare ``C`` means degree Celsius, not coulomb: no input of this tool is an elec
 A bare number (no unit) is accepted only where the expected quantity is dimensionless (a
 ratio), and there it is a plain fraction: ``1.5e-6`` is 1.5 ppm and ``0.45`` is 45 %. Anywhere
 else the unit is ambiguous and a bare number is refused.
+
+Relative humidity is the exception (:func:`parse_humidity`): practitioners write ``45`` for
+45 %, so a bare humidity **above 1** is read as percent; a bare value **from 0 to 1** could be
+either (``0.5`` % or a fraction 0.5) and is refused, with the advice to write ``45%`` or
+``0.45 fraction``. A value with a unit (``45%``, ``45 %RH``, ``0.45 fraction``) is taken as
+written.
 """
 
 from __future__ import annotations
@@ -36,7 +42,7 @@ from astropy.units.function.mixin import FunctionMixin
 from ftsource._checks import quote
 from ftsource.errors import OptionError
 
-__all__ = ["PHYSICAL_TYPES", "parse_quantity", "to_float", "ppm", "ppb"]
+__all__ = ["PHYSICAL_TYPES", "parse_quantity", "parse_humidity", "to_float", "ppm", "ppb"]
 
 #: Parts per million and per billion, as dimensionless astropy units.
 ppm = u.def_unit("ppm", 1e-6 * u.dimensionless_unscaled)
@@ -67,6 +73,7 @@ _ALIASES.update(
         "percent": u.percent,
         "ppm": ppm,
         "ppb": ppb,
+        "fraction": u.dimensionless_unscaled,
     }
 )
 
@@ -218,6 +225,52 @@ def _from_text(text: str, physical_type: str | None, *, name: str, shown: str) -
         return _bare(value, physical_type, name=name, shown=shown)
     unit = _unit_from_text(unit_text, name=name, shown=shown)
     return u.Quantity(value, unit)
+
+
+def parse_humidity(text: str | u.Quantity | Real, *, name: str = "humidity") -> u.Quantity:
+    """Parse a relative humidity; return it in percent.
+
+    A value with a unit is taken as written (``45%``, ``45 %RH``, ``0.45 fraction``,
+    ``4500 ppm`` of saturation...). A bare number above 1 is percent (``45`` means 45 %); a
+    bare number from 0 to 1 is refused as ambiguous (0.45 % or the fraction 0.45?), and so is
+    a bare negative number.
+
+    Parameters
+    ----------
+    text : str, Quantity or real number
+    name : str
+        How the value is named in error messages (e.g. ``'--air-humidity'``).
+
+    Returns
+    -------
+    astropy.units.Quantity
+        In ``percent``. Its range (0-100 %) is checked where it is used.
+
+    Raises
+    ------
+    OptionError
+        For an unparseable value, a unit that is not a ratio, or an ambiguous bare number.
+
+    References
+    ----------
+    .. [1] Common practice: relative humidity is quoted in percent (WMO-No. 8, Guide to
+       Instruments and Methods of Observation, ch. 4, from memory).
+    """
+    shown = quote(text)
+    bare = (isinstance(text, Real) and not isinstance(text, bool)) or (
+        isinstance(text, str) and not _has_unit(text)
+    )
+    q = parse_quantity(text, physical_type="dimensionless", name=name)
+    if not bare:
+        return q.to(u.percent)
+    value = float(q.value)
+    if value > 1.0:
+        return u.Quantity(value, u.percent)
+    raise OptionError(
+        f"{name}: {shown} has no unit and is ambiguous for a relative humidity (a bare number "
+        "above 1 is read as percent); write '45%' for 45 percent, or '0.45 fraction' for a "
+        "fraction"
+    )
 
 
 def to_float(

@@ -28,7 +28,7 @@ _SUMMARY_KEYS = (
     "u_coherence_length_visibility_mm", "coherence_length_visibility_definition",
     "half_visibility_opd_mm", "peak_wavelength_nm",
     "u_peak_wavelength_nm", "centroid_wavelength_nm", "u_centroid_wavelength_nm",
-    "chromaticity_xy", "dominant_wavelength_nm", "modes",
+    "chromaticity_xy", "dominant_wavelength_nm", "modes", "fwhm_definition",
 )
 _MODE_KEYS = (
     "n_modes", "spacing_nm", "u_spacing_nm", "spacing_ghz", "u_spacing_ghz",
@@ -37,7 +37,8 @@ _MODE_KEYS = (
 _LINE_KEYS = (
     "wavelength_nm", "wavelength_air_nm", "wavenumber_per_cm", "frequency_thz",
     "relative_intensity", "snr", "resolved", "fwhm_nm", "fwhm_upper_bound_nm", "profile",
-    "pair_possible", "u_wavelength_nm", "flag", "aliasing",
+    "pair_possible", "u_wavelength_nm", "expanded_uncertainty_nm", "coverage_factor", "flag",
+    "aliasing",
 )
 
 
@@ -74,10 +75,14 @@ class Result:
         The source's kind and figures, with the centre wavelength's budget.
     lines : tuple of ftsource.measure.facts.LineReport
     health : ftsource.measure.facts.HealthFacts
+    scan_health : ftsource.measure.health.ScanHealth
+        The scan-health items (value, verdict, threshold, source, advice).
     warnings : tuple of str
         What the data could not support and what to change, in the order found.
     spectrum : ftsource.spectrum.spectrum.Spectrum
     interferograms : tuple of ftsource.interferogram.resample.Interferogram
+    plot : ftsource.measure.plotdata.PlotData or None
+        What the figures need (None: no figures, e.g. a result built by hand).
 
     The main figures are also properties giving astropy Quantities (``centre_wavelength``,
     ``expanded_uncertainty``, ``linewidth``, ``coherence_length``, ...), None where the data
@@ -90,9 +95,11 @@ class Result:
     figures: object
     lines: tuple
     health: object
+    scan_health: object = None
     warnings: tuple[str, ...] = ()
     spectrum: object = field(default=None, repr=False)
     interferograms: tuple = field(default=(), repr=False)
+    plot: object = field(default=None, repr=False)
 
     def to_dict(self) -> dict:
         """The result as JSON-ready plain values (the contract's keys, in a fixed order)."""
@@ -115,9 +122,10 @@ class Result:
             "summary": _summary(self.figures),
             "lines": [_line(ln) for ln in self.lines],
             "uncertainty": None if budget is None else budget.to_dict("_nm"),
-            "health": _health(self.health),
+            "health": _health(self.health, self.scan_health),
             "warnings": list(self.warnings),
             "safety": LASER_NOTICE,
+            "plot": None if self.plot is None else _plot(self.plot),
         }
 
     # ---- the figures as astropy Quantities (None where the data gave none) -------------
@@ -213,6 +221,12 @@ def _processing(p) -> dict:
         "opd_step_nm": p.opd_step_nm,
         "zero_fill": p.zero_fill,
         "channel_delay_s": p.channel_delay_s,
+        "glass_imbalance": None if p.glass_imbalance is None else {
+            k: getattr(p.glass_imbalance, k) for k in (
+                "group_delay_dispersion_um2", "u_group_delay_dispersion_um2",
+                "bk7_thickness_mm", "u_bk7_thickness_mm", "optical_thickness_difference_mm",
+                "definition")
+        },
     }
 
 
@@ -245,7 +259,8 @@ def _line(ln) -> dict:
     return out
 
 
-def _health(h) -> dict:
+def _health(h, scan) -> dict:
+    items = () if scan is None else scan.items
     return {
         "reference_ellipse_residual": h.reference_ellipse_residual,
         "fringe_slips": h.fringe_slips,
@@ -261,4 +276,27 @@ def _health(h) -> dict:
             }
             for s in h.sweeps
         ],
+        "items": [
+            {"name": i.name, "value": _num(i.value), "unit": i.unit, "verdict": i.verdict,
+             "threshold": i.threshold, "source": i.source, "advice": i.advice}
+            for i in items
+        ],
     }
+
+
+def _plot(p) -> dict:
+    """The figures' numbers, each to :data:`ftsource.measure.plotdata.DIGITS` significant
+    digits (None for a non-finite one)."""
+    from dataclasses import fields
+
+    from ftsource.measure.plotdata import DIGITS
+
+    def conv(v):
+        if isinstance(v, tuple | list):
+            return [conv(e) for e in v]
+        if v is None or isinstance(v, bool | str | int):
+            return v
+        v = _num(v)
+        return None if v is None else float(f"{v:.{DIGITS}g}")
+
+    return {f.name: conv(getattr(p, f.name)) for f in fields(p)}

@@ -25,6 +25,10 @@ __all__ = [
     "GREEN_POINTER_CENTRE_NM",
     "GREEN_POINTER_HALF_WINDOW_NM",
     "green_pointer_warning",
+    "safety_notes",
+    "LASER_CAUTION",
+    "REFERENCE_LASER_CAUTION",
+    "INCOHERENT_SOURCE_NOTE",
 ]
 
 LASER_NOTICE = (
@@ -100,3 +104,63 @@ def green_pointer_warning(wavelength_nm: float) -> str | None:
     if abs(value - GREEN_POINTER_CENTRE_NM) <= GREEN_POINTER_HALF_WINDOW_NM:
         return GREEN_POINTER_WARNING
     return None
+
+
+LASER_CAUTION = (
+    "Laser safety: never look into a laser beam or its reflections, and never align by eye, "
+    "also not through the interferometer's mirrors, beam splitter or lenses. ftsource measures "
+    "wavelength, not hazard class: follow IEC 60825-1 (and ANSI Z136.1 where it applies), the "
+    "laser's label and your local laser-safety rules."
+)
+"""The laser caution for a source that is a laser (narrow or multimode lines)."""
+
+REFERENCE_LASER_CAUTION = (
+    "The reference laser is a laser too: the same cautions apply to it (IEC 60825-1 and local "
+    "laser-safety rules)."
+)
+"""Shown whenever the record's optical path came from a reference laser."""
+
+INCOHERENT_SOURCE_NOTE = (
+    "The source looks like an LED or a lamp (a broad band): do not stare into bright sources; "
+    "IEC 62471 covers LED and lamp safety, and IEC 60825-1 and local laser-safety rules apply "
+    "to any laser in the set-up."
+)
+"""A short line for LEDs and lamps."""
+
+
+def safety_notes(kind: str, line_wavelengths_nm=(), *, reference_laser: bool = True) -> list:
+    """The safety texts fitted to the source, each a full sentence.
+
+    Parameters
+    ----------
+    kind : str
+        The source kind of the result: ``narrow`` and ``multimode`` are treated as lasers,
+        ``broadband`` as an LED or lamp, anything else (no source found) as a possible laser.
+    line_wavelengths_nm : sequence of float
+        The source lines found: the green-pointer infrared caution is added only when one lies
+        within ±3 nm of 532 nm (:func:`green_pointer_warning`).
+    reference_laser : bool, keyword-only
+        Whether the optical path came from a reference laser (its caution is then added).
+
+    Returns
+    -------
+    list of str
+        Laser cautions for lasers, the infrared caution near 532 nm, a short line for LEDs and
+        lamps; every list defers to IEC 60825-1 and local rules.
+    """
+    notes = []
+    if kind == "broadband":
+        notes.append(INCOHERENT_SOURCE_NOTE)
+    else:
+        notes.append(LASER_CAUTION)
+    for wl in line_wavelengths_nm:
+        try:
+            w = green_pointer_warning(wl)
+        except OptionError:
+            continue
+        if w:
+            notes.append(w)
+            break
+    if reference_laser:
+        notes.append(REFERENCE_LASER_CAUTION)
+    return notes

@@ -149,8 +149,15 @@ def led(
     asymmetry: float = 0.0,
     strength: float = 1.0,
     components_per_fwhm: int = 24,
+    density: str = "per-wavelength",
 ) -> SourceModel:
     """An LED-like broad source: a split-normal shape in wavelength.
+
+    ``centre_nm`` and ``fwhm_nm`` describe the **density per unit wavelength** S_λ by default,
+    the density on which ``analyze`` reports peak, FWHM and colour (CIE 127): a round trip
+    gives back the peak and FWHM asked for. ``density="per-wavenumber"`` puts the shape on
+    the density per unit wavenumber S_σ instead (as the transform sees it); then the S_λ
+    peak lies shorter, by 0.57 nm for 590/30 nm (S_λ = S_σ·σ²/10⁷).
 
     The shape is approximated by a comb of narrow Gaussian components in wavenumber (spacing
     ``fwhm/components_per_fwhm``, each of FWHM 2.5× the spacing so the sum is smooth). The sum
@@ -165,9 +172,15 @@ def led(
         FWHM of the nominal shape, nm.
     asymmetry : float
         In (-1, 1): the long-wavelength side is ``(1 + asymmetry)`` times wider than the short side.
+    density : {"per-wavelength", "per-wavenumber"}
+        Which spectral density has the split-normal shape (see above).
     """
     if not -0.9 < asymmetry < 0.9:
         raise ValueError("asymmetry must lie in (-0.9, 0.9)")
+    if density not in ("per-wavelength", "per-wavenumber"):
+        raise ValueError(
+            f"density must be 'per-wavelength' or 'per-wavenumber', got {density!r}"
+        )
     w_long = fwhm_nm * (1 + asymmetry) / 2
     w_short = fwhm_nm * (1 - asymmetry) / 2
     lam_lo, lam_hi = centre_nm - 3 * w_short, centre_nm + 3 * w_long
@@ -175,11 +188,23 @@ def led(
     step = (1e7 / centre_nm**2) * fwhm_nm / components_per_fwhm
     sig = np.arange(sig_lo, sig_hi + step, step)
     lam = 1e7 / sig
+    width = 2.5 * step
+    if density == "per-wavelength":
+        # narrower components (still smooth: ripple ~1e-6) blur the split normal's kink less,
+        # and each side's half width is shrunk by the components' own (Gaussians add in
+        # quadrature) so that the sum has the FWHM asked for
+        width = 2.0 * step
+        g_nm = width * centre_nm**2 / 1e7
+        w_long = np.sqrt(max(w_long**2 - g_nm**2 / 4, 0.25 * w_long**2))
+        w_short = np.sqrt(max(w_short**2 - g_nm**2 / 4, 0.25 * w_short**2))
     half = np.where(lam > centre_nm, w_long, w_short)
     weight = np.exp(-_LN2 * ((lam - centre_nm) / half) ** 2)  # split normal, FWHM = w_s + w_l
+    if density == "per-wavelength":
+        # components equally spaced in σ carry S_σ·dσ = S_λ·λ²/10⁷·dσ
+        weight = weight * lam**2
     weight *= strength / weight.sum()
     lines = tuple(
-        SpectralLine(float(s), float(a), 2.5 * step) for s, a in zip(sig, weight, strict=True)
+        SpectralLine(float(s), float(a), width) for s, a in zip(sig, weight, strict=True)
     )
     return SourceModel(lines, label=f"LED {centre_nm:g} nm")
 

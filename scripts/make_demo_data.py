@@ -93,7 +93,9 @@ def main() -> None:
     })
 
     # 3. amber LED through zero path difference, NumPy archive from an oscilloscope
-    amber = S.led(591.0, 16.0, asymmetry=0.25)
+    # the bundled record was made with the shape on the density per unit wavenumber (the
+    # simulator's convention before led() switched to per unit wavelength)
+    amber = S.led(591.0, 16.0, asymmetry=0.25, density="per-wavenumber")
     sim = S.simulate(
         amber,
         S.Scan(sample_rate_hz=50_000, duration_s=0.5, opd_centre_cm=0.0,

@@ -1,4 +1,8 @@
-"""Helpers shared by the command-line tests (test_cli.py, test_errors.py)."""
+"""Helpers shared by the command-line tests (test_cli.py, test_errors.py).
+
+Reference: docs/contract.md (exit statuses, the one-line ``error: ...`` rule); the helpers
+hold no numerical value of their own.
+"""
 
 from __future__ import annotations
 

@@ -286,3 +286,42 @@ def test_a_line_outside_the_air_equation_range_is_named(capsys, tmp_path):
     hits = [w for w in r["warnings"] if "300–1700 nm" in w]
     assert len(hits) == 1 and "1800." in hits[0] and "modified Edlén" in hits[0]
     assert r["summary"]["centre_wavelength_air_nm"] is None
+
+
+# --------------------------------------------------------------------------------------------
+# bare humidity numbers (issue 12, part 8): a practitioner's 45 means 45 %
+
+
+def test_bare_humidity_option_is_percent():
+    # common practice: relative humidity is quoted in percent
+    o = cli_options(build_parser().parse_args([
+        "analyze", "r.npz", "--air-humidity", "50", "--air-humidity-uncertainty", "4"]))
+    assert o.air.humidity_percent == pytest.approx(50.0)
+    assert o.air.u_humidity_percent == pytest.approx(4.0)
+
+
+def test_bare_humidity_at_most_one_is_a_clean_error(tmp_path, capsys):
+    status = main(["analyze", str(tmp_path / "none.npz"), "--air-humidity", "0.45"])
+    err = capsys.readouterr().err
+    assert status == 2 and err.count("\n") == 1 and err.startswith("error: ")
+    assert "0.45 fraction" in err and "45%" in err
+
+
+def test_bare_humidity_in_metadata_is_percent(tmp_path):
+    # the record states 45 (meaning 45 %); the analysis must read 45 %, not 4500 %
+    from ftsource.analysis import AnalysisOptions, analyze
+    from ftsource.io.records import read_record
+
+    sim = S.simulate(S.laser(532.0), S.Scan(duration_s=0.25, opd_centre_cm=0.05),
+                     S.ReferenceChannel(wavelength_nm=632.991), S.Detector(noise_rms=0.003),
+                     medium="air", air=LAB, rng=5)
+    path = tmp_path / "bare.npz"
+    write_record_npz(path, sim.record, metadata={"air_humidity": "45"})
+    r = analyze(read_record(path), AnalysisOptions(reference_wavelength_nm=632.991))
+    assert r.to_dict()["input"]["air"]["humidity_percent"] == pytest.approx(45.0)
+    bad = tmp_path / "ambiguous.npz"
+    write_record_npz(bad, sim.record, metadata={"air_humidity": "0.45"})
+    from ftsource.errors import RecordError
+
+    with pytest.raises(RecordError, match="0.45 fraction"):
+        analyze(read_record(bad), AnalysisOptions(reference_wavelength_nm=632.991))

@@ -5,6 +5,9 @@ Oracles: the serial run in this process is the reference for the process-pool an
 same record (the single-record command, itself tested against closed forms in
 test_accuracy.py); astropy's ECSV reader (a general-purpose library) reads the summary back.
 Interrupting a batch is tested on a real subprocess sent SIGINT, as a terminal's Ctrl-C is.
+
+Reference: astropy.table (ECSV reader) and dask.distributed (LocalCluster), general-purpose
+libraries from PyPI; the laser wavelengths are invented test inputs.
 """
 
 from __future__ import annotations
@@ -20,6 +23,8 @@ from pathlib import Path
 
 import numpy as np
 import pytest
+
+from ftsource.report.text import OUTPUT_FILES
 from astropy.table import Table
 from cli_helpers import run, tree
 
@@ -86,8 +91,7 @@ def test_serial_process_pool_and_dask_give_identical_files(records, tmp_path, ca
     assert status == 1, err
     ref = tree(serial)
     assert sorted(ref) == sorted(
-        ["summary.ecsv"] + [f"rec{k}/{f}" for k in range(3)
-                            for f in ("result.json", "spectrum.ecsv")])
+        ["summary.ecsv"] + [f"rec{k}/{f}" for k in range(3) for f in OUTPUT_FILES])
     assert tree(pool) == ref
     assert tree(dask_out) == ref
 

@@ -1,4 +1,5 @@
-"""Tests of ftsource.calibrate.calibration: the rig's effective reference wavelength from a known line.
+"""Tests of ftsource.calibrate.calibration: the rig's effective reference wavelength from a
+known line.
 
 Sources:
 * closed form: the rig's OPD is counted in reference fringes, so λ_measured = λ_ref·N and

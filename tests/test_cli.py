@@ -182,7 +182,7 @@ def test_out_into_existing_empty_folder(capsys, record_file, tmp_path):
     out_dir.mkdir()
     status, out, err = run(capsys, ["analyze", record_file, *REF, "--out", out_dir, "--json"])
     assert status == 0, err
-    assert sorted(tree(out_dir)) == ["result.json", "spectrum.ecsv"]
+    assert sorted(tree(out_dir)) == sorted(report.OUTPUT_FILES)
     assert json.loads((out_dir / "result.json").read_text()) == json.loads(out)
     assert (out_dir / "result.json").read_text() == out
 
@@ -191,7 +191,7 @@ def test_out_folder_is_created(capsys, record_file, tmp_path):
     out_dir = tmp_path / "a" / "b"
     status, _out, err = run(capsys, ["analyze", record_file, *REF, "--out", out_dir])
     assert status == 0, err
-    assert sorted(tree(out_dir)) == ["result.json", "spectrum.ecsv"]
+    assert sorted(tree(out_dir)) == sorted(report.OUTPUT_FILES)
 
 
 @pytest.mark.parametrize("existing", [["result.json"], ["spectrum.ecsv"],
@@ -209,7 +209,7 @@ def test_existing_results_need_overwrite(capsys, record_file, tmp_path, existing
     status, _out, err = run(capsys, ["analyze", record_file, *REF, "--out", out_dir,
                                      "--overwrite"])
     assert status == 0, err
-    assert sorted(tree(out_dir)) == ["result.json", "spectrum.ecsv"]
+    assert sorted(tree(out_dir)) == sorted(report.OUTPUT_FILES)
     assert (out_dir / "result.json").read_text() != "earlier\n"
 
 
@@ -332,7 +332,7 @@ def test_metadata_never_becomes_a_path(capsys, tmp_path):
     assert status == 0, err
     after = tree(tmp_path)
     new = sorted(set(after) - set(before))
-    assert new == ["work/deep/out/result.json", "work/deep/out/spectrum.ecsv"]
+    assert new == sorted(f"work/deep/out/{n}" for n in report.OUTPUT_FILES)
     d = json.loads(out)
     for k, v in hostile.items():
         assert d["input"]["metadata"][k] == v.strip()
@@ -435,7 +435,7 @@ def test_process_success_and_help(record_file, tmp_path):
     assert r.returncode == 0, r.stderr
     assert r.stderr == ""
     assert "centre wavelength (vacuum)" in r.stdout
-    assert sorted(os.listdir(tmp_path / "res")) == ["result.json", "spectrum.ecsv"]
+    assert sorted(os.listdir(tmp_path / "res")) == sorted(report.OUTPUT_FILES)
     r = _subprocess(["analyze", record_file, *REF, "--out", "res"], tmp_path)
     assert r.returncode == 2 and r.stderr.count("\n") == 1 and "--overwrite" in r.stderr
     r = _subprocess(["--help"], tmp_path)
@@ -530,7 +530,7 @@ def test_write_without_hard_links(record_file, tmp_path, monkeypatch):
     out_dir = tmp_path / "out"
     report.write_outputs(result, out_dir)
     first = tree(out_dir)
-    assert sorted(first) == ["result.json", "spectrum.ecsv"]
+    assert sorted(first) == sorted(report.OUTPUT_FILES)
     with pytest.raises(OutputError, match="exists already"):
         report.write_outputs(result, out_dir)
     monkeypatch.setattr(report, "_place", _Fail(report._place, 2))

@@ -1,8 +1,9 @@
 """The calibrate and response commands end to end (in-process ``main``).
 
 Oracles: the simulator (tested against closed forms in test_simulate.py); Planck's law
-(M. Planck, Ann. Phys. 309, 553 (1901)) through ftsource.calibrate.response.planck_density_per_cm (tested
-against astropy's BlackBody in test_response.py); the 532.245 nm known line is the
+(M. Planck, Ann. Phys. 309, 553 (1901)) through
+ftsource.calibrate.response.planck_density_per_cm (tested against astropy's BlackBody in
+test_response.py); the 532.245 nm known line is the
 iodine-stabilised frequency-doubled Nd:YAG value (check-values §6, CIPM recommendation).
 """
 

@@ -5,6 +5,8 @@ command's section of the contract (``### `ftsource NAME` ``) must name in its ta
 the options the parser accepts, taking the section "Analysis options" when the command's
 section says it "takes the analysis options"; each default the parser holds must appear in
 the table's default column (spaces and backticks aside).
+
+Reference: the parsers built with argparse (Python standard library); no numerical values.
 """
 
 from __future__ import annotations

@@ -39,6 +39,7 @@ from ftsource.io.records import (
     write_record_npz,
     write_record_wav,
 )
+from ftsource.report.text import OUTPUT_FILES
 
 EXTENSIONS = (".csv", ".tsv", ".txt", ".dat", ".npz", ".wav")
 FS = 48_000.0
@@ -287,7 +288,7 @@ ANALYZE_OPTIONS = {
     "--alignment-allowance": ["0ppm", "2ppm", "-3ppm", "1e-5"],
     "--air-temperature": ["20degC", "21.5 °C", "293.15K", "25C"],
     "--air-pressure": ["1013.25hPa", "1013 mbar", "101.325kPa", "95000Pa"],
-    "--air-humidity": ["50%", "45 %RH", "0.3", "0%"],
+    "--air-humidity": ["50%", "45 %RH", "0.3 fraction", "45", "0%"],
     "--sample-rate": ["48kHz", "48000Hz", "48000.0 Hz"],
     "--mirror-speed": ["0.5mm/s", "1 mm/s"],
     "--aperture-diameter": ["2mm", "25 mm"],
@@ -331,7 +332,7 @@ def test_cli_random_option_values(valid, sandbox, opts):
     event(f"status {status}")
     if status == 0:
         d = json.loads(out)
-        assert sorted(os.listdir(out_dir)) == ["result.json", "spectrum.ecsv"]
+        assert sorted(os.listdir(out_dir)) == sorted(OUTPUT_FILES)
         assert json.loads((out_dir / "result.json").read_text(encoding="utf-8")) == d
     else:
         assert out == ""

@@ -4,9 +4,10 @@ The spectra are made here from closed-form interferograms on a uniform OPD grid 
 integrated strength s and coherence function γ contributes s·γ(x)·cos(2πσ₀x); Wiener–Khinchin,
 e.g. Goodman, *Statistical Optics*, ch. 5; γ(x) = exp(−(πgx)²/(4 ln 2)) for a Gaussian of FWHM
 g and exp(−πl|x|) for a Lorentzian of FWHM l, closed forms of the Fourier transforms) plus
-white Gaussian noise from a seeded generator, transformed by ftsource.spectrum.spectrum.sweep_spectrum
-(the transform itself is tested against closed forms in tests/test_spectrum.py). No simulator is
-involved, so the truth (centre, width, area) is exact.
+white Gaussian noise from a seeded generator, transformed by
+ftsource.spectrum.spectrum.sweep_spectrum (the transform itself is tested against closed
+forms in tests/test_spectrum.py). No simulator is involved, so the truth (centre, width,
+area) is exact.
 
 Other oracles: scipy.special.voigt_profile (a general library) for the Voigt width formula;
 check-values.md §1 (ILS widths) and §6 (Na D vacuum wavelengths, used as an invented Na D-like

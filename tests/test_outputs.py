@@ -66,7 +66,8 @@ def test_demo_runs_and_finds_the_simulated_truths(demo):
     assert red["modes"]["spacing_nm"] == pytest.approx(0.17, rel=0.02)  # issue 4: within 2 %
     amber = results["amber_led"]["summary"]
     assert amber["kind"] == "broadband"
-    src = S.led(591.0, 16.0, asymmetry=0.25)
+    # the truth the bundled record was made from (scripts/make_demo_data.py)
+    src = S.led(591.0, 16.0, asymmetry=0.25, density="per-wavenumber")
     sig = np.linspace(1e7 / (591.0 + 64.0), 1e7 / (591.0 - 64.0), 200_001)
     truth = broadband_metrics(1e7 / sig, src.density(sig) * sig**2 / 1e7, None,
                               n_monte_carlo=0)

@@ -43,7 +43,8 @@ def test_unknown_name_raises_attribute_error():
 LIGHT_COMMANDS = [
     ["--help"], ["--version"],
     *([cmd, "--help"] for cmd in
-      ("analyze", "simulate", "demo", "lines", "calibrate", "response", "batch")),
+      ("analyze", "simulate", "demo", "lines", "calibrate", "response", "batch", "plot",
+       "plan")),
 ]
 
 # Runs ftsource.cli.main in a fresh interpreter and prints, as JSON, its status and the modules

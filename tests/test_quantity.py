@@ -235,3 +235,40 @@ def test_random_text_raises_only_option_error(text):
         assert "\n" not in str(exc)
     else:
         assert math.isfinite(float(q.value))
+
+
+# --- relative humidity: bare numbers (issue 12, part 8) -------------------------------------
+
+
+@pytest.mark.parametrize(
+    "text, percent",
+    [("45", 45.0), (45, 45.0), ("100", 100.0), ("1.5", 1.5), ("45%", 45.0), ("45 %RH", 45.0),
+     ("0.45 fraction", 45.0), ("0.5%", 0.5), ("4500 ppm", 0.45)],
+)
+def test_humidity_bare_numbers_above_one_are_percent(text, percent):
+    # Common practice (relative humidity is quoted in percent): a bare 45 means 45 %;
+    # a value with a unit is taken as written (SI Brochure 5.4.7: 45 % = 0.45; 1 ppm = 1e-6)
+    from ftsource.quantity import parse_humidity
+
+    q = parse_humidity(text, name="--air-humidity")
+    assert q.unit == u.percent
+    assert q.value == pytest.approx(percent, rel=1e-12)
+
+
+@pytest.mark.parametrize("text", ["0.45", 0.45, "1", "0", "-5", "1e-1"])
+def test_humidity_bare_numbers_up_to_one_are_refused_with_advice(text):
+    from ftsource.errors import OptionError
+    from ftsource.quantity import parse_humidity
+
+    with pytest.raises(OptionError) as e:
+        parse_humidity(text, name="--air-humidity")
+    msg = str(e.value)
+    assert "--air-humidity" in msg and "45%" in msg and "0.45 fraction" in msg
+
+
+def test_humidity_with_a_unit_that_is_not_a_ratio_is_refused():
+    from ftsource.errors import OptionError
+    from ftsource.quantity import parse_humidity
+
+    with pytest.raises(OptionError, match="--air-humidity"):
+        parse_humidity("45 hPa", name="--air-humidity")

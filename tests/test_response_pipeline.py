@@ -154,14 +154,18 @@ def test_visible_led_colour_matches_true_spectrum():
     assert s["kind"] == "broadband"
     sig = np.linspace(1e7 / 700.0, 1e7 / 480.0, 200_001)
     lam, dens = 1e7 / sig, src.density(sig) * sig**2 / 1e7
-    xy_true = ftc.chromaticity_xy(lam, dens)
+    # the CIE tables are on standard-air wavelengths (issue 12, part 4): vacuum → standard air
+    xy_true = ftc.chromaticity_xy(lam, dens, scale="vacuum")
     # the measurement (line shape of ~1 nm, noise) moves the chromaticity by < 1e-3 here
     assert s["chromaticity_xy"] == pytest.approx(list(xy_true), abs=1e-3)
     assert s["dominant_wavelength_nm"] == pytest.approx(ftc.dominant_wavelength_nm(xy_true),
                                                         abs=0.1)
-    # colour-science on the true spectrum sampled on its 1 nm CMF grid
+    # colour-science on the true spectrum sampled on its 1 nm CMF grid (standard-air
+    # wavelengths; their vacuum wavenumbers by Morton 2000 eq. 8, tested in test_air.py)
+    from ftsource.physics.air import standard_air_to_vacuum_nm
+
     w = CMFS.wavelengths
-    grid_sig = 1e7 / w
+    grid_sig = 1e7 / standard_air_to_vacuum_nm(w)
     sd = colour.SpectralDistribution(src.density(grid_sig) * grid_sig**2 / 1e7, w)
     xyz = colour.sd_to_XYZ(sd, cmfs=CMFS, illuminant=colour.sd_ones(CMFS.shape),
                            method="Integration")

@@ -3,6 +3,10 @@
 Oracle: the simulator (itself tested against closed forms in test_simulate.py) with a reference
 laser whose true vacuum wavelength differs from the nominal value the analysis is told, as an
 unstabilised He-Ne may (CIPM 2007: u_r = 1.5e-6 for the free-running 633 nm He-Ne).
+
+Source: CIPM Recommendation 2 (CI-2007), list of standard frequencies, as quoted in
+../shared/reference/check-values.md (He-Ne 633 nm unstabilised, and the I2-stabilised
+frequency-doubled Nd:YAG at 532 nm).
 """
 
 import numpy as np

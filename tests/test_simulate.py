@@ -288,3 +288,32 @@ def test_detector_delay_shifts_signal_by_delay_times_speed():
     assert np.max(np.abs(got[sl] - expected[sl])) < tol
     # the shift is real: at 0.25 cm/s it moves the fringes by 2πσ v τ ≈ 1 rad
     assert np.max(np.abs(got - base.record.columns["signal"])) > 0.5
+
+
+@pytest.mark.parametrize("centre, fwhm, asym", [(590.0, 30.0, 0.0), (450.0, 20.0, 0.0),
+                                                (850.0, 60.0, 0.0), (850.0, 60.0, 0.25)])
+def test_led_peak_and_fwhm_are_those_of_the_density_per_wavelength(centre, fwhm, asym):
+    # issue 12, part 9: led:590nm:30nm must come back with its S_λ peak at 590 nm (analyze
+    # reports CIE 127 figures on S_λ = S_σ·σ²/1e7, a change of variable). Closed form: the
+    # split normal in λ peaks at its centre and has FWHM w_short + w_long. Tolerances: the
+    # Gaussian components blur the shape by 0.08 FWHM (compensated for the width); the peak
+    # of a symmetric band stays within 0.03 nm. An asymmetric split normal has a kink at its
+    # maximum, which any blur moves toward the broad side (0.8 nm for 850/60, asymmetry
+    # 0.25), so only its FWHM is checked.
+    src = S.led(centre, fwhm, asymmetry=asym)
+    s = np.linspace(1e7 / (centre + 3 * fwhm), 1e7 / (centre - 3 * fwhm), 400_001)
+    lam = 1e7 / s
+    per_nm = src.density(s) * s**2 / 1e7
+    i = int(np.argmax(per_nm))
+    if asym == 0.0:
+        assert lam[i] == pytest.approx(centre, abs=0.03)
+    above = lam[per_nm >= per_nm[i] / 2]
+    assert above.max() - above.min() == pytest.approx(fwhm, rel=1e-3)
+    # the other convention, named: the shape on S_σ has its S_σ peak at the centre, and S_λ
+    # peaks shorter (by ~λ·(FWHM/λ)²/(4 ln 2)·... : 0.57 nm for 590/30)
+    old = S.led(centre, fwhm, asymmetry=asym, density="per-wavenumber")
+    if asym == 0.0:
+        assert lam[int(np.argmax(old.density(s)))] == pytest.approx(centre, abs=0.03)
+        assert lam[int(np.argmax(old.density(s) * s**2))] < centre - 0.1
+    with pytest.raises(ValueError, match="per-wavelength"):
+        S.led(centre, fwhm, density="per-nm")

@@ -14,7 +14,8 @@ import numpy as np
 
 from ftsource.measure.values import finite_or_none, u_nm_from_per_cm
 
-__all__ = ["BandFigures", "band_figures", "sweep_scatter", "line_shape_corrected"]
+__all__ = ["BandFigures", "band_figures", "band_baseline", "sweep_scatter",
+           "line_shape_corrected"]
 
 #: Degrees of freedom given to the Monte Carlo centroid uncertainty when the sweeps' scatter
 #: does not replace it (many noisy copies: effectively a Type B input, common practice).
@@ -42,6 +43,9 @@ class BandFigures:
     u_centroid_nm: float
     dof: float
     notes: tuple[str, ...] = ()
+    #: Constant baseline of S_σ removed from the band (0.0 when none was significant, or when
+    #: the response was divided out): the coherence length removes it too.
+    baseline_per_cm: float = 0.0
 
 
 def band_figures(spec, main, sweep_spectra, response) -> BandFigures:
@@ -63,7 +67,7 @@ def band_figures(spec, main, sweep_spectra, response) -> BandFigures:
     ----------
     .. [1] CIE 127:2007 (peak, centroid, FWHM of LEDs); JCGM 100:2008 §4.2 (Type A).
     """
-    from ftsource.measure.broadband import broadband_metrics
+    from ftsource.measure.broadband import band_edge_uncertainty, broadband_metrics
     from ftsource.spectrum.spectrum import reconvolve
 
     notes: list[str] = []
@@ -89,6 +93,12 @@ def band_figures(spec, main, sweep_spectra, response) -> BandFigures:
     noise = noise_s[ok] * sig_m[ok] ** 2 / 1e7
     twice = twice_s[ok] * sig_m[ok] ** 2 / 1e7
     bb = broadband_metrics(wl, dens, noise, warn=False)
+    base, base_notes = band_baseline(sig_m[ok], dens_s[ok], noise_s[ok], bb)
+    if base:
+        notes.extend(base_notes)
+        dens = (dens_s[ok] - base) * sig_m[ok] ** 2 / 1e7
+        twice = (twice_s[ok] - base) * sig_m[ok] ** 2 / 1e7
+        bb = broadband_metrics(wl, dens, noise, warn=False)
     bb2 = broadband_metrics(wl, twice, None, n_monte_carlo=0, warn=False)
     notes.extend(bb.warnings)
     notes.extend(bb2.warnings)
@@ -96,7 +106,10 @@ def band_figures(spec, main, sweep_spectra, response) -> BandFigures:
         bb, bb2, u_nm_from_per_cm(sig0, spec.resolution_per_cm)
     )
     notes.extend(shape_notes)
-    u_centroid, dof = bb.u_centroid_nm, MONTE_CARLO_DOF
+    # the band-edge rule tested against its own choice (docs/measurements.md)
+    u_edge = band_edge_uncertainty(wl, dens)
+    u_centroid = float(np.hypot(bb.u_centroid_nm, u_edge if np.isfinite(u_edge) else 0.0))
+    dof = MONTE_CARLO_DOF
     scatter = sweep_scatter(spec, sweep_spectra, m, ok, None if weighted else response)
     if scatter is not None:
         # the figures' scatter between sweeps sees what the noise model leaves out (the
@@ -117,7 +130,7 @@ def band_figures(spec, main, sweep_spectra, response) -> BandFigures:
         notes.extend(resp_notes)
         u_peak, u_centroid, u_fwhm = (float(np.hypot(a, b)) for a, b in
                                       zip((u_peak, u_centroid, u_fwhm), u_resp, strict=True))
-    xy, dominant = _colour(wl, dens)
+    xy, dominant = _colour(wl, dens, bb.band_nm)
     if response is None:
         notes.append(
             "broadband figures are detector-weighted: no instrument response correction "
@@ -138,6 +151,7 @@ def band_figures(spec, main, sweep_spectra, response) -> BandFigures:
         u_centroid_nm=u_centroid,
         dof=dof,
         notes=tuple(notes),
+        baseline_per_cm=float(base) if weighted else 0.0,
     )
 
 
@@ -166,11 +180,43 @@ def _response_shape_terms(sigma, density_corrected, response, main):
         )
 
 
-def _colour(wl, dens):
-    """CIE 1931 chromaticity and dominant wavelength of the band (None outside the visible)."""
+def band_baseline(sigma, density, noise, bb):
+    """The constant baseline of S_σ to remove from a broad band (0.0 if none), with its note.
+
+    Estimated on the window's points beyond the band's 1 % edges widened by one FWHM (where
+    even a skewed LED's tail has fallen far below 1 %); removed only when it differs from
+    zero by more than three standard uncertainties
+    (:func:`ftsource.measure.broadband.flank_baseline`).
+    """
+    from ftsource.measure.broadband import flank_baseline
+
+    lo_nm, hi_nm = bb.band_nm
+    pad = bb.fwhm_nm
+    band = (1e7 / (hi_nm + pad), 1e7 / max(lo_nm - pad, 1.0))
+    base, u_base = flank_baseline(sigma, density, band, noise)
+    if not (u_base > 0 and abs(base) > 3 * u_base):
+        return 0.0, ()
+    return base, (
+        f"the spectrum around the band sits on a baseline of {base / float(np.max(density)):.2g}"
+        " of the peak (estimated beyond the band): it was removed before the band's figures, "
+        "colour and coherence length were taken; a magnitude spectrum or a detector offset "
+        "drifting during the sweeps can cause it",
+    )
+
+
+def _colour(wl, dens, band_nm):
+    """CIE 1931 chromaticity and dominant wavelength of the band (None outside the visible).
+
+    Over the band only (the centroid's 1 % rule), baseline removed, negative noise kept:
+    clipped or rectified noise far from the band biased the colour (issue 12, part 2). The
+    vacuum wavelengths are taken to standard air, the CIE tables' scale.
+    """
     from ftsource.measure.colour import chromaticity_xy, dominant_wavelength_nm
 
-    xy = chromaticity_xy(wl, np.clip(dens, 0, None))
+    in_band = (wl >= band_nm[0]) & (wl <= band_nm[1])
+    if in_band.sum() < 2:
+        return None, None
+    xy = chromaticity_xy(wl[in_band], dens[in_band], scale="vacuum")
     if xy is None:
         return None, None
     return ((finite_or_none(xy[0]), finite_or_none(xy[1])),

@@ -20,6 +20,7 @@ __all__ = [
     "reference_uncertainty_ppm",
     "air_ratio_rel_u",
     "air_range_notes",
+    "line_budget",
 ]
 
 
@@ -104,6 +105,34 @@ def centre_budget(centre, *, opd_kind, options, reference_wavelength_nm, source_
             "with a known line (ftsource calibrate) or add a reference laser"
         )
     return CentreBudget(corrected, budget, tuple(notes))
+
+
+def line_budget(fit, *, opd_kind, options, reference_wavelength_nm,
+                field_of_view_factor: float = 1.0):
+    """One line's expanded uncertainty and coverage factor, by the summary's budget.
+
+    The line's fit (its centre's standard uncertainty and degrees of freedom) enters
+    :func:`centre_budget` in place of the source's centre estimate, so every line carries the
+    same components as the summary (reference, air-index ratio at its own wavelength,
+    alignment, OPD scale, field of view) at the same coverage. Returns
+    ``(expanded_nm, coverage_factor)``, or ``(None, None)`` for a fit without a finite centre.
+
+    References
+    ----------
+    .. [1] JCGM 100:2008 (GUM), §6 (expanded uncertainty) and annex G (coverage factor).
+    """
+    from ftsource.measure.classify import CentreEstimate
+
+    wl = nm_from_per_cm(fit.centre_per_cm)
+    if not np.isfinite(wl):
+        return None, None
+    est = CentreEstimate(wl, u_nm_from_per_cm(fit.centre_per_cm, fit.u_centre_per_cm),
+                         fit.dof)
+    cb = centre_budget(est, opd_kind=opd_kind, options=options,
+                       reference_wavelength_nm=reference_wavelength_nm, source_lines=(),
+                       field_of_view_factor=field_of_view_factor,
+                       main_per_cm=fit.centre_per_cm)
+    return float(cb.budget.expanded), float(cb.budget.coverage_factor)
 
 
 def _field_of_view(centre_nm, factor, main_per_cm):

@@ -32,6 +32,8 @@ __all__ = [
     "clipped_fraction",
     "input_facts",
     "processing_facts",
+    "glass_facts",
+    "GlassFacts",
     "instrument_facts",
     "health_facts",
     "line_reports",
@@ -77,6 +79,58 @@ class ProcessingFacts:
     opd_step_nm: float | None
     zero_fill: int
     channel_delay_s: float | None
+    glass_imbalance: GlassFacts | None = None
+
+
+@dataclass(frozen=True)
+class GlassFacts:
+    """Unequal glass in the arms, from the sweeps' phase curvature (mm, µm²; see
+    :mod:`ftsource.spectrum.dispersion`)."""
+
+    group_delay_dispersion_um2: float | None
+    u_group_delay_dispersion_um2: float | None
+    bk7_thickness_mm: float | None
+    u_bk7_thickness_mm: float | None
+    optical_thickness_difference_mm: float | None
+    definition: str
+
+
+GLASS_DEFINITION = (
+    "D = (1/2pi) d2(phase)/d(sigma)2 at the band's centre, the group-delay dispersion in "
+    "optical path; bk7_thickness_mm = |D| / (dn_g/dsigma) of SCHOTT N-BK7 (total extra glass "
+    "path, all passes); optical_thickness_difference_mm = n(N-BK7) x that"
+)
+
+
+def glass_facts(sweep_spectra, main) -> tuple[GlassFacts | None, tuple[str, ...]]:
+    """The glass imbalance the sweeps' phase implies, with the advice to add a compensator
+    (None and no note when no sweep needed the dispersion treatment)."""
+    from ftsource.spectrum.dispersion import glass_imbalance
+
+    from ftsource.measure.classify import BROADBAND_FWHM_NM
+
+    if main is None or not main.resolved or (
+            u_nm_from_per_cm(main.centre_per_cm, main.fwhm_per_cm) <= BROADBAND_FWHM_NM):
+        return None, ()  # a narrow line's few bins cannot tell a phase curvature
+    g = glass_imbalance([s.dispersion_cm2 for s in sweep_spectra],
+                        [s.u_dispersion_cm2 for s in sweep_spectra], main.centre_per_cm)
+    if g is None or not g.dispersion_cm2 > 3 * g.u_dispersion_cm2:
+        return None, ()
+    note = (
+        f"the centre burst is chirped: the two arms hold unequal glass, about "
+        f"{g.thickness_cm * 10:.2g} mm of N-BK7-like glass in excess in one arm (an "
+        f"optical-thickness difference of {g.optical_thickness_cm * 10:.2g} mm); the phase was "
+        "corrected with a smooth polynomial in wavenumber. Add a compensator plate of the "
+        "beamsplitter's glass and thickness to the other arm"
+    )
+    return GlassFacts(
+        group_delay_dispersion_um2=finite_or_none(g.dispersion_cm2 * 1e8),
+        u_group_delay_dispersion_um2=finite_or_none(g.u_dispersion_cm2 * 1e8),
+        bk7_thickness_mm=finite_or_none(g.thickness_cm * 10),
+        u_bk7_thickness_mm=finite_or_none(g.u_thickness_cm * 10),
+        optical_thickness_difference_mm=finite_or_none(g.optical_thickness_cm * 10),
+        definition=GLASS_DEFINITION,
+    ), (note,)
 
 
 @dataclass(frozen=True)
@@ -132,6 +186,10 @@ class LineReport:
     identification: object | None  # ftsource.linelists.Candidate
     nearest_entries: tuple = ()
     pair_possible: bool = False
+    #: The line's own expanded uncertainty and coverage factor, by the summary's budget
+    #: (:func:`ftsource.measure.budget.line_budget`).
+    expanded_uncertainty_nm: float | None = None
+    coverage_factor: float | None = None
 
 
 def clipped_fraction(signal) -> float:
@@ -187,7 +245,7 @@ def input_facts(record, options, *, opd_kind, reference_wavelength_nm,
 
 
 def processing_facts(options, path, limits, sweep_spectra, rejected,
-                     channel_delay=None) -> ProcessingFacts:
+                     channel_delay=None, glass=None) -> ProcessingFacts:
     """The processing section: apodization, phase correction, sweeps used and left out."""
     used = {s.sweep_index for s in sweep_spectra}
     methods = sorted({s.method for s in sweep_spectra})
@@ -205,6 +263,7 @@ def processing_facts(options, path, limits, sweep_spectra, rejected,
         zero_fill=int(options.zero_fill),
         channel_delay_s=finite_or_none(channel_delay.delay_s) if channel_delay is not None
         else None,
+        glass_imbalance=glass,
     )
 
 
@@ -258,11 +317,13 @@ def instrument_facts(spec, limits, main, apodization) -> InstrumentFacts:
 
 
 def line_reports(lines, flags, aliasing, *, options, reference_uncertainty_ppm,
-                 main=None) -> tuple[tuple[LineReport, ...], tuple[str, ...]]:
+                 main=None, budget=None) -> tuple[tuple[LineReport, ...], tuple[str, ...]]:
     """The table of lines, sorted by wavelength, and the aliasing notes of its lines.
 
     ``main`` is the strongest source line (intensities are relative to it); ``aliasing``
-    holds each line's verdict (:mod:`ftsource.lines.aliasing`) or is None.
+    holds each line's verdict (:mod:`ftsource.lines.aliasing`) or is None. ``budget``, when
+    given, maps a line fit to its ``(expanded_uncertainty_nm, coverage_factor)``
+    (:func:`ftsource.measure.budget.line_budget`).
     """
     from ftsource.lines.identify import identify_line
 
@@ -278,6 +339,7 @@ def line_reports(lines, flags, aliasing, *, options, reference_uncertainty_ppm,
         ident = identify_line(wl, u_wl, reference_uncertainty_ppm, source_line=flag is None,
                               tables=tables, resolution_nm=u_nm_from_per_cm(
                                   f.centre_per_cm, f.instrument_fwhm_per_cm))
+        big_u, k = budget(f) if budget is not None else (None, None)
         out.append(LineReport(
             wavelength_nm=finite_or_none(wl),
             wavelength_air_nm=finite_or_none(air_wavelength_nm(wl, options)),
@@ -297,6 +359,8 @@ def line_reports(lines, flags, aliasing, *, options, reference_uncertainty_ppm,
             identification=ident.best,
             nearest_entries=ident.nearest,
             pair_possible=bool(getattr(f, "pair_possible", False)),
+            expanded_uncertainty_nm=finite_or_none(big_u),
+            coverage_factor=finite_or_none(k),
         ))
     out.sort(key=lambda r: r.wavelength_nm or 0.0)
     return tuple(out), tuple(notes)

@@ -20,7 +20,8 @@ from ftsource.measure.values import (
     u_nm_from_per_cm,
 )
 
-__all__ = ["SourceFigures", "source_figures", "sweep_consistency_notes"]
+__all__ = ["SourceFigures", "source_figures", "sweep_consistency_notes",
+           "lines_peak_and_centroid", "FWHM_DEFINITIONS"]
 
 
 @dataclass(frozen=True)
@@ -63,6 +64,7 @@ class SourceFigures:
     modes: ModeFigures | None = None
     budget: object | None = None
     notes: tuple[str, ...] = ()
+    fwhm_definition: str | None = None
 
 
 def source_figures(spec, source_lines, sweep_spectra, interferograms, *, options, opd_kind,
@@ -136,10 +138,11 @@ def source_figures(spec, source_lines, sweep_spectra, interferograms, *, options
     if kind == "narrow" and len(sweep_spectra) >= 2:
         notes += sweep_consistency_notes(spec, sweep_spectra, sig0, sweep_fit_cache)
     width = width_figures(kind, main, spec, interferograms, sweep_spectra, fwhm_nm=fwhm_nm,
-                          u_fwhm_nm=band.u_fwhm_nm if band is not None else None)
+                          u_fwhm_nm=band.u_fwhm_nm if band is not None else None,
+                          baseline_per_cm=band.baseline_per_cm if band is not None else 0.0)
     notes += width.notes
     corrected, budget = cb.centre_nm, cb.budget
-    band_fields = {} if band is None else {
+    band_fields = lines_peak_and_centroid(source_lines) if band is None else {
         "peak_wavelength_nm": band.peak_wavelength_nm,
         "u_peak_wavelength_nm": band.u_peak_wavelength_nm,
         "centroid_wavelength_nm": band.centroid_wavelength_nm,
@@ -147,6 +150,10 @@ def source_figures(spec, source_lines, sweep_spectra, interferograms, *, options
         "chromaticity_xy": band.chromaticity_xy,
         "dominant_wavelength_nm": band.dominant_wavelength_nm,
     }
+    fwhm_out = width.fwhm_nm
+    if kind == "multimode":
+        fwhm_out = modes.envelope_fwhm_nm  # the envelope of the modes (its definition below)
+    band_fields["fwhm_definition"] = FWHM_DEFINITIONS[kind] if fwhm_out is not None else None
     return SourceFigures(
         kind=kind,
         resolved=width.resolved,
@@ -159,7 +166,7 @@ def source_figures(spec, source_lines, sweep_spectra, interferograms, *, options
         coverage_factor=finite_or_none(budget.coverage_factor),
         wavenumber_per_cm=finite_or_none(1e7 / corrected),
         frequency_thz=finite_or_none(C_M_S / (corrected * 1e-9) / 1e12),
-        fwhm_nm=width.fwhm_nm,
+        fwhm_nm=fwhm_out,
         fwhm_upper_bound_nm=width.fwhm_upper_bound_nm,
         u_fwhm_nm=width.u_fwhm_nm if kind != "multimode" else None,
         coherence_length_mm=width.coherence_length_mm,
@@ -176,6 +183,39 @@ def source_figures(spec, source_lines, sweep_spectra, interferograms, *, options
         notes=tuple(notes),
         **band_fields,
     )
+
+
+#: What ``summary.fwhm_nm`` is, by kind of source.
+FWHM_DEFINITIONS = {
+    "broadband": "CIE 127 spectral bandwidth at half intensity of the density per unit "
+                 "wavelength, the instrument line shape removed to first order",
+    "narrow": "FWHM of the fitted line profile (Voigt), the instrument line shape removed",
+    "multimode": "FWHM of a Gaussian envelope fitted to the mode intensities against "
+                 "wavenumber, in nm at the modes' centroid (first order); not a mode's width",
+}
+
+
+def lines_peak_and_centroid(source_lines) -> dict:
+    """Peak (strongest line) and intensity-weighted centroid of a narrow or multimode
+    source's lines, with their standard uncertainties
+    (:func:`ftsource.measure.lineset.line_set_figures`), as summary fields."""
+    from ftsource.errors import AnalysisError
+    from ftsource.measure.lineset import line_set_figures
+
+    try:
+        f = line_set_figures(
+            [nm_from_per_cm(ln.centre_per_cm) for ln in source_lines],
+            [u_nm_from_per_cm(ln.centre_per_cm, ln.u_centre_per_cm) for ln in source_lines],
+            [ln.area for ln in source_lines], [ln.u_area for ln in source_lines],
+        )
+    except AnalysisError:
+        return {}
+    return {
+        "peak_wavelength_nm": finite_or_none(f.peak_nm),
+        "u_peak_wavelength_nm": finite_or_none(f.u_peak_nm),
+        "centroid_wavelength_nm": finite_or_none(f.centroid_nm),
+        "u_centroid_wavelength_nm": finite_or_none(f.u_centroid_nm),
+    }
 
 
 def sweep_consistency_notes(spec, sweep_spectra, sigma_per_cm, fit_cache=None):

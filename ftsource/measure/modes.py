@@ -249,34 +249,8 @@ def find_mode_comb(
        Mag. 28(5) (2011) 134-137.
     .. [3] JCGM 100:2008 (GUM), §H.3 (uncertainty of a least-squares straight line).
     """
-    c, a = finite_pair(centres_per_cm, intensities, "centres_per_cm", "intensities")
-    if np.any(a < 0):
-        raise AnalysisError("intensities must be >= 0")
-    if not (0.0 <= min_fraction < 1.0):
-        raise OptionError(f"min_fraction must lie in [0, 1), got {min_fraction!r}")
-    if not (0.0 < rtol < 0.5):
-        raise OptionError(f"rtol must lie in (0, 0.5), got {rtol!r}")
-    if c.size == 0 or not np.max(a) > 0:
-        raise AnalysisError("no line has a positive intensity")
-    uc = None
-    if u_centres_per_cm is not None:
-        uc = np.asarray(u_centres_per_cm, dtype=float)
-        if uc.shape != c.shape:
-            raise AnalysisError("u_centres_per_cm must match centres_per_cm")
-        uc = np.where(np.isfinite(uc) & (uc > 0), uc, 0.0)
-    wd = None
-    if widths_per_cm is not None:
-        wd = np.asarray(widths_per_cm, dtype=float)
-        if wd.shape != c.shape:
-            raise AnalysisError("widths_per_cm must match centres_per_cm")
-    keep = a >= min_fraction * np.max(a)
-    c, a = c[keep], a[keep]
-    order = np.argsort(c)
-    c, a = c[order], a[order]
-    if uc is not None:
-        uc = uc[keep][order]
-    if wd is not None:
-        wd = wd[keep][order]
+    c, a, uc, wd = _comb_inputs(centres_per_cm, intensities, u_centres_per_cm, widths_per_cm,
+                                min_fraction, rtol)
     if c.size < 3:
         return None
     d = np.diff(c)
@@ -300,28 +274,12 @@ def find_mode_comb(
     m = np.concatenate([[0], np.cumsum(k)])
 
     n = c.size
-    mm = m - m.mean()
-    sxx = float(np.sum(mm * mm))
-    slope = float(np.sum(mm * (c - c.mean())) / sxx)
-    resid = c - (c.mean() + slope * mm)
-    s2 = float(np.sum(resid**2) / (n - 2)) if n > 2 else 0.0
-    u_slope = float(np.sqrt(s2 / sxx))
-    if uc is not None:
-        u_slope = max(u_slope, float(np.sqrt(np.sum(mm**2 * uc**2)) / sxx))
-
+    slope, u_slope, resid = _spacing_fit(c, m, uc)
     centroid = float(np.sum(a * c) / np.sum(a))
     nm_per_cm1 = 1e7 / centroid**2  # dλ/dσ at the centroid, nm per cm⁻¹
     ghz = C_CM_PER_S * 1e-9
 
-    # Gaussian envelope: weighted parabola through ln I (Guo 2011)
-    fwhm = float("nan")
-    pos = a > 0
-    if np.count_nonzero(pos) >= 3:
-        ds = c[pos] - centroid
-        coef = np.polyfit(ds, np.log(a[pos]), 2, w=a[pos])
-        if coef[0] < 0:
-            fwhm = float(2.0 * np.sqrt(np.log(2.0) / -coef[0]))
-
+    fwhm = _envelope_fwhm(c, a, centroid)
     if wd is not None and np.any(np.nan_to_num(wd, nan=np.inf) > slope / MODE_NARROWNESS):
         return None
     return ModeComb(
@@ -345,6 +303,61 @@ def find_mode_comb(
         residual_rms_per_cm=float(np.sqrt(np.mean(resid**2))),
         off_comb_per_cm=off,
     )
+
+
+def _comb_inputs(centres_per_cm, intensities, u_centres_per_cm, widths_per_cm, min_fraction,
+                 rtol):
+    """The lines of :func:`find_mode_comb` checked, kept above ``min_fraction`` of the
+    strongest and sorted by wavenumber: ``(centres, intensities, u or None, widths or None)``."""
+    c, a = finite_pair(centres_per_cm, intensities, "centres_per_cm", "intensities")
+    if np.any(a < 0):
+        raise AnalysisError("intensities must be >= 0")
+    if not (0.0 <= min_fraction < 1.0):
+        raise OptionError(f"min_fraction must lie in [0, 1), got {min_fraction!r}")
+    if not (0.0 < rtol < 0.5):
+        raise OptionError(f"rtol must lie in (0, 0.5), got {rtol!r}")
+    if c.size == 0 or not np.max(a) > 0:
+        raise AnalysisError("no line has a positive intensity")
+    uc = None
+    if u_centres_per_cm is not None:
+        uc = np.asarray(u_centres_per_cm, dtype=float)
+        if uc.shape != c.shape:
+            raise AnalysisError("u_centres_per_cm must match centres_per_cm")
+        uc = np.where(np.isfinite(uc) & (uc > 0), uc, 0.0)
+    wd = None
+    if widths_per_cm is not None:
+        wd = np.asarray(widths_per_cm, dtype=float)
+        if wd.shape != c.shape:
+            raise AnalysisError("widths_per_cm must match centres_per_cm")
+    keep = a >= min_fraction * np.max(a)
+    order = np.argsort(c[keep])
+    return (c[keep][order], a[keep][order], None if uc is None else uc[keep][order],
+            None if wd is None else wd[keep][order])
+
+
+def _spacing_fit(c, m, uc):
+    """Least-squares line ``c = c̄ + Δσ·(m − m̄)`` through the modes: ``(Δσ, u(Δσ),
+    residuals)``; ``u`` is the larger of the scatter's and the centres' own."""
+    n = c.size
+    mm = m - m.mean()
+    sxx = float(np.sum(mm * mm))
+    slope = float(np.sum(mm * (c - c.mean())) / sxx)
+    resid = c - (c.mean() + slope * mm)
+    s2 = float(np.sum(resid**2) / (n - 2)) if n > 2 else 0.0
+    u_slope = float(np.sqrt(s2 / sxx))
+    if uc is not None:
+        u_slope = max(u_slope, float(np.sqrt(np.sum(mm**2 * uc**2)) / sxx))
+    return slope, u_slope, resid
+
+
+def _envelope_fwhm(c, a, centroid) -> float:
+    """FWHM (cm⁻¹) of the Gaussian envelope: an intensity-weighted parabola through ln I
+    (Guo 2011); NaN when fewer than three modes or the parabola opens upwards."""
+    pos = a > 0
+    if np.count_nonzero(pos) < 3:
+        return float("nan")
+    coef = np.polyfit(c[pos] - centroid, np.log(a[pos]), 2, w=a[pos])
+    return float(2.0 * np.sqrt(np.log(2.0) / -coef[0])) if coef[0] < 0 else float("nan")
 
 
 def revival_opd_cm(spacing_per_cm: float) -> float:
@@ -408,8 +421,8 @@ def check_revivals(
     central burst (to where it falls below half its ZPD value); the first revival is the
     highest envelope maximum between there and ``1.5/Δσ``, accepted when it stands at least
     ``min_contrast`` times above the lowest envelope before it. Its position (the centroid of
-    the peak, as for ZPD in :mod:`ftsource.interferogram.zpd`) and those of further revivals near its
-    multiples within the scan give the measured period ``Σk·x_k/Σk²``. Before the centroids
+    the peak, as for ZPD in :mod:`ftsource.interferogram.zpd`) and those of further revivals
+    near its multiples within the scan give the measured period ``Σk·x_k/Σk²``. Before the centroids
     are taken the envelope is divided by the exponential fitted (least squares in ``ln``)
     through its ZPD value and the revival heights: modes of finite width make revivals
     decay, ``exp(−πw x)`` for Lorentzian modes of FWHM ``w``, and the decay would pull each
@@ -472,15 +485,7 @@ def check_revivals(
                 f"zpd_x_cm must lie inside the record [{x[0]:.6g}, {x[-1]:.6g}] cm, got "
                 f"{zpd_x_cm!r}"
             )
-    n = x.size
-    # the longer side, as distance from ZPD, with the untrusted far-end margin removed
-    if x[-1] - x0 >= x0 - x[0]:
-        idx = np.arange(n)[x >= x0][: max(n - margin - int(np.searchsorted(x, x0)), 0)]
-    else:
-        idx = np.arange(n)[x <= x0][::-1]
-        idx = idx[: max(idx.size - margin, 0)]
-    u = np.abs(x[idx] - x0)
-    e = env[idx]
+    u, e = _longer_side(x, env, x0, margin)
     reach = float(u[-1]) if u.size else 0.0
     if reach < P:
         return RevivalCheck(
@@ -509,31 +514,8 @@ def check_revivals(
             f"no revival of the visibility between the central burst and {min(1.5 * P, reach):.4g}"
             " cm from ZPD",
         )
-    # peaks near the multiples of the first revival
-    peaks, ks = [j], [1]
-    k = 2
-    while k * u[j] + tol * P <= reach:
-        win = np.nonzero(np.abs(u - k * u[j]) <= tol * P)[0]
-        jk = int(win[np.argmax(e[win])])
-        if e[jk] >= min_contrast * float(np.min(e[i0 : jk + 1])):
-            peaks.append(jk)
-            ks.append(k)
-        k += 1
-    # Modes of finite width make the revivals decay (as exp(-πw x) for Lorentzian modes of
-    # FWHM w), which pulls each peak's centroid towards ZPD; flatten the envelope by the
-    # exponential through the ZPD value and the revival heights before taking centroids.
-    heights = np.r_[e0, e[peaks]]
-    where = np.r_[0.0, u[peaks]]
-    rate = -float(np.polyfit(where, np.log(heights), 1)[0])
-    ef = e * np.exp(rate * u) if rate > 0 else e
-    xs, kept = [], []
-    for jk, kk in zip(peaks, ks, strict=True):
-        xk, touches = _peak_centroid(u, ef, jk)
-        if not touches:
-            xs.append(xk)
-            kept.append(kk)
-    if not xs:
-        xs, kept = [float(u[j])], [1]
+    peaks, ks = _revival_peaks(u, e, i0, j, P, reach, tol, min_contrast)
+    xs, kept = _revival_centroids(u, e, e0, j, peaks, ks)
     ks_a, xs_a = np.array(kept, float), np.array(xs)
     period = float(np.sum(ks_a * xs_a) / np.sum(ks_a * ks_a))
     rel = period / P - 1.0
@@ -550,3 +532,53 @@ def check_revivals(
         f"{found}; period {period:.6g} cm differs from 1/spacing = {P:.6g} cm by {rel:+.2%} "
         f"(allowed {tol:.0%})",
     )
+
+
+def _longer_side(x, env, x0: float, margin: int):
+    """The envelope on the longer side of ZPD as ``(distance from ZPD, envelope)``, with the
+    untrusted far-end margin removed."""
+    n = x.size
+    if x[-1] - x0 >= x0 - x[0]:
+        idx = np.arange(n)[x >= x0][: max(n - margin - int(np.searchsorted(x, x0)), 0)]
+    else:
+        idx = np.arange(n)[x <= x0][::-1]
+        idx = idx[: max(idx.size - margin, 0)]
+    return np.abs(x[idx] - x0), env[idx]
+
+
+def _revival_peaks(u, e, i0: int, j: int, P: float, reach: float, tol: float,
+                   min_contrast: float):
+    """Indices of the first revival ``j`` and of the envelope maxima near its multiples that
+    stand ``min_contrast`` above the lowest envelope before them, with their orders."""
+    peaks, ks = [j], [1]
+    k = 2
+    while k * u[j] + tol * P <= reach:
+        win = np.nonzero(np.abs(u - k * u[j]) <= tol * P)[0]
+        jk = int(win[np.argmax(e[win])])
+        if e[jk] >= min_contrast * float(np.min(e[i0 : jk + 1])):
+            peaks.append(jk)
+            ks.append(k)
+        k += 1
+    return peaks, ks
+
+
+def _revival_centroids(u, e, e0: float, j: int, peaks, ks):
+    """The revivals' centroids (cm from ZPD) and orders, peaks touching a window edge left out.
+
+    Modes of finite width make the revivals decay (as exp(−πw x) for Lorentzian modes of FWHM
+    w), which pulls each peak's centroid towards ZPD; the envelope is flattened by the
+    exponential through the ZPD value and the revival heights before the centroids are taken.
+    """
+    heights = np.r_[e0, e[peaks]]
+    where = np.r_[0.0, u[peaks]]
+    rate = -float(np.polyfit(where, np.log(heights), 1)[0])
+    ef = e * np.exp(rate * u) if rate > 0 else e
+    xs, kept = [], []
+    for jk, kk in zip(peaks, ks, strict=True):
+        xk, touches = _peak_centroid(u, ef, jk)
+        if not touches:
+            xs.append(xk)
+            kept.append(kk)
+    if not xs:
+        xs, kept = [float(u[j])], [1]
+    return xs, kept

@@ -38,12 +38,15 @@ class WidthFigures:
 
 
 def width_figures(kind, main, spec, interferograms, sweep_spectra, *, fwhm_nm: float,
-                  u_fwhm_nm: float | None = None) -> WidthFigures:
+                  u_fwhm_nm: float | None = None, baseline_per_cm: float = 0.0
+                  ) -> WidthFigures:
     """Width and coherence of the main line ``main`` of a source of ``kind``.
 
     ``fwhm_nm`` is the line's FWHM (for a broad band, corrected for the line shape) and
     ``u_fwhm_nm`` its standard uncertainty when already known (broad band), else the fit's.
-    A multimode source gets no width (its modes are reported instead).
+    ``baseline_per_cm`` is a broad band's baseline of S_σ (:func:`ftsource.measure.band.
+    band_baseline`), removed before its coherence length. A multimode source gets no width
+    (its modes are reported instead).
 
     References
     ----------
@@ -74,7 +77,8 @@ def width_figures(kind, main, spec, interferograms, sweep_spectra, *, fwhm_nm: f
             u_nm_from_per_cm(sig0, main.u_fwhm_per_cm))
         try:
             f.update(_spectrum_coherence(kind, main, spec,
-                                         _visibility(interferograms, sweep_spectra)))
+                                         _visibility(interferograms, sweep_spectra),
+                                         baseline_per_cm=baseline_per_cm))
         except Exception as e:  # noqa: BLE001 - an estimate that fails is reported, not fatal
             notes.append(f"the coherence length could not be computed from the spectrum: {e}")
     else:
@@ -103,16 +107,15 @@ def width_figures(kind, main, spec, interferograms, sweep_spectra, *, fwhm_nm: f
     return WidthFigures(**f, notes=tuple(notes))
 
 
-def _spectrum_coherence(kind, main, spec, vis=None) -> dict:
-    """Coherence length from the spectrum: the measured band for a broad source, the fitted
-    intrinsic profile (instrument shape removed, wings complete) for a narrow line."""
+def _spectrum_coherence(kind, main, spec, vis=None, *, baseline_per_cm=0.0) -> dict:
+    """Coherence length from the spectrum: the measured band for a broad source
+    (:func:`broadband_coherence`, its baseline ``baseline_per_cm`` removed), the fitted
+    intrinsic profile (instrument shape removed, wings complete) for a narrow line, or the
+    visibility ``vis`` when the profile is undecided."""
     from ftsource.measure import coherence as coh
 
-    sig0 = main.centre_per_cm
     if kind == "broadband":
-        band = (sig0 - 6 * main.fwhm_per_cm, sig0 + 6 * main.fwhm_per_cm)
-        ce = coh.coherence_from_spectrum(spec.sigma_per_cm, spec.density,
-                                         noise=spec.noise, band=band)
+        ce = broadband_coherence(spec, main, baseline_per_cm)
     else:
         # the fitted profiles' closed forms, or the visibility when the profile is undecided
         ce = coh.line_coherence(main.profile_widths, main.profile_weights, visibility=vis)
@@ -127,6 +130,39 @@ def _spectrum_coherence(kind, main, spec, vis=None) -> dict:
         "coherence_length_definition": ce.definition,
         "coherence_length_method": ce.method,
     }
+
+
+def broadband_coherence(spec, main, baseline_per_cm=0.0):
+    """Coherence length of a broad band: over ±6 FWHM, its baseline removed, the instrument
+    line shape's bias corrected to first order
+    (:func:`ftsource.measure.coherence.line_shape_corrected`), and the choice of the band (±6
+    against ±4 FWHM, half the spread over √3: rectangular, JCGM 100 §4.3.7) added to its
+    uncertainty.
+
+    References
+    ----------
+    .. [1] J. W. Goodman, Statistical Optics, Wiley (1985), §5.2; L. F. Richardson, Phil.
+       Trans. R. Soc. A 226, 299-361 (1927).
+    """
+    from dataclasses import replace
+
+    from ftsource.measure import coherence as coh
+    from ftsource.spectrum.spectrum import reconvolve
+
+    def band(k):
+        return (main.centre_per_cm - k * main.fwhm_per_cm,
+                main.centre_per_cm + k * main.fwhm_per_cm)
+
+    dens = spec.density - baseline_per_cm
+    raw = coh.coherence_from_spectrum(spec.sigma_per_cm, dens, noise=spec.noise, band=band(6))
+    twice = reconvolve(spec, band(6)) - baseline_per_cm
+    ok = np.isfinite(twice)
+    ce = coh.line_shape_corrected(
+        raw, coh.coherence_from_spectrum(spec.sigma_per_cm[ok], twice[ok], band=band(6)))
+    narrow = coh.coherence_from_spectrum(spec.sigma_per_cm, dens, noise=spec.noise,
+                                         band=band(4))
+    u_band = abs(raw.length_cm - narrow.length_cm) / (2 * math.sqrt(3))
+    return replace(ce, u_length_cm=float(np.hypot(ce.u_length_cm, u_band)))
 
 
 def coherence_disagreement(lc_mm, u_lc_mm, lv_mm, u_lv_mm, *, floor: float = 0.1):

@@ -1,13 +1,15 @@
 """What the user reads and keeps: a text summary, and the result files written atomically.
 
-Files go into an output directory: ``result.json`` (the contract's JSON) and
-``spectrum.ecsv`` (vacuum wavenumber and wavelength, density per unit wavenumber and per unit
-wavelength, and their noise). Both files are first written completely to temporary names in the
-same directory and only then renamed into place; if anything fails, the temporary files are
-removed and any file already renamed is taken back (the previous one restored), so a failure
-never leaves a half-written file or half a result. Existing files are replaced only with
-``overwrite=True``. The file names are fixed: nothing from the record (metadata, column names)
-ever becomes a path.
+Files go into an output directory: ``result.json`` (the contract's JSON), ``spectrum.ecsv``
+(vacuum wavenumber and wavelength, density per unit wavenumber and per unit wavelength, and
+their noise, over the source's band at the instrument's sampling), ``spectrum.fits`` (the same
+on a linear vacuum-wavenumber WCS axis), ``report.html`` (the self-contained report) and the
+report's figures as ``fig-<name>.png``. All files are first written completely to temporary
+names in the same directory and only then renamed into place; if anything fails, the
+temporary files are removed and any file already renamed is taken back (the previous one
+restored), so a failure never leaves a half-written file or half a result. Existing files
+are replaced only with ``overwrite=True``. The file names are fixed: nothing from the record
+(metadata, column names) ever becomes a path.
 """
 
 from __future__ import annotations
@@ -18,20 +20,23 @@ import tempfile
 import unicodedata
 from pathlib import Path
 
-import numpy as np
-
 from ftsource._checks import one_line
 from ftsource.errors import OutputError
-from ftsource.lines.fitting import SEARCH_BAND_NM
 from ftsource.report.numbers import (
     format_significant,
     format_with_uncertainty,
     round_to_uncertainty,
 )
 
-__all__ = ["result_json", "format_summary", "write_outputs", "check_outputs", "OUTPUT_FILES"]
+__all__ = ["result_json", "format_summary", "write_outputs", "check_outputs", "OUTPUT_FILES",
+           "safety_texts", "figures_weighting",
+           "output_payloads", "write_payloads"]
 
-OUTPUT_FILES = ("result.json", "spectrum.ecsv")
+OUTPUT_FILES = (
+    "result.json", "spectrum.ecsv", "spectrum.fits", "report.html",
+    "fig-spectrum.png", "fig-interferogram.png", "fig-speed.png", "fig-record.png",
+    "fig-sweeps.png", "fig-budget.png",
+)
 #: Prefix of the temporary files written next to the outputs (removed on success and failure).
 TEMP_PREFIX = ".ftsource-tmp-"
 
@@ -77,7 +82,7 @@ def _fmt(v, unit="", digits=6):
     return f"{v:.{digits}f}{unit}"
 
 
-def _weighting(figures) -> str:
+def figures_weighting(figures) -> str:
     """How the broadband figures were weighted: ``response-corrected`` when the instrument
     response was divided out, otherwise ``detector-weighted`` (the measured spectrum)."""
     return "detector-weighted" if figures.detector_weighted else "response-corrected"
@@ -109,8 +114,6 @@ def format_summary(result) -> str:
     JCGM 100:2008 §7.2.6): the centre wavelength to its expanded uncertainty, the other
     figures to their standard uncertainty ``u``; bounds to 2 significant digits.
     """
-    from ftsource.safety import LASER_NOTICE
-
     s, ins, inp = result.figures, result.instrument, result.input
     out = [f"record: {inp.record}  ({inp.n_samples} samples, OPD from {inp.opd_source})"]
     out.append(f"source kind: {s.kind}")
@@ -134,16 +137,23 @@ def format_summary(result) -> str:
         peak = _with_u(s.peak_wavelength_nm, s.u_peak_wavelength_nm, "nm")
         centroid = _with_u(s.centroid_wavelength_nm, s.u_centroid_wavelength_nm, "nm")
         fwhm = _with_u(s.fwhm_nm, s.u_fwhm_nm, "nm")
-        out.append(f"peak {peak}, centroid {centroid}, FWHM {fwhm} ({_weighting(s)})")
+        out.append(f"peak {peak}, centroid {centroid}, FWHM {fwhm} ({figures_weighting(s)})")
         if s.dominant_wavelength_nm is not None and s.chromaticity_xy:
             x, y = s.chromaticity_xy
             out.append(
                 f"colour: x = {_fmt(x, '', 4)}, y = {_fmt(y, '', 4)}, dominant wavelength "
                 f"{_fmt(s.dominant_wavelength_nm, ' nm', 1)}"
             )
-    elif s.resolved:
+    elif s.peak_wavelength_nm is not None:
+        # every kind has a peak (strongest line) and a centroid (intensity-weighted mean)
+        peak = _with_u(s.peak_wavelength_nm, s.u_peak_wavelength_nm, "nm")
+        centroid = _with_u(s.centroid_wavelength_nm, s.u_centroid_wavelength_nm, "nm")
+        out.append(f"peak {peak} (strongest line), centroid {centroid} (intensity-weighted)")
+    if s.kind == "multimode" and s.fwhm_nm is not None:
+        out.append(f"envelope FWHM of the modes: {_with_u(s.fwhm_nm, s.u_fwhm_nm, 'nm')}")
+    elif s.kind != "broadband" and s.resolved:
         out.append(f"linewidth (FWHM): {_with_u(s.fwhm_nm, s.u_fwhm_nm, 'nm')}")
-    elif s.fwhm_upper_bound_nm is not None:
+    elif s.kind != "broadband" and s.fwhm_upper_bound_nm is not None:
         bound = format_significant(s.fwhm_upper_bound_nm, 2, "nm")
         lower = format_significant(s.coherence_length_lower_bound_mm, 2, "mm")
         out.append(f"linewidth: not resolved, below {bound}; coherence length above {lower}")
@@ -164,62 +174,56 @@ def format_summary(result) -> str:
                    f"length {cavity}")
     n_src = sum(1 for ln in result.lines if ln.flag is None)
     out.append(f"lines: {n_src} from the source, {len(result.lines) - n_src} flagged")
+    for ln in result.lines:
+        if ln.flag is None:
+            out.append(_line_text(ln))
     out.append(
         f"resolution: {_fmt(ins.resolution_per_cm, ' cm⁻¹', 3)} (max OPD "
         f"{_fmt(ins.max_opd_mm, ' mm', 3)}); shortest alias-free wavelength "
         f"{_fmt(ins.min_wavelength_nm, ' nm', 1)}"
     )
+    scan = result.scan_health
+    for item in () if scan is None else scan.poor:
+        value = "—" if item.value is None else f"{item.value:.3g}"
+        out.append(f"health: {item.name} {value} is poor (want {item.threshold}): "
+                   f"{item.advice}")
     for w in result.warnings:
         out.append(f"warning: {w}")
-    out.append(f"safety: {LASER_NOTICE}")
+    for note in safety_texts(result):
+        if note not in result.warnings:
+            out.append(f"safety: {note}")
     return "\n".join(one_line(line) for line in out)
 
 
-def _spectrum_ecsv(result) -> bytes:
-    import io
-
-    from astropy.table import Table
-
-    spec = result.spectrum
-    sig = spec.sigma_per_cm
-    short, long_ = SEARCH_BAND_NM
-    lo, hi = 1e7 / long_, 1e7 / max(result.instrument.min_wavelength_nm or short, short)
-    m = (sig >= lo) & (sig <= hi)
-    t = Table()
-    t["wavenumber"] = sig[m]
-    t["wavenumber"].unit = "1/cm"
-    t["wavelength"] = 1e7 / sig[m]
-    t["wavelength"].unit = "nm"
-    t["density_per_wavenumber"] = spec.density[m]
-    t["noise_per_wavenumber"] = spec.noise[m]
-    t["density_per_wavelength"] = spec.density_per_nm[m]
-    t["noise_per_wavelength"] = spec.noise_per_nm[m]
-    t.meta["description"] = (
-        "ftsource spectrum: vacuum wavenumber and wavelength; spectral density per unit "
-        "wavenumber (arbitrary units x cm) and per unit wavelength (S_lambda = S_sigma*sigma^2/1e7,"
-        " as CIE 127 uses for LEDs), each with its noise (standard uncertainty)"
-    )
-    t.meta["medium_corrected"] = result.input.medium
-    t.meta["resolution_per_cm"] = result.instrument.resolution_per_cm
-    t.meta["line_shape"] = result.instrument.line_shape
-    # the columns are the measured spectrum: no instrument response is divided out of them
-    t.meta["density_weighting"] = "detector-weighted"
-    f = result.figures
-    t.meta["broadband_figures_weighting"] = _weighting(f) if f.kind == "broadband" else None
-    buf = io.StringIO()
-    with np.printoptions(legacy=False):
-        t.write(buf, format="ascii.ecsv")
-    return buf.getvalue().encode()
+def _line_text(ln) -> str:
+    """One source line: vacuum wavelength (to its uncertainty), relative intensity, width or
+    its bound."""
+    wl = _with_u(ln.wavelength_nm, ln.u_wavelength_nm, "nm")
+    width = (f"FWHM {_with_u(ln.fwhm_nm, None, 'nm')}" if ln.fwhm_nm is not None else
+             f"FWHM < {format_significant(ln.fwhm_upper_bound_nm, 2, 'nm')}"
+             if ln.fwhm_upper_bound_nm is not None else "FWHM —")
+    ri = "—" if ln.relative_intensity is None else f"{ln.relative_intensity:.3g}"
+    return f"  line {wl} (vacuum), relative intensity {ri}, {width}"
 
 
-def _targets(out_dir) -> tuple[Path, list[Path]]:
+def safety_texts(result) -> list[str]:
+    """The safety texts fitted to the source (:func:`ftsource.safety.safety_notes`)."""
+    from ftsource.safety import safety_notes
+
+    wls = [ln.wavelength_nm for ln in result.lines
+           if ln.flag is None and ln.wavelength_nm is not None]
+    return safety_notes(result.figures.kind, wls,
+                        reference_laser=result.input.opd_source in ("quadrature", "single"))
+
+
+def _targets(out_dir, names=OUTPUT_FILES) -> tuple[Path, list[Path]]:
     if not str(out_dir).strip():
         raise OutputError("--out: the directory name is empty")
     out = Path(out_dir)
-    return out, [out / name for name in OUTPUT_FILES]
+    return out, [out / name for name in names]
 
 
-def check_outputs(out_dir, *, overwrite: bool = False) -> None:
+def check_outputs(out_dir, *, overwrite: bool = False, names=OUTPUT_FILES) -> None:
     """Refuse early what :func:`write_outputs` would refuse, before any work is done.
 
     Raises
@@ -229,7 +233,7 @@ def check_outputs(out_dir, *, overwrite: bool = False) -> None:
         directory; or an output file (or a link under its name) exists and ``overwrite`` is
         False.
     """
-    out, targets = _targets(out_dir)
+    out, targets = _targets(out_dir, names)
     if os.path.lexists(out) and not out.is_dir():
         raise OutputError(f"--out {out}: exists and is not a directory")
     for p in targets:
@@ -308,10 +312,15 @@ def _place(tmp: str, target: Path, out: Path, *, overwrite: bool) -> None:
     os.unlink(tmp)
 
 
-def write_outputs(result, out_dir, *, overwrite: bool = False) -> list[Path]:
-    """Write ``result.json`` and ``spectrum.ecsv`` into ``out_dir`` (created if missing).
+def write_outputs(result, out_dir, *, overwrite: bool = False,
+                  full_spectrum: bool = False) -> list[Path]:
+    """Write every file of :data:`OUTPUT_FILES` into ``out_dir`` (created if missing) and
+    return their paths.
 
-    All or nothing: both files are written completely to temporary files in ``out_dir``
+    ``full_spectrum=True`` stores every point of the zero-filled spectrum over the detector
+    band instead of the source's band at the instrument's own sampling.
+
+    All or nothing: the files are written completely to temporary files in ``out_dir``
     first and only then renamed into place. If anything fails, the temporary files are
     removed, a file already renamed is taken back (the one it replaced is restored), and
     directories made here are removed again.
@@ -322,20 +331,36 @@ def write_outputs(result, out_dir, *, overwrite: bool = False) -> list[Path]:
         ``out_dir`` is not a directory, a file exists and ``overwrite`` is False, or a write
         fails. Nothing is left written unless every file could be.
     """
-    return write_payloads(output_payloads(result), out_dir, overwrite=overwrite)
+    check_outputs(out_dir, overwrite=overwrite)
+    return write_payloads(output_payloads(result, full_spectrum=full_spectrum), out_dir,
+                          overwrite=overwrite)
 
 
-def output_payloads(result) -> list[bytes]:
-    """The bytes of ``result.json`` and ``spectrum.ecsv`` for a result, in that order (what
+def output_payloads(result, *, full_spectrum: bool = False) -> dict[str, bytes]:
+    """Every output file's bytes by name, in the order of :data:`OUTPUT_FILES` (what
     :func:`write_outputs` writes; a batch worker returns them to the process that writes)."""
-    return [result_json(result).encode(), _spectrum_ecsv(result)]
+    from ftsource.measure.plotdata import PlotData
+    from ftsource.report.page import figure_pngs, report_page, spectrum_files
+
+    ecsv, fits_bytes = spectrum_files(result, full=full_spectrum)
+    pngs = figure_pngs(result.plot if result.plot is not None else PlotData())
+    out = {
+        "result.json": result_json(result).encode(),
+        "spectrum.ecsv": ecsv,
+        "spectrum.fits": fits_bytes,
+        "report.html": report_page(result, pngs),
+    }
+    out.update({f"fig-{name}.png": png for name, png in pngs.items()})
+    return {name: out[name] for name in OUTPUT_FILES}
 
 
-def write_payloads(payloads, out_dir, *, overwrite: bool = False) -> list[Path]:
-    """Write the bytes of :func:`output_payloads` into ``out_dir``, all or nothing, as
-    :func:`write_outputs` describes."""
-    out, targets = _targets(out_dir)
-    check_outputs(out, overwrite=overwrite)
+def write_payloads(files: dict, out_dir, *, overwrite: bool = False) -> list[Path]:
+    """Write ``{name: bytes}`` (e.g. :func:`output_payloads`) into ``out_dir``, all or
+    nothing, as :func:`write_outputs` describes, and return the paths. The names are fixed by
+    the caller, never taken from a record."""
+    out, targets = _targets(out_dir, tuple(files))
+    check_outputs(out, overwrite=overwrite, names=tuple(files))
+    payloads = [files[p.name] for p in targets]
     created: list[Path] = []
     temps: list[str] = []
     backups: dict[Path, str | None] = {}
