@@ -88,7 +88,16 @@ def test_serial_process_pool_and_dask_give_identical_files(records, tmp_path, ca
                       dashboard_address=None) as cluster:
         status, _, err = run(capsys, ["batch", records, "--out", dask_out, "--scheduler",
                                       cluster.scheduler_address, *REF])
+        from distributed import Client
+
+        with Client(cluster) as client:  # Dask's workers run one BLAS/OpenMP thread each too
+            limits = client.run(lambda: {k: os.environ.get(k) for k in
+                                         ("OMP_NUM_THREADS", "OPENBLAS_NUM_THREADS",
+                                          "MKL_NUM_THREADS")})
     assert status == 1, err
+    assert len(limits) == 2
+    assert all(v == {"OMP_NUM_THREADS": "1", "OPENBLAS_NUM_THREADS": "1",
+                     "MKL_NUM_THREADS": "1"} for v in limits.values())
     ref = tree(serial)
     assert sorted(ref) == sorted(
         ["summary.ecsv"] + [f"rec{k}/{f}" for k in range(3) for f in OUTPUT_FILES])
