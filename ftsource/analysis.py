@@ -224,18 +224,18 @@ def _encoder_notes(options) -> tuple[str, ...]:
         return (
             "the OPD scale comes from a position encoder: its scale uncertainty and any "
             "cosine/Abbe error are not known to ftsource and are not in the budget; give "
-            "--encoder-scale-uncertainty and --alignment-allowance",
+            "encoder_scale_uncertainty and alignment_allowance",
         )
     if scale:
         return (
             "the OPD scale comes from a position encoder: its scale uncertainty is not known "
             "to ftsource and is not in the budget, which is then too small; give "
-            "--encoder-scale-uncertainty",
+            "encoder_scale_uncertainty",
         )
     if abbe:
         return (
             "the OPD scale comes from a position encoder: any cosine/Abbe error is not in the "
-            "budget; give --alignment-allowance",
+            "budget; give alignment_allowance",
         )
     return ()
 
@@ -389,7 +389,8 @@ def analyze(record, options: AnalysisOptions | None = None, *, planner=None, **p
     sweeps = _sweeps(record, setup, sampling)
     spectra = _spectra(setup, sampling, sweeps, planner)
     lines = _lines(record, setup, sampling, spectra)
-    result = _result(record, setup, sampling, spectra, lines)
+    del spectra  # lines.spectra supersedes it (outlier sweeps removed): let it go
+    result = _result(record, setup, sampling, lines.spectra, lines)
     for msg in result.warnings:
         _warnings.warn(msg, AnalysisWarning, stacklevel=2)
     return result
@@ -581,8 +582,23 @@ def _spectra(setup: _Setup, sampling: _Sampling, sweeps: _Sweeps, planner) -> _S
                                 phase_correction=options.phase_correction, planner=planner)
         for ig in ifgs
     ]
-    sweep_specs = _check_zpd_across_sweeps(sweep_specs, ifgs)
+    sweep_specs, revivals = _check_zpd_across_sweeps(sweep_specs, ifgs)
     rejected, notes = sweeps.rejected, ()
+    if revivals:
+        # a burst another sweep over the same path shows to be weaker than one elsewhere
+        # is a revival, not ZPD: such sweeps are left out (the others' ZPD is measured)
+        sweep_specs = [s for s in sweep_specs if s.sweep_index not in revivals]
+        ifgs = tuple(ig for ig in ifgs if ig.sweep.index not in revivals)
+        rejected += tuple(
+            (i, "its strongest burst is a coherence revival, not zero path difference (a "
+                "sweep over the same path sees a stronger burst elsewhere)")
+            for i in sorted(revivals))
+        notes += (
+            f"{len(revivals)} sweep(s) hold a coherence revival but not zero path difference "
+            "(another sweep over the same path sees a stronger burst elsewhere): they were "
+            "left out, so that the maximum path difference and the resolution count from "
+            "zero path difference",
+        )
     if any(s.zpd_found for s in sweep_specs) and not all(s.zpd_found for s in sweep_specs):
         # a magnitude spectrum of a sweep that misses ZPD does not mix with phase-corrected
         # ones (different line shapes and noise): keep the sweeps through ZPD
@@ -673,7 +689,8 @@ def _lines(record, setup: _Setup, sampling: _Sampling, spectra: _Spectra) -> _Li
         found = fitting.find_lines(spec, band_per_cm=band)
     sigma_alias = 1e7 / limits.min_wavelength_nm
     flags, flag_notes = _flag_lines(found, setup.reference_wavelength_nm, sigma_alias,
-                                    setup.opd_kind, record)
+                                    setup.opd_kind, record,
+                                    _wobble_spread(sampling.path, setup.sample_rate_hz))
     alias_band, aliasing = _aliasing(
         found, spec, spectra.sweep_spectra, spectra.interferograms, sampling.path,
         setup.sample_rate_hz, sampling.bandwidth_fraction, sigma_app, factor, sigma_alias,
@@ -862,23 +879,29 @@ def _safety_notes(source_lines) -> tuple[str, ...]:
 def _check_zpd_across_sweeps(sweep_specs, ifgs):
     """Sweep spectra whose ZPD another sweep of the same stretch of reference contradicts
     (:func:`ftsource.interferogram.zpd.conflicting_zpd`) marked ambiguous: it may be a
-    coherence revival seen in a sweep that does not reach the true ZPD."""
+    coherence revival seen in a sweep that does not reach the true ZPD. Returns them with the
+    indices of the sweeps whose burst is known to be a revival (contradicted by a sweep whose
+    own burst stands clearly above all others)."""
     from ftsource.interferogram.zpd import conflicting_zpd
 
     by_index = {ig.sweep.index: ig for ig in ifgs}
     igs = [by_index[s.sweep_index] for s in sweep_specs]
     if len(igs) < 2:
-        return sweep_specs
+        return sweep_specs, frozenset()
     spans = [ig.span_cm for ig in igs]
-    bad = conflicting_zpd(
+    args = (
         [s.x_zpd_cm if s.zpd_found else np.nan for s in sweep_specs],
         [ig.sweep.segment for ig in igs],
         [(ig.x0_cm, ig.x0_cm + ig.span_cm) for ig in igs],
         [s.peak_cm for s in sweep_specs],
-        tolerance_cm=0.05 * float(np.median(spans)),
     )
+    tol = 0.05 * float(np.median(spans))
+    bad = conflicting_zpd(*args, tolerance_cm=tol)
+    known = conflicting_zpd(*args, tolerance_cm=tol,
+                            clear=[s.zpd_found and not s.zpd_ambiguous for s in sweep_specs])
+    revivals = frozenset(s.sweep_index for s, k in zip(sweep_specs, known, strict=True) if k)
     return [replace(s, zpd_ambiguous=True) if b else s
-            for s, b in zip(sweep_specs, bad, strict=True)]
+            for s, b in zip(sweep_specs, bad, strict=True)], revivals
 
 
 def _wobble_notes(source_lines, path, fs, resolution_per_cm) -> tuple[str, ...]:
@@ -1100,10 +1123,22 @@ def _channel_delay(ifgs, path, fs, kind):
     )
 
 
-def _flag_lines(found, lam_ref, sigma_alias, kind, record):
-    """Why each line is not a source line (None when it is): a ghost (reference light,
-    harmonic or intermodulation product of a clipped detector; :mod:`ftsource.lines.ghosts`) or a
-    line beyond the alias-free limit; returns ``(flags, notes)``."""
+def _wobble_spread(path, fs) -> float:
+    """How far (cm⁻¹) the speed wobble spreads a scan artefact: a periodic error whose
+    residual depends on the speed comes with side lines at j/P, j = 1 … 3, P the wobble's OPD
+    period (:mod:`ftsource.interferogram.wobble`); 0 for an even scan."""
+    from ftsource.interferogram.wobble import WOBBLE_NOTE_DEPTH, artefact_offsets, speed_wobble
+
+    wob = speed_wobble(path.opd_cm, path.sweeps, fs)
+    offsets = artefact_offsets(wob, orders=3)
+    return float(offsets[-1]) if wob.depth >= WOBBLE_NOTE_DEPTH and offsets.size else 0.0
+
+
+def _flag_lines(found, lam_ref, sigma_alias, kind, record, wobble_spread_per_cm=0.0):
+    """Why each line is not a source line (None when it is): a ghost (reference light, side
+    line of a distorted reference, harmonic or intermodulation product of a clipped detector;
+    :mod:`ftsource.lines.ghosts`) or a line beyond the alias-free limit; returns
+    ``(flags, notes)``."""
     from ftsource.lines.ghosts import flag_ghosts
 
     flags = flag_ghosts(
@@ -1113,6 +1148,7 @@ def _flag_lines(found, lam_ref, sigma_alias, kind, record):
         reference_per_cm=1e7 / lam_ref if kind.uses_reference_laser else None,
         clipped=clipped_fraction(record.columns["signal"]) > CLIPPED_FRACTION_LIMIT,
         band_edge_per_cm=1e7 / SEARCH_BAND_NM[0],
+        reference_harmonic_spread_per_cm=wobble_spread_per_cm,
         # ghosts of a laser are as narrow as the instrument line shape
         eligible=[not f.resolved or f.fwhm_per_cm < 3 * f.instrument_fwhm_per_cm for f in found],
     )
@@ -1135,7 +1171,8 @@ def _flag_lines(found, lam_ref, sigma_alias, kind, record):
     if n_ghost:
         notes.append(
             f"{n_ghost} spectral feature(s) were flagged as not from the source (reference "
-            "ghost, harmonic or intermodulation product of a clipped detector, or beyond the "
-            "alias-free limit); each such line carries its reason"
+            "ghost, side line of a distorted reference, harmonic or intermodulation product "
+            "of a clipped detector, or beyond the alias-free limit); each such line carries "
+            "its reason"
         )
     return flags, tuple(notes)

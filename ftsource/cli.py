@@ -148,6 +148,7 @@ def build_parser() -> argparse.ArgumentParser:
                         "(needs the [dask] extra; default: a local process pool)")
     _add_analysis_options(b)
     _add_fft_options(b)
+    _add_output_options(b)
 
     s = sub.add_parser("simulate", help="make a record of a known source (planning, testing)",
                        epilog="Every record it writes is invented data. " + _HELP_EPILOG,
@@ -483,6 +484,16 @@ def _no_reference_message(record) -> str:
     )
 
 
+def _in_cli_terms(result):
+    """The result with its warnings naming the command line's flags where the library names
+    its keyword parameters (:func:`ftsource.parameters.cli_terms`)."""
+    from dataclasses import replace
+
+    from ftsource.parameters import cli_terms
+
+    return replace(result, warnings=tuple(cli_terms(w) for w in result.warnings))
+
+
 def _cmd_analyze(args, out, err) -> int:
     from ftsource.analysis import analyze
     from ftsource.errors import AnalysisError, OptionError
@@ -508,6 +519,7 @@ def _cmd_analyze(args, out, err) -> int:
         if msg.startswith("-"):
             raise type(exc)(msg) from None
         raise type(exc)(f"{record.path}: {msg}") from None
+    result = _in_cli_terms(result)
     # Everything the user will see is made before anything is written: a failure while
     # shaping the output leaves no file behind.
     text = result_json(result) if args.json else format_summary(result) + "\n"
@@ -593,10 +605,7 @@ def _cmd_batch(args, out, err) -> int:
     elif workers == 1:
         res = batch.run_batch(jobs, args.out, overwrite=args.overwrite, progress=err)
     else:
-        from concurrent.futures import ProcessPoolExecutor
-
-        with ProcessPoolExecutor(max_workers=workers,
-                                 initializer=batch.ignore_interrupts) as ex:
+        with batch.process_pool(workers) as ex:
             res = batch.run_batch(jobs, args.out, executor=ex, overwrite=args.overwrite,
                                   progress=err)
     for r in res.rows:
@@ -604,6 +613,7 @@ def _cmd_batch(args, out, err) -> int:
             why = r["error"] if r["error"].startswith(r["record"]) else (
                 f"{r['record']}: {r['error']}")
             out.write(f"{r['status']}: {why}\n")
+    _wrote(out, [*res.written, os.path.join(args.out, "summary.ecsv")], args.quiet)
     n = len(res.rows)
     out.write(f"batch: {n} record(s), {n - res.n_failed} analysed, {res.n_failed} not; "
               f"summary in {os.path.join(args.out, 'summary.ecsv')}\n")

@@ -130,8 +130,23 @@ def _air(params):
         if not (float(uq.value) >= 0 and float(uq.value) < float("inf")):
             raise OptionError(f"{name}: {quote(v)} is not allowed; give a finite value ≥ 0")
         q[f"u_{k}"] = uq
-    return (AirConditions.from_quantities(**q), tuple(sorted(k for k in given if k != "co2")),
-            tuple(sorted(u_given)))
+    try:
+        air = AirConditions.from_quantities(**q)
+    except OptionError as exc:
+        # the kernels name their own arguments (humidity_percent); here the keywords
+        raise OptionError(_AIR_FIELDS.sub(lambda m: _AIR_KEYWORDS[m.group(1)], str(exc))) from None
+    return air, tuple(sorted(k for k in given if k != "co2")), tuple(sorted(u_given))
+
+
+#: The air kernels' argument names (:class:`ftsource.physics.air.AirConditions`) and the
+#: keyword parameters that give them.
+_AIR_KEYWORDS = {
+    "u_temperature_c": "air_temperature_uncertainty", "u_pressure_pa": "air_pressure_uncertainty",
+    "u_humidity_percent": "air_humidity_uncertainty", "u_co2_ppm": "air_co2_uncertainty",
+    "temperature_c": "air_temperature", "pressure_pa": "air_pressure",
+    "humidity_percent": "air_humidity", "co2_ppm": "air_co2",
+}
+_AIR_FIELDS = re.compile(r"(?<![\w-])(" + "|".join(_AIR_KEYWORDS) + r")(?![\w-])")
 
 
 def option_fields(**params) -> dict:
@@ -242,7 +257,7 @@ _ASSIGN = re.compile(r"(?<![\w'\-])(" + "|".join(PARAMETERS) + r")='([^']*)'")
 _TERM = re.compile(
     r"(?<![\w'\-])(?<!metadata )(" + "|".join(
         sorted((k for k in PARAMETERS if "_" in k), key=len, reverse=True)
-    ) + r")(?![\w'\-])(?! metadata| \(metadata| argument)"
+    ) + r")(?![\w'\-])(?! metadata| \(metadata| argument| = )"
 )
 _LEADING = re.compile(r"^(" + "|".join(k for k in PARAMETERS if "_" not in k) + r")(?=[: ])")
 
@@ -251,7 +266,8 @@ def cli_terms(message: str) -> str:
     """A library message with its parameter names spelled as the command line's flags
     (``reference_wavelength`` → ``--reference-wavelength``, ``medium='air'`` → ``--medium
     air``). Names in quotes (metadata keys such as ``'reference_wavelength'``), words next
-    to ``metadata`` and a function's ``argument`` stay as they are; a one-word parameter
+    to ``metadata``, a metadata entry written ``name = value`` and a function's ``argument``
+    stay as they are; a one-word parameter
     (``medium``) is spelled as a flag only where the message starts with it or gives it a
     value."""
     def flag(m):

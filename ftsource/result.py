@@ -215,6 +215,7 @@ def _processing(p) -> dict:
     return {
         "apodization": p.apodization,
         "phase_correction": p.phase_correction,
+        "phase_reference": p.phase_reference,
         "n_sweeps": p.n_sweeps,
         "n_sweeps_used": p.n_sweeps_used,
         "rejected_sweeps": [{"index": r.index, "reason": r.reason} for r in p.rejected_sweeps],

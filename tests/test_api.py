@@ -90,9 +90,18 @@ def test_string_quantities_equal_quantities(scan_csv):
     # the same conditions given as kelvin
     c = _analysed(scan_csv, reference_wavelength=LAMBDA_REF_NM * u.nm, medium="air",
                   air_temperature=(21 * u.deg_C).to(u.K, equivalencies=u.temperature()),
-                  air_pressure=101.3 * u.kPa, air_humidity=0.45)
+                  air_pressure=101.3 * u.kPa, air_humidity=0.45 * u.dimensionless_unscaled)
     assert c.centre_wavelength.to_value(u.nm) == pytest.approx(
         a.centre_wavelength.to_value(u.nm), rel=1e-12)
+    # a bare humidity above 1 is percent; a bare one at or below 1 is ambiguous (issue 12,
+    # part 8: a practitioner writing 45 means 45 %) and refused with the parameter named
+    d = _analysed(scan_csv, reference_wavelength=LAMBDA_REF_NM * u.nm, medium="air",
+                  air_temperature="21 degC", air_pressure="1013 mbar", air_humidity=45)
+    assert d.centre_wavelength.to_value(u.nm) == pytest.approx(
+        a.centre_wavelength.to_value(u.nm), rel=1e-12)
+    with pytest.raises(FtsourceError, match="air_humidity"):
+        _analysed(scan_csv, reference_wavelength=LAMBDA_REF_NM * u.nm, medium="air",
+                  air_humidity=0.45)
 
 
 def test_record_input_equals_path_input(scan_csv):

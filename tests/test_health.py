@@ -123,6 +123,8 @@ def test_low_reference_visibility():
 
 
 def test_clipped_detector():
+    """A detector clipped at 1.6 (the simulator's flat top) holds far more than 10⁻³ of its
+    samples at the extreme (threshold: common practice)."""
     rec = _record(detector=sim.Detector(clip_level=1.6))
     items, _ = _verdicts(rec)
     assert items["detector clipping"].verdict == "poor"
@@ -130,6 +132,8 @@ def test_clipped_detector():
 
 
 def test_reference_dropouts():
+    """A reference that fades out for 50 ms is counted as a dropout (any is poor: common
+    practice)."""
     rec = _record(reference=sim.ReferenceChannel(dropouts=((0.7, 0.75),)))
     items, _ = _verdicts(rec)
     assert items["reference dropouts"].verdict == "poor"
@@ -150,6 +154,9 @@ def test_speed_jitter_from_vibration():
 
 
 def test_drift():
+    """A detector whose level wanders slowly (the simulator's smooth noise below 0.5 Hz, of
+    amplitude 0.5 on a mean level of 1): the sweeps' DC levels spread beyond 5 % of the level
+    (threshold: common practice)."""
     rec = _record(detector=sim.Detector(drift=0.5))
     items, _ = _verdicts(rec)
     assert items["DC drift"].verdict == "poor", items["DC drift"]

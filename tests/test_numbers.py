@@ -107,7 +107,7 @@ def _result(**summary):
         instrument=SimpleNamespace(resolution_per_cm=75.665, max_opd_mm=0.12,
                                    min_wavelength_nm=94.2),
         input=SimpleNamespace(record="x.npz", n_samples=100, opd_source="quadrature"),
-        lines=[], warnings=[],
+        lines=[], warnings=[], scan_health=None,
     )
 
 

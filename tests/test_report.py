@@ -107,6 +107,9 @@ def test_report_content(laser_result, payloads):
     for item in laser_result.scan_health.items:
         assert item.name in page
     assert "coverage factor k" in page and "air wavelength" in page
+    for ln in laser_result.lines:  # each line with its own expanded uncertainty
+        if ln.expanded_uncertainty_nm is not None:
+            assert f">{float(f'{ln.expanded_uncertainty_nm:.3g}')}<" in page
     assert not re.search(r"(src|href)\s*=\s*\"?(https?:|//)", page)  # nothing to fetch
     assert "IEC 60825-1" in page
 

@@ -178,9 +178,8 @@ def reference_uncertainty(wavelength_nm: float, *, relative: float | None = None
             return e.u_r, f"the bundled standard '{e.species}'"
     if abs(lam - HENE_VACUUM_WAVELENGTH_NM) <= HENE_WINDOW_NM:
         return HENE_RELATIVE_UNCERTAINTY, "an unstabilised He-Ne laser (CIPM 2007)"
-    how = ("as a ratio or a length (command line: --reference-uncertainty, e.g. '2ppm' or "
-           "'0.001nm'; Python: reference_uncertainty_ppm or reference_uncertainty_nm), from the "
-           "laser's data sheet or a calibration")
+    how = ("as a ratio or a length (reference_uncertainty, e.g. '2 ppm' or '0.001 nm'), "
+           "from the laser's data sheet or a calibration")
     air = air_wavelength_warning(lam)
     if air:
         raise OptionError(

@@ -29,7 +29,19 @@ __all__ = [
     "EDGE_FRINGES",
     "EDGE_SAMPLES",
     "conflicting_zpd",
+    "PHASE_REFERENCES",
+    "phase_reference",
 ]
+
+#: What served as the phase reference of the sweeps used (``processing.phase_reference``):
+#: ``zpd`` — in every sweep one burst, or one standing clearly above the others, taken for
+#: zero path difference; ``zpd-or-revival`` — in at least one sweep the strongest of several
+#: bursts of nearly equal height, which may be a coherence revival (or the beat maximum of
+#: close lines) rather than ZPD; ``none`` — no burst: magnitude spectra about each sweep's
+#: centre. A burst that another sweep over the same path shows to be weaker than a burst
+#: elsewhere is known to be a revival (:func:`conflicting_zpd`); such sweeps are left out, so
+#: it never serves.
+PHASE_REFERENCES = ("zpd", "zpd-or-revival", "none")
 
 #: Short side at least this fraction of the long side counts as double-sided.
 DOUBLE_SIDED_RATIO = 0.8
@@ -374,8 +386,19 @@ def _other_bursts(env, lo, hi, peak, threshold, step_cm, margin):
     return n_bursts, float(np.median(np.diff(c)) * step_cm), ambiguous
 
 
+def phase_reference(found, ambiguous) -> str:
+    """The one word (:data:`PHASE_REFERENCES`) for what served as the sweeps' phase reference,
+    from each used sweep's ``zpd_found`` and ``zpd_ambiguous``."""
+    found = [bool(f) for f in found]
+    if not any(found):
+        return "none"
+    if any(f and a for f, a in zip(found, ambiguous, strict=True)):
+        return "zpd-or-revival"
+    return "zpd"
+
+
 def conflicting_zpd(
-    zpd_cm, segments, ranges_cm, peaks_cm, *, tolerance_cm: float
+    zpd_cm, segments, ranges_cm, peaks_cm, *, tolerance_cm: float, clear=None
 ) -> np.ndarray:
     """Which sweeps' ZPD another sweep of the same stretch of reference contradicts.
 
@@ -396,6 +419,12 @@ def conflicting_zpd(
     tolerance_cm : float
         How far apart two sightings of one burst may be (forward/backward sweeps shift it by
         the channel delay, a few µm).
+    clear : array_like of bool, optional
+        Whether each sweep's strongest burst stands clearly above every other burst it holds
+        (ZPD found, not ambiguous). When given, only contradictions by such sweeps count:
+        sweep j then sees, over x_i, nothing as strong as its own burst, so x_i is **known**
+        to be a revival — the fringe visibility is highest at ZPD (|γ(x)| ≤ γ(0), the
+        Wiener–Khinchin theorem: the spectrum's Fourier transform is largest at 0).
 
     Returns
     -------
@@ -405,10 +434,11 @@ def conflicting_zpd(
     seg = np.asarray(segments)
     rng = np.asarray(ranges_cm, float).reshape(-1, 2)
     pk = np.asarray(peaks_cm, float)
+    ok = np.ones(z.size, bool) if clear is None else np.asarray(clear, bool)
     out = np.zeros(z.size, bool)
     for i in np.flatnonzero(np.isfinite(z)):
         for j in range(z.size):
-            if j == i or seg[j] != seg[i] or not np.isfinite(pk[j]):
+            if j == i or seg[j] != seg[i] or not np.isfinite(pk[j]) or not ok[j]:
                 continue
             lo, hi = np.min(rng[j]), np.max(rng[j])
             if lo < z[i] < hi and abs(pk[j] - z[i]) > tolerance_cm:

@@ -329,8 +329,8 @@ def alias_notes(main, min_wavelength_nm: float, band) -> tuple[str, ...]:
         return (
             f"light shorter than {min_wavelength_nm:.0f} nm (if the source emits any and the "
             f"detector sees it) is not measured: the time sampling folds it onto {where} at "
-            "these mirror speeds (aliasing); 'aliasing' in lines says what the sweeps' speeds "
-            "could tell; sample faster or move the mirror more slowly to cover shorter "
+            "these mirror speeds (aliasing); each line's aliasing verdict says what the sweeps' "
+            "speeds could tell; sample faster or move the mirror more slowly to cover shorter "
             "wavelengths",
         )
     return ()

@@ -7,6 +7,15 @@ and strength say it was made by the instrument:
     Reference-laser light or electrical crosstalk of the reference fringes in the source
     channel puts a line at the reference wavenumber σ_ref; mixed with the main line it gives
     lines at σ_s ± σ_ref.
+``reference-harmonic``
+    Harmonic distortion of the reference channel(s) leaves a phase error periodic in the
+    reference fringe phase (:mod:`ftsource.interferogram.periodic` removes most of it); it
+    modulates the OPD scale at k cycles per reference wavelength and puts weak lines at
+    |σ_s ± k·σ_ref|, k = 1 … :data:`MAX_REFERENCE_HARMONIC`, beside every source line σ_s
+    (k = 1 beside the main line only: elsewhere it may as well be a real line), of
+    relative strength about β_k·σ_s/(2σ_ref) for an error of β_k rad (first-order sidebands of
+    a phase modulation). A line there at most :data:`REFERENCE_HARMONIC_LEVEL` of its parent
+    is flagged.
 ``harmonic``
     A clipped (saturated) detector is a memoryless nonlinearity y = g(x) of the interferogram
     x(OPD): a fringe cos(2πσx) passing through it comes out with harmonics at m·σ,
@@ -63,6 +72,8 @@ __all__ = [
     "MAX_INTERMOD_ORDER",
     "IN_BAND_MARGIN",
     "GHOST_FLAGS",
+    "MAX_REFERENCE_HARMONIC",
+    "REFERENCE_HARMONIC_LEVEL",
     "flag_ghosts",
 ]
 
@@ -72,7 +83,14 @@ MAX_INTERMOD_ORDER = 4
 #: this many times weaker than both its parents to be flagged.
 IN_BAND_MARGIN = 10.0
 #: The flags :func:`flag_ghosts` can give (besides None, a source line).
-GHOST_FLAGS = ("reference-ghost", "harmonic", "intermodulation")
+GHOST_FLAGS = ("reference-ghost", "reference-harmonic", "harmonic", "intermodulation")
+#: Highest k of the side lines |σ_s ± k·σ_ref| of a distorted reference: 2nd and 3rd harmonic
+#: distortion of the channels give phase errors at k = 1 … 4 cycles per fringe.
+MAX_REFERENCE_HARMONIC = 4
+#: A side line of a distorted reference is at most this fraction of its parent line: a phase
+#: error of β rad gives β·σ_s/(2σ_ref) (first-order Bessel sideband), 0.05 for β = 0.1 rad
+#: (about 10 % harmonic distortion of the channels) at σ_s = σ_ref — common practice.
+REFERENCE_HARMONIC_LEVEL = 0.05
 
 #: A line at the reference wavenumber that is the strongest line is a source line when no line
 #: away from the reference reaches this fraction of its strength (common practice: crosstalk
@@ -90,6 +108,7 @@ def flag_ghosts(
     band_edge_per_cm: float = math.inf,
     eligible: Sequence[bool] | None = None,
     max_intermod_order: int = MAX_INTERMOD_ORDER,
+    reference_harmonic_spread_per_cm: float = 0.0,
 ) -> list[str | None]:
     """Flag the lines that are ghosts: reference light, harmonics, intermodulation products.
 
@@ -116,12 +135,16 @@ def flag_ghosts(
         like the ghosts of a laser); by default every line.
     max_intermod_order : int
         Highest order m + n of the intermodulation products (≥ 2).
+    reference_harmonic_spread_per_cm : float
+        Extra distance (cm⁻¹) a side line of a distorted reference may lie from
+        |σ_i ± m·σ_ref|: an uneven mirror speed makes the residual phase error vary along the
+        path and spreads each side line into a cluster at ± j/P (P the wobble's period).
 
     Returns
     -------
     list of str or None
-        Per line, in the input order: ``"reference-ghost"``, ``"harmonic"``,
-        ``"intermodulation"`` or None (a source line).
+        Per line, in the input order: ``"reference-ghost"``, ``"reference-harmonic"``,
+        ``"harmonic"``, ``"intermodulation"`` or None (a source line).
 
     Raises
     ------
@@ -139,9 +162,14 @@ def flag_ghosts(
        :data:`REFERENCE_DOMINANCE` of its strength, since a source at the reference's own
        wavelength (a He-Ne, a 633 nm diode) is then far likelier than crosstalk with nothing
        else to see (the caller warns and says how to tell);
-    2. harmonic (clipped only): ``|σ_k − m·σ_i| < tol_k`` for a source line i stronger than k
+    2. reference harmonic: ``|σ_k − |σ_i ± m·σ_ref|| < tol_k`` for a source line i with
+       ``a_k ≤`` :data:`REFERENCE_HARMONIC_LEVEL` ``· a_i`` and m = 2 …
+       :data:`MAX_REFERENCE_HARMONIC`, or m = 1 when i is a main line of step 1
+       (independent of clipping), the tolerance widened by
+       ``reference_harmonic_spread_per_cm``;
+    3. harmonic (clipped only): ``|σ_k − m·σ_i| < tol_k`` for a source line i stronger than k
        and m = 2 … ⌊band_edge/σ_i⌋;
-    3. intermodulation (clipped only): ``|σ_k − |m·σ_i ± n·σ_j|| < tol_k`` for two source lines
+    4. intermodulation (clipped only): ``|σ_k − |m·σ_i ± n·σ_j|| < tol_k`` for two source lines
        i ≠ j both stronger than k, m, n ≥ 1, m + n ≤ ``max_intermod_order``; a product
        among the source's lines (within |σ_i − σ_j| of the parents, or a difference with
        |m − n| = 1) must also have no other source line between it and its parents, and
@@ -168,6 +196,10 @@ def flag_ghosts(
                          "length")
     if max_intermod_order < 2:
         raise ValueError(f"max_intermod_order must be at least 2, got {max_intermod_order!r}")
+    if not (reference_harmonic_spread_per_cm >= 0 and math.isfinite(
+            reference_harmonic_spread_per_cm)):
+        raise ValueError("reference_harmonic_spread_per_cm must be finite and non-negative, "
+                         f"got {reference_harmonic_spread_per_cm!r}")
     if np.any(tol < 0) or np.any(~np.isfinite(tol)):
         raise ValueError("tolerances must be finite and non-negative")
     flags: list[str | None] = [None] * n_lines
@@ -197,6 +229,11 @@ def flag_ghosts(
                 k, mains, sig, tol[k], reference_per_cm
             ):
                 flag = "reference-ghost"
+            elif reference_per_cm is not None and _is_reference_harmonic(
+                k, sources, mains, sig, amp, tol[k] + reference_harmonic_spread_per_cm,
+                reference_per_cm,
+            ):
+                flag = "reference-harmonic"
             elif clipped:
                 parents = [i for i in sources if amp[i] > amp[k]]
                 if _is_harmonic(sig[k], tol[k], sig[parents], band_edge_per_cm):
@@ -217,6 +254,18 @@ def _is_reference_ghost(k, mains, sig, tol, s_ref) -> bool:
         return True
     return any(k != i and abs(sig[k] - (sig[i] + s * s_ref)) < tol
                for i in mains for s in (-1.0, 1.0))
+
+
+def _is_reference_harmonic(k, sources, mains, sig, amp, tol, s_ref) -> bool:
+    for i in sources:
+        if amp[k] > REFERENCE_HARMONIC_LEVEL * amp[i]:
+            continue
+        # m = 1 beside a line other than the main ones stays a source line: a weak line at
+        # σ_i ± σ_ref is as likely a real line as reference light mixed in (see above)
+        for m in range(1 if i in mains else 2, MAX_REFERENCE_HARMONIC + 1):
+            if min(abs(sig[k] - abs(sig[i] + s * m * s_ref)) for s in (-1.0, 1.0)) < tol:
+                return True
+    return False
 
 
 def _is_harmonic(s_k, tol, parents, band_edge) -> bool:

@@ -242,8 +242,8 @@ def air_range_notes(source_lines, options) -> tuple[str, ...]:
             f"the line(s) at {shown} nm lie outside {lo:.0f}–{hi:.0f} nm, the range of the "
             f"{name} equation for the index of air: the air correction and its uncertainty "
             f"used the index at {edge:.0f} nm, which can be off by {bound}{size:.2g} ppm "
-            f"there (standard-air dispersion, Morton 2000); measure in vacuum (--medium "
-            "vacuum) or treat these wavelengths as uncertain by that much"
+            f"there (standard-air dispersion, Morton 2000); measure in vacuum "
+            "(medium='vacuum') or treat these wavelengths as uncertain by that much"
         )
     if options.air_model == "edlen":
         vlo, vhi = EDLEN_VERIFIED_RANGE_NM
@@ -252,6 +252,6 @@ def air_range_notes(source_lines, options) -> tuple[str, ...]:
             notes.append(
                 f"the modified Edlén equation is verified in the visible ({vlo:.0f}–{vhi:.0f} "
                 f"nm) only; the line(s) at {', '.join(f'{w:.2f}' for w in outside[:5])} nm lie "
-                "outside it: --air-model ciddor (the default) is the equation for them"
+                "outside it: air_model='ciddor' (the default) is the equation for them"
             )
     return tuple(notes)

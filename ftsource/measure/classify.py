@@ -4,6 +4,15 @@ or nothing above the noise; and the figures of a mode comb.
 A resolved main line wider than :data:`BROADBAND_FWHM_NM` is a broad band (LEDs, lamps,
 SLEDs); three or more source lines on an equally spaced comb (:func:`ftsource.measure.modes.
 find_mode_comb`) are a multimode laser; otherwise the strongest line is a narrow line.
+
+A comb whose modes the scan cannot resolve (a sweep from near ZPD to just past the first
+revival resolves about one mode spacing) still shows itself in the interferogram: bursts
+repeat every ``P = 1/Δσ`` of path. A resolved main line at least :data:`MIN_ENVELOPE_SPACINGS`
+spacings ``1/P`` wide, with such a revival seen, is then the comb's envelope: a multimode
+laser whose spacing comes from the revival period (:func:`revival_period`). A revival at least
+half as high as ZPD (:data:`ftsource.interferogram.zpd.BURST_RATIO`) needs modes narrower than
+ln 2/(πP) ≈ 0.22 of their spacing (Lorentzian modes: exp(−πwP) ≥ 1/2), the same condition a
+resolved comb must meet.
 """
 
 from __future__ import annotations
@@ -12,7 +21,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from ftsource.measure.values import finite_or_none, u_nm_from_per_cm
+from ftsource.measure.values import C_M_S, finite_or_none, nm_from_per_cm, u_nm_from_per_cm
 
 __all__ = [
     "BROADBAND_FWHM_NM",
@@ -21,7 +30,19 @@ __all__ = [
     "ModeFigures",
     "classify_source",
     "mode_figures",
+    "MIN_ENVELOPE_SPACINGS",
+    "REVIVAL_PERIOD_FLOOR",
+    "revival_period",
+    "revival_mode_figures",
 ]
+
+#: A resolved line is a comb's envelope (given a revival) when it spans at least this many
+#: mode spacings: a beat of two lines 1/P apart fitted as one line is about 1–2 spacings wide.
+MIN_ENVELOPE_SPACINGS = 2.5
+#: Relative standard uncertainty below which a revival period from burst centroids is not
+#: trusted (the decaying envelope shifts a centroid by about 1e-3 of the period in the tests'
+#: forward model, tests/test_modes_from_revivals.py).
+REVIVAL_PERIOD_FLOOR = 2e-3
 
 #: A line is "broadband" when its FWHM exceeds this many nm (LEDs, lamps, SLEDs).
 BROADBAND_FWHM_NM = 2.0
@@ -35,6 +56,10 @@ class Classification:
     kind: str
     main: object | None
     comb: object | None = None
+    #: Revival period (cm) and its standard uncertainty, when the comb was recognised from the
+    #: interferogram's revivals rather than from resolved modes (NaN otherwise).
+    revival_period_cm: float = float("nan")
+    u_revival_period_cm: float = float("nan")
 
 
 @dataclass(frozen=True)
@@ -63,8 +88,10 @@ class ModeFigures:
     centre: CentreEstimate
 
 
-def classify_source(source_lines) -> Classification:
-    """Classify the source from its lines (:class:`ftsource.lines.fitting.LineFit`)."""
+def classify_source(source_lines, *, revival=(float("nan"), float("nan"))) -> Classification:
+    """Classify the source from its lines (:class:`ftsource.lines.fitting.LineFit`) and, for
+    a comb the scan does not resolve, the interferogram's revival period ``revival = (P, u_P)``
+    in cm (:func:`revival_period`; NaN: none seen)."""
     if not source_lines:
         return Classification("none", None)
     main = max(source_lines, key=lambda f: f.area)
@@ -85,7 +112,36 @@ def classify_source(source_lines) -> Classification:
         )
         if comb is not None:
             return Classification("multimode", main, comb)
+    period, u_period = revival
+    if (np.isfinite(period) and period > 0 and main.resolved
+            and main.fwhm_per_cm * period >= MIN_ENVELOPE_SPACINGS):
+        return Classification("multimode", main, None, float(period), float(u_period))
     return Classification("narrow", main)
+
+
+def revival_period(interferograms, sweep_spectra) -> tuple[float, float]:
+    """The period of the bursts (cm) in the sweeps through ZPD that hold a revival whole, and
+    its standard uncertainty: each sweep's burst spacing refined by
+    :func:`ftsource.measure.modes.check_revivals` (envelope decay removed), their mean and the
+    standard error of it, at least :data:`REVIVAL_PERIOD_FLOOR` of the period. NaN when no
+    sweep shows one."""
+    from ftsource.measure.modes import check_revivals
+
+    periods = []
+    for ig, sw in zip(interferograms, sweep_spectra, strict=False):
+        if not (sw.zpd_found and np.isfinite(sw.burst_spacing_cm)):
+            continue
+        try:
+            rc = check_revivals(ig.x_cm, ig.y, 1.0 / sw.burst_spacing_cm, zpd_x_cm=sw.x_zpd_cm)
+        except Exception:  # noqa: BLE001 - the burst spacing itself stands
+            rc = None
+        ok = rc is not None and rc.confirmed and np.isfinite(rc.measured_period_cm)
+        periods.append(rc.measured_period_cm if ok else sw.burst_spacing_cm)
+    if not periods:
+        return float("nan"), float("nan")
+    p = float(np.mean(periods))
+    sem = float(np.std(periods, ddof=1) / np.sqrt(len(periods))) if len(periods) > 1 else 0.0
+    return p, max(sem, REVIVAL_PERIOD_FLOOR * p)
 
 
 def mode_figures(comb, source_lines, interferograms, sweep_spectra) -> ModeFigures:
@@ -98,6 +154,8 @@ def mode_figures(comb, source_lines, interferograms, sweep_spectra) -> ModeFigur
     ----------
     .. [1] JCGM 100:2008 (GUM), §5.1.2 (propagation for uncorrelated inputs).
     """
+    if comb is None:
+        raise ValueError("no comb: use revival_mode_figures for a comb seen in its revivals")
     w = np.array(comb.intensities) / np.sum(comb.intensities)
     by_sigma = {round(f.centre_per_cm, 6): f for f in source_lines}
     us = np.array([
@@ -141,3 +199,33 @@ def _revivals(interferograms, comb, sweep_spectra):
                 return None
     return None
 
+
+
+def revival_mode_figures(main, period_cm: float, u_period_cm: float) -> ModeFigures:
+    """The figures of a comb recognised from its revivals (:func:`classify_source`): spacing
+    ``Δσ = 1/P`` with ``u(Δσ) = u(P)/P²``, the envelope's FWHM that of the main line, the
+    cavity's optical length ``P/2``, ``n_modes`` the modes within the envelope's FWHM
+    (``round(FWHM·P)``: the modes themselves are not resolved), the centre that of the main
+    line.
+
+    References
+    ----------
+    .. [1] JCGM 100:2008 (GUM), §5.1.2 (propagation of uncertainty).
+    """
+    sig_c = main.centre_per_cm
+    d = 1.0 / period_cm
+    u_d = u_period_cm / period_cm**2
+    to_nm = 1e7 / sig_c**2
+    ghz = C_M_S * 100 / 1e9
+    return ModeFigures(
+        n_modes=max(int(round(main.fwhm_per_cm * period_cm)), 3),
+        spacing_nm=finite_or_none(d * to_nm),
+        u_spacing_nm=finite_or_none(u_d * to_nm),
+        spacing_ghz=finite_or_none(d * ghz),
+        u_spacing_ghz=finite_or_none(u_d * ghz),
+        envelope_fwhm_nm=finite_or_none(u_nm_from_per_cm(sig_c, main.fwhm_per_cm)),
+        cavity_optical_length_mm=finite_or_none(period_cm / 2 * 10),
+        revivals_confirmed=True,
+        centre=CentreEstimate(nm_from_per_cm(sig_c), u_nm_from_per_cm(sig_c, main.u_centre_per_cm),
+                              main.dof),
+    )

@@ -12,6 +12,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from ftsource.interferogram.zpd import phase_reference
 from ftsource.measure.values import (
     C_M_S,
     air_wavelength_nm,
@@ -80,6 +81,8 @@ class ProcessingFacts:
     zero_fill: int
     channel_delay_s: float | None
     glass_imbalance: GlassFacts | None = None
+    #: What served as the phase reference (:data:`ftsource.interferogram.zpd.PHASE_REFERENCES`).
+    phase_reference: str = "none"
 
 
 @dataclass(frozen=True)
@@ -201,11 +204,16 @@ def clipped_fraction(signal) -> float:
     return float(max(np.mean(s == hi), np.mean(s == lo))) if s.size else 0.0
 
 
+_DIGEST_BLOCK = 1 << 20
+
+
 def _digest(record) -> str:
     digest = hashlib.sha256()
     for name in sorted(record.columns):
         digest.update(name.encode())
-        digest.update(np.ascontiguousarray(record.columns[name]).tobytes())
+        col = record.columns[name]
+        for a in range(0, col.shape[0], _DIGEST_BLOCK):  # no full-length copy of a column
+            digest.update(np.ascontiguousarray(col[a : a + _DIGEST_BLOCK]).data)
     return digest.hexdigest()
 
 
@@ -233,8 +241,8 @@ def input_facts(record, options, *, opd_kind, reference_wavelength_nm,
     if air is not None and not options.air_given:
         notes = (
             "air conditions were not given: standard lab air (20 °C, 101.325 kPa, 50 % RH) "
-            "was assumed with wide uncertainties; give --air-temperature, --air-pressure and "
-            "--air-humidity (a lab above about 150 m altitude must give its pressure)",
+            "was assumed with wide uncertainties; give air_temperature, air_pressure and "
+            "air_humidity (a lab above about 150 m altitude must give its pressure)",
         )
     return facts, notes
 
@@ -259,6 +267,8 @@ def processing_facts(options, path, limits, sweep_spectra, rejected,
         channel_delay_s=finite_or_none(channel_delay.delay_s) if channel_delay is not None
         else None,
         glass_imbalance=glass,
+        phase_reference=phase_reference([s.zpd_found for s in sweep_spectra],
+                                        [s.zpd_ambiguous for s in sweep_spectra]),
     )
 
 

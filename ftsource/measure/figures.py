@@ -11,7 +11,14 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
-from ftsource.measure.classify import CentreEstimate, ModeFigures, classify_source, mode_figures
+from ftsource.measure.classify import (
+    CentreEstimate,
+    ModeFigures,
+    classify_source,
+    mode_figures,
+    revival_mode_figures,
+    revival_period,
+)
 from ftsource.measure.values import (
     C_M_S,
     air_wavelength_nm,
@@ -94,7 +101,7 @@ def source_figures(spec, source_lines, sweep_spectra, interferograms, *, options
     from ftsource.measure.budget import centre_budget
     from ftsource.measure.width import width_figures
 
-    cls = classify_source(source_lines)
+    cls = classify_source(source_lines, revival=revival_period(interferograms, sweep_spectra))
     if cls.kind == "none":
         return SourceFigures(detector_weighted=options.response is None, notes=(
             "no line stands above the noise: check that the source reaches the detector, the "
@@ -106,7 +113,18 @@ def source_figures(spec, source_lines, sweep_spectra, interferograms, *, options
     centre = CentreEstimate(nm_from_per_cm(sig0), u_nm_from_per_cm(sig0, main.u_centre_per_cm),
                             main.dof)
     fwhm_nm, modes, band = u_nm_from_per_cm(sig0, main.fwhm_per_cm), None, None
-    if kind == "multimode":
+    if kind == "multimode" and cls.comb is None:
+        modes = revival_mode_figures(main, cls.revival_period_cm, cls.u_revival_period_cm)
+        centre = modes.centre
+        notes.append(
+            f"the modes of this multimode laser are not resolved (the resolution, "
+            f"{u_nm_from_per_cm(sig0, spec.resolution_per_cm):.3g} nm, is not finer than their "
+            f"spacing): it was recognised from the bursts that repeat every "
+            f"{cls.revival_period_cm * 10:.4g} mm of path, which give the spacing; the centre "
+            "and width are those of the modes' envelope. Scan at least 1.5 times that path "
+            "from zero path difference to resolve the modes"
+        )
+    elif kind == "multimode":
         modes = mode_figures(cls.comb, source_lines, interferograms, sweep_spectra)
         centre = modes.centre
     elif kind == "broadband":
@@ -191,7 +209,9 @@ FWHM_DEFINITIONS = {
                  "wavelength, the instrument line shape removed to first order",
     "narrow": "FWHM of the fitted line profile (Voigt), the instrument line shape removed",
     "multimode": "FWHM of a Gaussian envelope fitted to the mode intensities against "
-                 "wavenumber, in nm at the modes' centroid (first order); not a mode's width",
+                 "wavenumber, in nm at the modes' centroid (first order), or of the merged "
+                 "line when the modes are not resolved (a comb known from its revivals); not "
+                 "a mode's width",
 }
 
 

@@ -523,9 +523,9 @@ def _alignment_components(corrected: float, a: float, u_align: float, opd_scale:
         return [Component(
             f"alignment ({what})", 0.0, kind="B",
             note=alignment_note or (
-                "no allowance given (--alignment-allowance): a reference beam or encoder tilted "
+                "no allowance given (alignment_allowance): a reference beam or encoder tilted "
                 "by θ against the mirror's travel reads every wavelength about θ²/2 short; a "
-                "rig calibration (--calibration) removes it"
+                "rig calibration (calibration='FILE') removes it"
             ),
         )]
     side = "long" if a > 0 else "short"

@@ -219,8 +219,8 @@ def _checked_inputs(wavelength_vac_nm, temperature_c, pressure_pa, humidity_perc
         raise OptionError(
             f"a relative humidity (humidity_percent) of {np.max(rh):g} % at {np.max(t):g} °C "
             f"gives a water vapour pressure of {np.max(pv):g} Pa, not below the air pressure "
-            f"(pressure_pa) of {np.min(p):g} Pa; lower the humidity (--air-humidity) or the "
-            "temperature (--air-temperature), or check the pressure (--air-pressure)"
+            f"(pressure_pa) of {np.min(p):g} Pa; lower the humidity or the temperature, or "
+            "check the pressure"
         )
     return args
 

@@ -97,9 +97,11 @@ def _line_rows(lines) -> list:
                  f"< {ln.fwhm_upper_bound_nm:.3g}" if ln.fwhm_upper_bound_nm is not None
                  else None)
         ident = ln.identification
+        k = None if ln.coverage_factor is None else _num(ln.coverage_factor, 3)
         rows.append((
             _num(ln.wavelength_nm, 9), _num(ln.wavelength_air_nm, 9),
-            _num(ln.u_wavelength_nm, 3), _num(ln.relative_intensity, 3), width,
+            _num(ln.u_wavelength_nm, 3), _num(ln.expanded_uncertainty_nm, 3), k,
+            _num(ln.relative_intensity, 3), width,
             None if ident is None else f"{ident.species} ({ident.list_name})",
             ln.flag or "source", ln.aliasing,
         ))
@@ -164,7 +166,7 @@ def report_content(result, pngs: dict):
         results_header=("figure", "value", "standard uncertainty u", "coverage factor k",
                         "unit", "definition"),
         results=tuple(_results_rows(f, result.instrument)),
-        lines_header=("vacuum wavelength (nm)", "air wavelength (nm)", "u (nm)",
+        lines_header=("vacuum wavelength (nm)", "air wavelength (nm)", "u (nm)", "U (nm)", "k",
                       "relative intensity", "FWHM or bound (nm)", "identification", "flag",
                       "aliasing"),
         lines=tuple(_line_rows(result.lines)),
