@@ -389,7 +389,8 @@ def analyze(record, options: AnalysisOptions | None = None, *, planner=None, **p
     sweeps = _sweeps(record, setup, sampling)
     spectra = _spectra(setup, sampling, sweeps, planner)
     lines = _lines(record, setup, sampling, spectra)
-    result = _result(record, setup, sampling, spectra, lines)
+    del spectra  # lines.spectra supersedes it (outlier sweeps removed): let it go
+    result = _result(record, setup, sampling, lines.spectra, lines)
     for msg in result.warnings:
         _warnings.warn(msg, AnalysisWarning, stacklevel=2)
     return result

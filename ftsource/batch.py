@@ -36,10 +36,13 @@ __all__ = [
     "summary_table",
     "write_summary",
     "ignore_interrupts",
+    "init_worker",
+    "process_pool",
+    "THREAD_LIMIT_VARIABLES",
 ]
 
 #: File name endings taken as records when a folder is given.
-RECORD_SUFFIXES = (".csv", ".tsv", ".txt", ".dat", ".npz", ".wav")
+RECORD_SUFFIXES = (".csv", ".tsv", ".txt", ".dat", ".npz", ".npy", ".raw", ".wav")
 #: The summary table's columns: name, unit (or ""), description.
 SUMMARY_COLUMNS = (
     ("record", "", "the record file as found"),
@@ -51,7 +54,8 @@ SUMMARY_COLUMNS = (
     ("centre_wavelength_nm", "nm", "vacuum centre wavelength of the main line"),
     ("u_centre_wavelength_nm", "nm", "its standard uncertainty"),
     ("expanded_uncertainty_nm", "nm", "its expanded uncertainty (coverage factor in result.json)"),
-    ("fwhm_nm", "nm", "FWHM of the main line when resolved"),
+    ("fwhm_nm", "nm", "summary.fwhm_nm: the main line's FWHM when resolved (the modes' envelope "
+                "for a multimode laser)"),
     ("n_lines", "", "number of spectral features listed in result.json"),
     ("n_warnings", "", "number of warnings in result.json"),
 )
@@ -176,6 +180,44 @@ def run_job(job: BatchJob) -> JobOutcome:
     row["n_lines"] = len(d.get("lines") or [])
     row["n_warnings"] = len(d.get("warnings") or [])
     return JobOutcome(row, payloads)
+
+
+#: Environment variables that cap the threads of the BLAS/OpenMP libraries numpy and scipy may
+#: load (OpenMP, OpenBLAS, MKL, BLIS, Accelerate, numexpr): each worker gets 1, so N workers
+#: use N cores rather than N × cores threads fighting over them.
+THREAD_LIMIT_VARIABLES = (
+    "OMP_NUM_THREADS", "OPENBLAS_NUM_THREADS", "MKL_NUM_THREADS", "BLIS_NUM_THREADS",
+    "VECLIB_MAXIMUM_THREADS", "NUMEXPR_NUM_THREADS",
+)
+
+
+def init_worker() -> None:
+    """Process-pool worker initializer: one BLAS/OpenMP thread per worker, and Ctrl-C left to
+    the main process (:func:`ignore_interrupts`).
+
+    The variables of :data:`THREAD_LIMIT_VARIABLES` are read when a library loads, so the
+    pool starts its workers fresh (``spawn``, :func:`process_pool`) and this runs before the
+    first record imports numpy. Libraries already loaded (a worker forked from a process
+    that imported numpy) are limited at run time when ``threadpoolctl`` is installed.
+    """
+    ignore_interrupts()
+    for name in THREAD_LIMIT_VARIABLES:
+        os.environ[name] = "1"
+    try:
+        from threadpoolctl import threadpool_limits
+    except ImportError:
+        return
+    threadpool_limits(1)
+
+
+def process_pool(workers: int):
+    """A process pool of ``workers`` fresh interpreters, each set up by :func:`init_worker`
+    (one BLAS/OpenMP thread each, Ctrl-C ignored)."""
+    import multiprocessing
+    from concurrent.futures import ProcessPoolExecutor
+
+    return ProcessPoolExecutor(max_workers=workers, initializer=init_worker,
+                               mp_context=multiprocessing.get_context("spawn"))
 
 
 def ignore_interrupts() -> None:

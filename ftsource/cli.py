@@ -605,10 +605,7 @@ def _cmd_batch(args, out, err) -> int:
     elif workers == 1:
         res = batch.run_batch(jobs, args.out, overwrite=args.overwrite, progress=err)
     else:
-        from concurrent.futures import ProcessPoolExecutor
-
-        with ProcessPoolExecutor(max_workers=workers,
-                                 initializer=batch.ignore_interrupts) as ex:
+        with batch.process_pool(workers) as ex:
             res = batch.run_batch(jobs, args.out, executor=ex, overwrite=args.overwrite,
                                   progress=err)
     for r in res.rows:

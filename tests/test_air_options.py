@@ -325,3 +325,17 @@ def test_bare_humidity_in_metadata_is_percent(tmp_path):
 
     with pytest.raises(RecordError, match="0.45 fraction"):
         analyze(read_record(bad), AnalysisOptions(reference_wavelength_nm=632.991))
+
+
+def test_bare_humidity_keyword_is_percent():
+    # the Python keywords follow the command line (common practice: humidity in percent)
+    from ftsource.errors import OptionError
+    from ftsource.parameters import option_fields
+
+    f = option_fields(medium="air", air_humidity=45, air_humidity_uncertainty="3")
+    assert f["air"].humidity_percent == pytest.approx(45.0)
+    assert f["air"].u_humidity_percent == pytest.approx(3.0)
+    assert option_fields(medium="air", air_humidity="0.45 fraction")["air"].humidity_percent \
+        == pytest.approx(45.0)
+    with pytest.raises(OptionError, match="0.45 fraction"):
+        option_fields(medium="air", air_humidity=0.45)

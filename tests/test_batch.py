@@ -88,7 +88,16 @@ def test_serial_process_pool_and_dask_give_identical_files(records, tmp_path, ca
                       dashboard_address=None) as cluster:
         status, _, err = run(capsys, ["batch", records, "--out", dask_out, "--scheduler",
                                       cluster.scheduler_address, *REF])
+        from distributed import Client
+
+        with Client(cluster) as client:  # Dask's workers run one BLAS/OpenMP thread each too
+            limits = client.run(lambda: {k: os.environ.get(k) for k in
+                                         ("OMP_NUM_THREADS", "OPENBLAS_NUM_THREADS",
+                                          "MKL_NUM_THREADS")})
     assert status == 1, err
+    assert len(limits) == 2
+    assert all(v == {"OMP_NUM_THREADS": "1", "OPENBLAS_NUM_THREADS": "1",
+                     "MKL_NUM_THREADS": "1"} for v in limits.values())
     ref = tree(serial)
     assert sorted(ref) == sorted(
         ["summary.ecsv"] + [f"rec{k}/{f}" for k in range(3) for f in OUTPUT_FILES])
@@ -200,3 +209,52 @@ def test_ctrl_c_keeps_completed_records_and_leaves_no_temporary_file(tmp_path):
     for r in t:
         if r["status"] == "not run":
             assert not any(f.startswith(Path(r["record"]).stem + "/") for f in files)
+
+
+def _worker_threads() -> dict:
+    """Run in a pool worker: its thread-limit variables, and whether numpy was loaded before
+    them (it reads them once, when it loads)."""
+    env = {k: os.environ.get(k) for k in batch.THREAD_LIMIT_VARIABLES}
+    return {"env": env, "pid": os.getpid()}
+
+
+def test_pool_workers_run_one_blas_thread_each(monkeypatch):
+    """Each worker of the command's process pool has every BLAS/OpenMP thread variable at 1
+    (common practice: OpenBLAS, MKL and OpenMP read them when they load), set in a fresh
+    interpreter before any record is read — even when the parent asks for more threads."""
+    monkeypatch.setenv("OMP_NUM_THREADS", "8")
+    monkeypatch.setenv("OPENBLAS_NUM_THREADS", "8")
+    with batch.process_pool(2) as ex:
+        assert ex._mp_context.get_start_method() == "spawn"
+        outs = [f.result() for f in [ex.submit(_worker_threads) for _ in range(4)]]
+    assert {o["pid"] for o in outs} - {os.getpid()}  # ran in other processes
+    for o in outs:
+        assert o["env"] == {k: "1" for k in batch.THREAD_LIMIT_VARIABLES}
+    assert os.environ["OMP_NUM_THREADS"] == "8"  # the parent's own environment is untouched
+
+
+def _openblas_threads() -> int:
+    """Run in a pool worker: load numpy and ask its bundled OpenBLAS how many threads it
+    runs (OpenBLAS's own ``openblas_get_num_threads``, found in the process's memory map)."""
+    import ctypes
+
+    import numpy  # noqa: F401 - loads OpenBLAS
+
+    libs = {line.split()[-1] for line in open("/proc/self/maps") if "openblas" in line}
+    for lib in sorted(libs):
+        cdll = ctypes.CDLL(lib)
+        for sym in ("scipy_openblas_get_num_threads64_", "openblas_get_num_threads64_",
+                    "openblas_get_num_threads"):
+            if hasattr(cdll, sym):
+                return int(getattr(cdll, sym)())
+    raise AssertionError(f"no OpenBLAS found among {libs}")
+
+
+def test_worker_numpy_loads_single_threaded(monkeypatch):
+    """numpy loaded in a pool worker runs its OpenBLAS with one thread, even when the parent's
+    environment asks for 8 (OpenBLAS reads OPENBLAS_NUM_THREADS when it loads: its own
+    documentation)."""
+    monkeypatch.setenv("OPENBLAS_NUM_THREADS", "8")
+    monkeypatch.setenv("OMP_NUM_THREADS", "8")
+    with batch.process_pool(1) as ex:
+        assert ex.submit(_openblas_threads).result() == 1

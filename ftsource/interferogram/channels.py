@@ -33,6 +33,8 @@ MIN_SAMPLES_PER_FRINGE = 4.0
 FAST_QUANTILE = 0.95
 #: Samples per block over which the fringes are counted.
 BLOCK = 256
+#: Samples per pass over a long channel (a multiple of :data:`BLOCK`).
+CHUNK_SAMPLES = 1 << 20
 #: A reference whose amplitude varies more than this (standard deviation over mean) holds
 #: noise, not fringes: the sampling is then not judged (the optical path says what is wrong).
 #: Noise alone gives 0.52; fringes with turnarounds and dropouts stay well below.
@@ -67,15 +69,31 @@ def reference_samples_per_fringe(columns, kind: str) -> tuple[float, float]:
     if kind == "quadrature":
         i = np.asarray(columns["ref_i"], float)
         q = np.asarray(columns["ref_q"], float)
-        si, sq = float(np.std(i)), float(np.std(q))
+        (mi, si), (mq, sq) = _mean_std(i), _mean_std(q)
         if not (si > 0 and sq > 0):
             return np.inf, np.inf
-        phi = np.arctan2((q - q.mean()) / sq, (i - i.mean()) / si)
-        # fringes advanced between samples (a wrapped step); none where the pair sits near its
-        # centre (a dropout carries no phase)
-        r = np.hypot((i - i.mean()) / si, (q - q.mean()) / sq)
-        lit = (r[:-1] > 0.5) & (r[1:] > 0.5)
-        adv = np.abs(np.angle(np.exp(1j * np.diff(phi)))) / (2 * np.pi) * lit
+        # per block of BLOCK samples (whole blocks only), a chunk of blocks at a time so that
+        # no full-length temporary is made: fringes advanced between samples (a wrapped
+        # step of the phase); none where the pair sits near its centre (a dropout carries
+        # no phase)
+        n_blk = (i.size - 1) // BLOCK
+        if n_blk < 2:
+            return np.inf, np.inf
+        fr = np.empty(n_blk)
+        on = np.empty(n_blk, bool)
+        per = max(1, CHUNK_SAMPLES // BLOCK)
+        for b0 in range(0, n_blk, per):
+            b1 = min(b0 + per, n_blk)
+            a, z = b0 * BLOCK, b1 * BLOCK + 1
+            u, v = (i[a:z] - mi) / si, (q[a:z] - mq) / sq
+            d = np.diff(np.arctan2(v, u))
+            d -= (2 * np.pi) * np.round(d / (2 * np.pi))  # wrapped into [−π, π]
+            r = np.hypot(u, v)
+            lit = (r[:-1] > 0.5) & (r[1:] > 0.5)
+            adv = np.abs(d) / (2 * np.pi) * lit
+            fr[b0:b1] = adv.reshape(b1 - b0, BLOCK).sum(axis=1)
+            on[b0:b1] = lit.reshape(b1 - b0, BLOCK).mean(axis=1) > 0.9
+        return _rates(fr, on)
     else:
         c = np.asarray(columns["ref"], float)
         cm = c - np.median(c)
@@ -99,10 +117,25 @@ def reference_samples_per_fringe(columns, kind: str) -> tuple[float, float]:
         return np.inf, np.inf
     fr = adv[: n_blk * BLOCK].reshape(n_blk, BLOCK).sum(axis=1)
     on = lit[: n_blk * BLOCK].reshape(n_blk, BLOCK).mean(axis=1) > 0.9
+    return _rates(fr, on)
+
+
+def _rates(fr: np.ndarray, on: np.ndarray) -> tuple[float, float]:
+    """Median and fastest samples per fringe from the fringes counted per block."""
     fr = fr[on & (fr > 0)]
     if fr.size < 2 or fr.sum() < 16:
         return np.inf, np.inf
     return float(BLOCK / np.median(fr)), float(BLOCK / np.quantile(fr, FAST_QUANTILE))
+
+
+def _mean_std(x: np.ndarray) -> tuple[float, float]:
+    """Mean and (population) standard deviation of ``x``, two passes over blocks of
+    :data:`CHUNK_SAMPLES` (no full-length temporary)."""
+    n = x.size
+    mean = sum(float(np.sum(x[a : a + CHUNK_SAMPLES])) for a in range(0, n, CHUNK_SAMPLES)) / n
+    ss = sum(float(np.sum(np.square(x[a : a + CHUNK_SAMPLES] - mean)))
+             for a in range(0, n, CHUNK_SAMPLES))
+    return mean, float(np.sqrt(ss / n))
 
 
 def _holds_fringes(columns, kind: str) -> bool:
@@ -173,7 +206,7 @@ def check_signal_channel(signal, *, name: str = "signal") -> None:
         Naming the channel.
     """
     s = np.asarray(signal, float)
-    if s.size and float(np.ptp(s)) == 0.0:
+    if s.size and float(np.max(s)) == float(np.min(s)):
         raise AnalysisError(
             f"the source channel '{name}' is constant ({s[0]:g} in every sample): the "
             "detector is unplugged, off or saturated; check its cable, power and gain, and the "

@@ -312,9 +312,12 @@ def _strongest_line(ifgs) -> float:
 def _line_phase(ifg, sigma0, xc, h):
     """Phase ψ (rad) and its uncertainty of ``A cos(2πσ₀(x − x_c) + ψ)`` fitted by linear least
     squares over ``|x − x_c| ≤ h``; returns (ψ, u_ψ, x used)."""
-    x = ifg.x_cm
-    sel = np.abs(x - xc) <= h
-    xs, ys = x[sel], ifg.y[sel]
+    # the grid x0 + k·dx increases: |x − x_c| ≤ h is one slice (found without building x)
+    k0 = max(int(np.ceil((xc - h - ifg.x0_cm) / ifg.dx_cm)) - 1, 0)
+    k1 = min(int(np.floor((xc + h - ifg.x0_cm) / ifg.dx_cm)) + 2, ifg.y.size)
+    xs = ifg.x0_cm + ifg.dx_cm * np.arange(k0, max(k1, k0))
+    keep = np.abs(xs - xc) <= h  # one sample of margin each side: the comparison decides
+    xs, ys = xs[keep], ifg.y[k0 : max(k1, k0)][keep]
     th = 2 * np.pi * sigma0 * (xs - xc)
     a = np.column_stack([np.cos(th), np.sin(th), np.ones_like(th)])
     coef, *_ = np.linalg.lstsq(a, ys, rcond=None)

@@ -52,6 +52,9 @@ ELLIPSE_FIT_SAMPLES = 1 << 14
 #: A sweep's own ellipse fit replaces the record's when it moves the phase by more than this
 #: (rad): 1e-4 rad is 1e-5 of a fringe, far below what any sweep's scale can show.
 REFIT_PHASE_TOLERANCE = 1e-4
+#: Full-length passes run over blocks of this many samples, so that their temporaries stay
+#: small beside the record (:func:`opd_from_quadrature`).
+BLOCK_SAMPLES = 1 << 20
 #: Sweeps shorter than this many reference fringes are not used.
 MIN_SWEEP_FRINGES = 32
 #: A single-channel stretch whose analytic-signal envelope varies more than this (standard
@@ -169,6 +172,11 @@ def ellipse_phase(i: np.ndarray, q: np.ndarray, fit: EllipseFit) -> np.ndarray:
 
 # --------------------------------------------------------------------------------------------
 # helpers
+
+
+def _blocks(n: int, step: int = BLOCK_SAMPLES):
+    """``(start, stop)`` of consecutive blocks of at most ``step`` samples covering ``n``."""
+    return ((a, min(a + step, n)) for a in range(0, n, step))
 
 
 def _runs(mask: np.ndarray) -> list[tuple[int, int]]:
@@ -366,10 +374,11 @@ def _phase_change_bound(a: EllipseFit, b: EllipseFit) -> float:
 def _wrapped_steps(phi: np.ndarray) -> np.ndarray:
     """Phase steps between samples wrapped into [−π, π)."""
     d = np.diff(phi)
-    k = np.multiply(d, 1 / (2 * np.pi))
-    np.round(k, out=k)
-    k *= 2 * np.pi
-    d -= k
+    for a, b in _blocks(d.size):
+        k = np.multiply(d[a:b], 1 / (2 * np.pi))
+        np.round(k, out=k)
+        k *= 2 * np.pi
+        d[a:b] -= k
     return d
 
 
@@ -430,6 +439,56 @@ def _savgol_cubic(x: np.ndarray, window: int) -> np.ndarray:
     return out
 
 
+def _savgol_cubic_inplace(x: np.ndarray, window: int) -> None:
+    """:func:`_savgol_cubic` written back into ``x``, block by block (one block of
+    temporaries instead of full-length ones)."""
+    n, h = x.size, window // 2
+    if n <= 2 * BLOCK_SAMPLES:
+        x[:] = _savgol_cubic(x, window)
+        return
+    head = _savgol_cubic(x[: 2 * window], window)[:h]  # the end rule at each end
+    tail = _savgol_cubic(x[-2 * window :], window)[-h:]
+    t = np.arange(-h, h + 1, dtype=float)
+    coef = np.linalg.pinv(np.vander(t, 4, increasing=True))[0]
+    carry = x[: 2 * h].copy()  # original values the next block's window reaches back to
+    for a, b in _blocks(n):
+        lo, hi = max(a - h, 0), min(b + h, n)
+        src = np.concatenate([carry[: a - lo], x[a:hi]]) if a > 0 else x[lo:hi].copy()
+        carry = x[max(b - h, 0):b].copy()
+        out = np.convolve(src, coef[::-1], mode="valid")  # samples lo+h .. hi-h-1
+        first = lo + h
+        x[max(a, h):min(b, n - h)] = out[max(a, h) - first : min(b, n - h) - first]
+    x[:h] = head
+    x[-h:] = tail
+
+
+def _smoothed_radius(i, q, ci, ai, cq, aq) -> np.ndarray:
+    """Radius of the normalised Lissajous figure, averaged over 16 samples, block by block."""
+    from scipy.ndimage import uniform_filter1d
+
+    n = i.size
+    out = np.empty(n)
+    pad = 16
+    for a, b in _blocks(n):
+        lo, hi = max(a - pad, 0), min(b + pad, n)
+        r = np.hypot((i[lo:hi] - ci) / ai, (q[lo:hi] - cq) / aq)
+        out[a:b] = uniform_filter1d(r, 16)[a - lo : b - lo]
+    return out
+
+
+def _slip_steps_blocked(d: np.ndarray) -> np.ndarray:
+    """:func:`_slip_steps` block by block (each block sees 4 steps of its neighbours)."""
+    n = d.size
+    if n <= 2 * BLOCK_SAMPLES:
+        return _slip_steps(d)
+    out = []
+    for a, b in _blocks(n):
+        lo, hi = max(a - 4, 0), min(b + 4, n)
+        k = _slip_steps(d[lo:hi]) + lo
+        out.append(k[(k >= a) & (k < b)])
+    return np.concatenate(out)
+
+
 def _decimated_sweeps(x, seg_runs, fs, lam_cm, step):
     """:func:`_split_sweeps` on every ``step``-th sample (turnarounds are slow: the 1 ms
     velocity smoothing spans many decimated samples), mapped back to sample indices within
@@ -487,10 +546,7 @@ def opd_from_quadrature(
     ai, aq = (ci[1] - ci[0]) / 2, (cq[1] - cq[0]) / 2
     if not (ai > 0 and aq > 0):
         raise AnalysisError("the reference channels carry no fringes (constant signal)")
-    from scipy.ndimage import uniform_filter1d
-
-    r = np.hypot((i - ci.mean()) / ai, (q - cq.mean()) / aq)
-    r_s = uniform_filter1d(r, 16, output=r)
+    r_s = _smoothed_radius(i, q, ci.mean(), ai, cq.mean(), aq)
     ok, runs = _segments_from_amplitude(r_s, 64)
     runs = _trim_runs(runs, 32, n)  # the radius is smoothed over 16 samples: keep clear of edges
     if not runs:
@@ -517,24 +573,32 @@ def opd_from_quadrature(
             "the quadrature reference channels do not trace a clean ellipse "
             f"(RMS residual {fit0.residual:.2f}); check that ref_i and ref_q see the same fringes"
         )
-    del r, r_s
-    phi_w = _phase_kernel(i, q, fit0)
+    del r_s, ok
+    # the wrapped phase, then unwrapped in place: x is the one full-length array of this stage
+    x = np.empty(n)
+    for a, b in _blocks(n):
+        x[a:b] = _phase_kernel(i[a:b], q[a:b], fit0)
     # split at possible slips: wrapped step too large
     seg_runs: list[tuple[int, int]] = []
-    x = np.full(n, np.nan)
     slips = 0
+    covered = np.zeros(n, bool)
     for a, b in runs:
-        d = _wrapped_steps(phi_w[a:b])
+        d = _wrapped_steps(x[a:b])
         # a slip is a step too large to unwrap, or one far from its neighbours' steps (lost
         # samples: the mirror's step between two samples changes smoothly)
-        bad = _slip_steps(d)
+        bad = _slip_steps_blocked(d)
         slips += bad.size
         edges = [a] + [a + k + 1 for k in bad] + [b]
         for s, e in zip(edges[:-1], edges[1:], strict=False):
             if e - s >= 64:
                 seg_runs.append((s, e))
-                x[s:e] = _unwrapped(phi_w[s], d[s - a : e - a - 1])
-    del phi_w
+                # x[s] keeps its wrapped value: the start of the cumulative sum
+                np.cumsum(d[s - a : e - a - 1], out=x[s + 1 : e])
+                x[s + 1 : e] += x[s]
+                covered[s:e] = True
+        del d
+    x[~covered] = np.nan
+    del covered
     if slips:
         warnings.append(
             f"{slips} possible fringe-count slip(s) on the reference (phase steps above 0.6π "
@@ -583,7 +647,7 @@ def opd_from_quadrature(
         if w >= 5:
             for a, b in seg_runs:
                 if b - a > w:
-                    x[a:b] = _savgol_cubic(x[a:b], w)
+                    _savgol_cubic_inplace(x[a:b], w)
     return OpticalPath(
         opd_cm=x,
         kind=OpdKind.QUADRATURE,

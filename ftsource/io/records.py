@@ -10,7 +10,16 @@ known, and the metadata found in the file. Three file forms are read:
 * NumPy ``.npz`` archives, one 1-D array per column and an optional ``metadata`` array of
   ``key = value`` strings (pickled objects are refused);
 * WAV files (16-, 24-, 32-bit integer PCM, 8-bit unsigned PCM, 32- or 64-bit float), one
-  channel per column, scaled so that integer full scale is 1.0.
+  channel per column, scaled so that integer full scale is 1.0;
+* NumPy ``.npy`` arrays (a structured array of named columns, a 2-D array of channels or a
+  1-D signal) and raw binary files (``.raw``: interleaved samples of one numeric type, laid
+  out by a ``<file>.meta`` sidecar of ``key = value`` lines).
+
+``.npy``, raw and WAV files are memory-mapped, never read whole: a column stored as
+little-endian float64 becomes a read-only view of the file (its pages are read when used and
+can be dropped again by the operating system), and any other sample type is converted to
+float64 in blocks of :data:`CHUNK_SAMPLES` samples. Checks over whole columns (finite values,
+increasing time) run block by block too, so reading needs no full-length temporary array.
 
 The rules, the metadata keys and every error message with its fix are in ``docs/records.md``.
 """
@@ -48,6 +57,9 @@ __all__ = [
     "TEXT_EXTENSIONS",
     "RATE_TOLERANCE",
     "KNOWN_KEYS",
+    "CHUNK_SAMPLES",
+    "RECORD_EXTENSIONS",
+    "RAW_DTYPES",
 ]
 
 #: The column names of the contract; ``--columns`` may map only onto these.
@@ -55,6 +67,14 @@ COLUMN_NAMES = ("time", "signal", "ref", "ref_i", "ref_q", "position")
 #: Fewest samples a record may hold.
 MIN_SAMPLES = 64
 TEXT_EXTENSIONS = (".csv", ".tsv", ".txt", ".dat")
+#: Every extension :func:`read_record` reads (case-insensitive).
+RECORD_EXTENSIONS = TEXT_EXTENSIONS + (".npz", ".npy", ".raw", ".wav")
+#: Samples per block when a whole column is converted or checked.
+CHUNK_SAMPLES = 1 << 20
+#: Sample types a raw binary file may declare in its sidecar (``dtype = ...``), with an
+#: optional byte order prefix ``<`` (little, the default) or ``>`` (big).
+RAW_DTYPES = ("int8", "uint8", "int16", "uint16", "int32", "uint32", "int64", "float32",
+              "float64")
 #: Relative difference allowed between two statements of the sample rate (time column versus
 #: metadata or argument) before they are called a conflict.
 RATE_TOLERANCE = 1e-3
@@ -64,7 +84,7 @@ _WAV_DEFAULTS = {
     2: ("signal", "ref"),
     3: ("signal", "ref_i", "ref_q"),
 }
-_SOURCE_FORMATS = ("text", "npz", "wav", "memory")
+_SOURCE_FORMATS = ("text", "npz", "npy", "raw", "wav", "memory")
 _KEY = re.compile(r"^[A-Za-z_][A-Za-z0-9_.\-]{0,63}$")
 #: Metadata keys the analysis uses (docs/contract.md); a conflicting repeat of one is an error.
 KNOWN_KEYS = (
@@ -101,7 +121,7 @@ class Record:
     path : str
         Where the record came from (``"<memory>"`` for one made in memory).
     source_format : str
-        ``'text'``, ``'npz'``, ``'wav'`` or ``'memory'``.
+        ``'text'``, ``'npz'``, ``'npy'``, ``'raw'``, ``'wav'`` or ``'memory'``.
 
     Notes
     -----
@@ -146,11 +166,11 @@ class Record:
                     f"{where}: column {quote(name)} has {arr.shape[0]} samples but "
                     f"{quote(next(iter(cols)))} has {n}; all columns need the same length"
                 )
-            bad = np.flatnonzero(~np.isfinite(arr))
-            if bad.size:
+            bad = _first_nonfinite(arr)
+            if bad is not None:
                 raise RecordError(
                     f"{where}: column {quote(name)} holds a non-finite value "
-                    f"({arr[bad[0]]}) at sample {bad[0]}; remove or fill the gap"
+                    f"({arr[bad]}) at sample {bad}; remove or fill the gap"
                 )
             cols[name] = arr
         assert n is not None
@@ -328,17 +348,37 @@ def _as_readonly_float(values: Any, *, where: str, name: str) -> np.ndarray:
     return arr
 
 
+def _blocks(n: int, step: int = CHUNK_SAMPLES):
+    """``(start, stop)`` of consecutive blocks of at most ``step`` samples covering ``n``."""
+    return ((a, min(a + step, n)) for a in range(0, n, step))
+
+
+def _first_nonfinite(arr: np.ndarray) -> int | None:
+    """Index of the first NaN or infinity of ``arr``, or None (checked block by block)."""
+    for a, b in _blocks(arr.shape[0]):
+        bad = np.flatnonzero(~np.isfinite(arr[a:b]))
+        if bad.size:
+            return a + int(bad[0])
+    return None
+
+
 def _relative_jitter(t: np.ndarray) -> float:
-    dt = np.diff(t)
     mean = (t[-1] - t[0]) / (t.size - 1)
-    return float(np.max(np.abs(dt - mean)) / mean)
+    worst = 0.0
+    for a, b in _blocks(t.size - 1):
+        worst = max(worst, float(np.max(np.abs(np.diff(t[a:b + 1]) - mean))))
+    return worst / mean
 
 
 def _check_time(t: np.ndarray, *, where: str, line_of=None) -> None:
-    dt = np.diff(t)
-    bad = np.flatnonzero(~(dt > 0))
-    if bad.size:
-        i = int(bad[0]) + 1
+    first = None
+    for a, b in _blocks(t.size - 1):
+        bad = np.flatnonzero(~(np.diff(t[a:b + 1]) > 0))
+        if bad.size:
+            first = a + int(bad[0])
+            break
+    if first is not None:
+        i = first + 1
         at = f"line {line_of(i)}" if line_of else f"sample {i}"
         raise RecordError(
             f"{where}: column 'time' does not increase at {at} ({float(t[i - 1])!r} then "
@@ -511,13 +551,15 @@ def read_record(
     columns: str | Mapping[str, str] | None = None,
     sample_rate: Any = None,
 ) -> Record:
-    """Read a record file (text table, ``.npz`` or ``.wav``) into a :class:`Record`.
+    """Read a record file (text table, ``.npz``, ``.npy``, raw binary or ``.wav``) into a
+    :class:`Record`.
 
     Parameters
     ----------
     path : str or path-like
         The file. Its extension chooses the reader: ``.csv``, ``.tsv``, ``.txt``, ``.dat``
-        (text), ``.npz``, ``.wav`` (case-insensitive).
+        (text), ``.npz``, ``.npy``, ``.raw`` (with its ``.meta`` sidecar), ``.wav``
+        (case-insensitive). ``.npy``, ``.raw`` and ``.wav`` are memory-mapped, not read whole.
     columns : str or mapping, optional
         Column mapping, see :func:`parse_column_map`. Without it, text and ``.npz`` columns
         keep their names and WAV channels are named by count (1: ``signal``; 2: ``signal,
@@ -559,10 +601,10 @@ def read_record(
     if os.path.isdir(where):
         raise RecordError(f"{where}: is a directory, not a record file")
     ext = os.path.splitext(where)[1].lower()
-    if ext not in TEXT_EXTENSIONS + (".npz", ".wav"):
+    if ext not in RECORD_EXTENSIONS:
         raise RecordError(
             f"{where}: the extension {quote(ext or '(none)')} is not a record form; use "
-            f"{', '.join(TEXT_EXTENSIONS)}, .npz or .wav"
+            f"{', '.join(RECORD_EXTENSIONS[:-1])} or {RECORD_EXTENSIONS[-1]}"
         )
     try:
         info = os.stat(where)
@@ -579,6 +621,10 @@ def read_record(
     try:
         if ext == ".npz":
             return _read_npz(where, head, mapping, rate_arg)
+        if ext == ".npy":
+            return _read_npy(where, head, mapping, rate_arg)
+        if ext == ".raw":
+            return _read_raw(where, mapping, rate_arg)
         if ext == ".wav":
             return _read_wav(where, mapping, rate_arg)
         return _read_text(where, head, mapping, rate_arg)
@@ -634,9 +680,9 @@ def _finish(
 ) -> Record:
     """Check finiteness and time, settle the sample rate, and build the Record."""
     for name, arr in cols.items():
-        bad = np.flatnonzero(~np.isfinite(arr))
-        if bad.size:
-            i = int(bad[0])
+        bad = _first_nonfinite(arr)
+        if bad is not None:
+            i = bad
             at = f"line {line_of(i)}" if line_of else f"sample {i}"
             raise RecordError(
                 f"{where}: column {quote(name)} holds a non-finite value ({arr[i]}) at {at}; "
@@ -1025,10 +1071,240 @@ def _one_line(exc: BaseException) -> str:
     return f"{type(exc).__name__}: {text}"[:160]
 
 
+# ---- memory-mapped channels (npy, raw, wav) ----------------------------------------------
+
+
+@dataclass(frozen=True)
+class _Channel:
+    """One channel of a memory-mapped file: its samples as stored (a read-only view, maybe
+    strided) and the affine map to float64, ``(stored - zero) * scale``."""
+
+    stored: np.ndarray
+    scale: float = 1.0
+    zero: float = 0.0
+    pcm24: bool = False  # stored is (n, 3) little-endian bytes of 24-bit two's complement
+
+    def as_float64(self) -> np.ndarray:
+        """The channel as read-only float64: the view itself when the file stores native
+        float64 at unit scale, else converted block by block (no whole-file temporary)."""
+        src = self.stored
+        if (not self.pcm24 and src.dtype == np.float64 and src.dtype.isnative
+                and self.scale == 1.0 and self.zero == 0.0):
+            out = src.view(np.ndarray)
+            out.flags.writeable = False
+            return out
+        out = np.empty(src.shape[0], dtype=np.float64)
+        for a, b in _blocks(src.shape[0]):
+            block = _pcm24(src[a:b]) if self.pcm24 else src[a:b]
+            np.subtract(block, self.zero, out=out[a:b], dtype=np.float64, casting="unsafe")
+            if self.scale != 1.0:
+                out[a:b] *= self.scale
+        out.flags.writeable = False
+        return out
+
+
+def _pcm24(b: np.ndarray) -> np.ndarray:
+    """24-bit little-endian two's-complement samples (rows of 3 bytes) as int32."""
+    v = (b[:, 0].astype(np.int32) | (b[:, 1].astype(np.int32) << 8)
+         | (b[:, 2].astype(np.int32) << 16))
+    return (v << 8) >> 8
+
+
+def _read_sidecar(where: str, *, required: bool) -> dict[str, str]:
+    """The ``key = value`` lines of ``<where>.meta`` (``#`` before a key optional, blank and
+    comment lines skipped); ``{}`` when there is none and it is not required."""
+    side = where + ".meta"
+    if not os.path.isfile(side):
+        if required:
+            raise RecordError(
+                f"{where}: a raw binary record needs the sidecar {side} stating at least "
+                "'dtype = int16' (the sample type) and 'channels = signal, ref_i, ref_q' "
+                "(the columns in file order); see docs/records.md"
+            )
+        return {}
+    try:
+        with open(side, "rb") as fh:
+            raw = fh.read((1 << 16) + 1)
+    except OSError as exc:
+        raise RecordError(f"{side}: cannot be read ({exc.strerror or exc})") from None
+    if len(raw) > 1 << 16:
+        raise RecordError(f"{side}: is larger than 64 KiB; a sidecar holds a few key = value lines")
+    meta: dict[str, str] = {}
+    for lineno, line in enumerate(raw.decode("utf-8", "replace").splitlines(), 1):
+        text = line.strip().removeprefix("#").strip()
+        if not text:
+            continue
+        key, eq, value = text.partition("=")
+        if not eq:
+            if line.strip().startswith("#"):
+                continue  # a comment
+            raise RecordError(f"{side}: line {lineno} {quote(text)} is not 'key = value'")
+        if not _KEY.match(key.strip()):
+            raise RecordError(f"{side}: line {lineno}: {quote(key.strip())} is not a key")
+        k = _norm_key(key)
+        if k in meta and meta[k] != value.strip():
+            raise RecordError(f"{side}: key {k} is given twice with different values")
+        meta[k] = value.strip()
+    return meta
+
+
+def _sidecar_names(where: str, meta: dict[str, str], count: int | None) -> list[str] | None:
+    """The column names of the sidecar's ``channels`` key (None without it), checked."""
+    text = meta.pop("channels", None)
+    if text is None:
+        return None
+    names = [c.strip() for c in text.split(",")]
+    if not all(names):
+        raise RecordError(
+            f"{where}.meta: channels = {quote(text)} has an empty name; list the columns in "
+            "file order, e.g. 'channels = signal, ref_i, ref_q'"
+        )
+    if count is not None and len(names) != count:
+        raise RecordError(
+            f"{where}.meta: channels names {len(names)} column(s) but {where} has {count}"
+        )
+    return names
+
+
+def _read_npy(where: str, head: bytes, mapping, rate_arg) -> Record:
+    if not head.startswith(b"\x93NUMPY"):
+        raise RecordError(f"{where}: is not a .npy array (as numpy.save writes)")
+    try:
+        arr = np.load(where, mmap_mode="r", allow_pickle=False)
+    except ValueError as exc:
+        if "pickle" in str(exc).lower() or "object" in str(exc).lower():
+            raise RecordError(f"{where}: refused: holds pickled objects; save plain numbers") from None
+        raise RecordError(f"{where}: is a damaged .npy array ({_one_line(exc)})") from None
+    except Exception as exc:  # noqa: BLE001 - truncated header, short file, ...
+        raise RecordError(f"{where}: is a damaged .npy array ({_one_line(exc)})") from None
+    meta = _read_sidecar(where, required=False)
+    if arr.dtype.names:
+        if arr.ndim != 1:
+            raise RecordError(
+                f"{where}: a structured array of columns must be 1-D, not of shape {arr.shape}"
+            )
+        names = list(arr.dtype.names)
+        for nm in names:
+            if arr.dtype[nm].kind not in "biuf" or arr.dtype[nm].shape:
+                raise RecordError(
+                    f"{where}: field {quote(nm)} holds {arr.dtype[nm]} values; columns must be "
+                    "real numbers"
+                )
+        chans = [_Channel(arr[nm]) for nm in names]
+        if _sidecar_names(where, meta, len(names)) is not None:
+            raise RecordError(
+                f"{where}.meta: 'channels' names the columns of a plain array; this one's "
+                "fields already have names"
+            )
+        defaults = None
+    else:
+        if arr.dtype.kind not in "biuf":
+            raise RecordError(
+                f"{where}: holds {arr.dtype} values; a record holds real numbers"
+            )
+        if arr.ndim == 1:
+            arr = arr[:, None]
+        if arr.ndim != 2:
+            raise RecordError(
+                f"{where}: has shape {arr.shape}; give a 1-D signal, a 2-D array of samples × "
+                "channels or a structured array of named columns"
+            )
+        count = arr.shape[1]
+        if count == 0:
+            raise RecordError(f"{where}: holds no channels")
+        chans = [_Channel(arr[:, j]) for j in range(count)]
+        names = _sidecar_names(where, meta, count)
+        defaults = None
+        if names is None:
+            names = [f"ch{j}" for j in range(count)]
+            defaults = _WAV_DEFAULTS.get(count, _WAV_DEFAULTS[3])
+    return _mapped_record(where, names, chans, mapping, rate_arg, meta, "npy", defaults)
+
+
+def _mapped_record(where, names, chans, mapping, rate_arg, meta, source_format, defaults):
+    """Name the channels, convert those kept to float64 and finish the record."""
+    seen = set()
+    for nm in names:
+        if nm.strip().lower() in seen:
+            raise RecordError(f"{where}: column name {quote(nm)} appears twice (names ignore case)")
+        seen.add(nm.strip().lower())
+    picked = _apply_map(names, chans, mapping, where=where, allow_index=True,
+                        default_names=defaults)
+    cols = {name: ch.as_float64() for name, ch in picked.items()}
+    header_rate = _metadata_rate(meta, where)
+    return _finish(where, cols, meta, rate_arg, header_rate, source_format,
+                   header_label="sample_rate metadata of its sidecar")
+
+
+def _raw_dtype(where: str, text: str | None) -> np.dtype:
+    if text is None:
+        raise RecordError(
+            f"{where}.meta: has no 'dtype' key; state the sample type, one of "
+            f"{', '.join(RAW_DTYPES)} (prefix '>' for big-endian)"
+        )
+    t = text.strip().lower()
+    order = ">" if t.startswith(">") else "<"
+    base = t.lstrip("<>")
+    if base not in RAW_DTYPES:
+        raise RecordError(
+            f"{where}.meta: dtype = {quote(text)} is not allowed; use one of "
+            f"{', '.join(RAW_DTYPES)} (prefix '>' for big-endian)"
+        )
+    return np.dtype(base).newbyteorder(order)
+
+
+def _read_raw(where: str, mapping, rate_arg) -> Record:
+    meta = _read_sidecar(where, required=True)
+    dtype = _raw_dtype(where, meta.pop("dtype", None))
+    names = _sidecar_names(where, meta, None)
+    if names is None:
+        raise RecordError(
+            f"{where}.meta: has no 'channels' key; list the columns in file order, e.g. "
+            "'channels = signal, ref_i, ref_q'"
+        )
+    header = meta.pop("header_bytes", "0")
+    try:
+        offset = int(header)
+        if offset < 0:
+            raise ValueError
+    except ValueError:
+        raise RecordError(
+            f"{where}.meta: header_bytes = {quote(header)} is not allowed; give the number of "
+            "bytes before the first sample (an integer ≥ 0)"
+        ) from None
+    size = os.path.getsize(where) - offset
+    frame = dtype.itemsize * len(names)
+    if size <= 0 or size % frame:
+        raise RecordError(
+            f"{where}: {max(size, 0)} bytes of samples after a {offset}-byte header are not a "
+            f"whole number of frames of {frame} bytes ({len(names)} channels of {dtype.name}); "
+            "check dtype, channels and header_bytes in the sidecar, or the file is truncated"
+        )
+    frames = np.memmap(where, dtype=dtype, mode="r", offset=offset,
+                       shape=(size // frame, len(names)))
+    chans = [_Channel(frames[:, j]) for j in range(len(names))]
+    return _mapped_record(where, names, chans, mapping, rate_arg, meta, "raw", None)
+
+
 # ---- wav ---------------------------------------------------------------------------------
 
 
-def _wav_layout(where: str) -> tuple[int, int, int, int]:
+@dataclass(frozen=True)
+class _WavLayout:
+    """Where a WAV file's samples are: format tag (the sub-format of an extensible file),
+    channels, rate, bits per sample, bytes per frame, data offset and size, byte order."""
+
+    tag: int
+    channels: int
+    rate: int
+    bits: int
+    block: int
+    offset: int
+    size: int
+    little_endian: bool
+
+
+def _wav_layout(where: str) -> _WavLayout:
     """Walk the RIFF chunks and refuse truncated or malformed files before decoding.
 
     scipy.io.wavfile returns the part of a truncated data chunk with only a warning; a record
@@ -1045,6 +1321,7 @@ def _wav_layout(where: str) -> tuple[int, int, int, int]:
         endian = "<" if riff == b"RIFF" else ">"
         pos = 12
         fmt = None
+        fmt_pos = fmt_size = 0
         while pos + 8 <= size:
             fh.seek(pos)
             cid, csize = struct.unpack(endian + "4sI", fh.read(8))
@@ -1052,6 +1329,7 @@ def _wav_layout(where: str) -> tuple[int, int, int, int]:
                 if csize < 16 or pos + 8 + csize > size:
                     raise RecordError(f"{where}: its 'fmt ' chunk is damaged or truncated")
                 fmt = struct.unpack(endian + "HHIIHH", fh.read(16))
+                fmt_pos, fmt_size = pos, csize
             elif cid == b"data":
                 if fmt is None:
                     raise RecordError(f"{where}: has a 'data' chunk before its 'fmt ' chunk")
@@ -1067,15 +1345,82 @@ def _wav_layout(where: str) -> tuple[int, int, int, int]:
                         f"{where}: its data chunk ({csize} bytes) is not a whole number of "
                         f"frames of {block} bytes; the file is damaged"
                     )
-                return fmt[0], fmt[1], fmt[2], fmt[5]
+                tag = fmt[0]
+                if tag == 0xFFFE and fmt_size >= 40:  # WAVE_FORMAT_EXTENSIBLE: the sub-format
+                    fh.seek(fmt_pos + 8 + 24)
+                    tag = struct.unpack(endian + "H", fh.read(2))[0]
+                return _WavLayout(tag, fmt[1], fmt[2], fmt[5], block, pos + 8, csize,
+                                  endian == "<")
             pos += 8 + csize + (csize & 1)
     raise RecordError(f"{where}: has no complete 'data' chunk (truncated or not a WAV file)")
 
 
+def _wav_dtype(lay: _WavLayout) -> np.dtype | None:
+    """The NumPy type of one sample of a memory-mappable WAV layout (24-bit PCM: 3 bytes as
+    ``uint8``), or None for a layout left to scipy's reader (big-endian RIFX, other codecs)."""
+    if not lay.little_endian or lay.channels < 1:
+        return None
+    if lay.tag == 1 and lay.bits in (8, 16, 24, 32, 64):
+        kind = {8: "u1", 16: "<i2", 24: "u1", 32: "<i4", 64: "<i8"}[lay.bits]
+    elif lay.tag == 3 and lay.bits in (32, 64):
+        kind = {32: "<f4", 64: "<f8"}[lay.bits]
+    else:
+        return None
+    if lay.block != lay.channels * lay.bits // 8:
+        return None
+    return np.dtype(kind)
+
+
 def _read_wav(where: str, mapping, rate_arg) -> Record:
+    lay = _wav_layout(where)
+    dtype = _wav_dtype(lay)
+    if dtype is None:
+        return _read_wav_scipy(where, lay.bits, mapping, rate_arg)
+    n = lay.size // lay.block
+    if n == 0:
+        raise RecordError(f"{where}: holds 0 samples; at least {MIN_SAMPLES} are needed")
+    if lay.bits == 24:
+        frames = np.memmap(where, dtype=np.uint8, mode="r", offset=lay.offset,
+                           shape=(n, lay.channels, 3))
+        chans = [_Channel(frames[:, j, :], 2.0**-23, 0.0, pcm24=True)
+                 for j in range(lay.channels)]
+    else:
+        frames = np.memmap(where, dtype=dtype, mode="r", offset=lay.offset,
+                           shape=(n, lay.channels))
+        if dtype.kind == "f":
+            scale, zero = 1.0, 0.0
+        elif dtype.kind == "u":
+            scale, zero = 1.0 / 128.0, 128.0
+        else:
+            scale, zero = 2.0 ** (1 - 8 * dtype.itemsize), 0.0
+        chans = [_Channel(frames[:, j], scale, zero) for j in range(lay.channels)]
+    names = [f"ch{j}" for j in range(lay.channels)]
+    defaults = _WAV_DEFAULTS.get(lay.channels, _WAV_DEFAULTS[3])
+    picked = _apply_map(names, chans, mapping, where=where, allow_index=True,
+                        default_names=defaults)
+    cols = {name: ch.as_float64() for name, ch in picked.items()}
+    header_rate = _wav_header_rate(where, lay.rate, rate_arg)
+    kind = "float" if lay.tag == 3 else "integer"
+    meta = {"wav_channels": str(lay.channels), "wav_sample_format": f"{lay.bits}-bit {kind}"}
+    return _finish(where, cols, meta, rate_arg, header_rate, "wav", header_label="WAV header")
+
+
+def _wav_header_rate(where: str, file_rate: int, rate_arg) -> float | None:
+    if file_rate:
+        return float(file_rate)
+    if rate_arg is None:
+        raise RecordError(
+            f"{where}: its header gives a sample rate of 0 Hz; give the true rate with "
+            "--sample-rate"
+        )
+    return None
+
+
+def _read_wav_scipy(where: str, bits: int, mapping, rate_arg) -> Record:
+    """WAV layouts that are not memory-mapped (big-endian RIFX, unusual codecs): read whole
+    by scipy.io.wavfile, which also names what it cannot decode."""
     import scipy.io.wavfile as wavfile
 
-    bits = _wav_layout(where)[3]
     try:
         with warnings.catch_warnings():
             warnings.simplefilter("ignore")  # unknown chunks (LIST, ...) are skipped silently
@@ -1095,14 +1440,7 @@ def _read_wav(where: str, mapping, rate_arg) -> Record:
     names = [f"ch{j}" for j in range(nch)]
     defaults = _WAV_DEFAULTS.get(nch, _WAV_DEFAULTS[3])
     cols = _apply_map(names, arrays, mapping, where=where, allow_index=True, default_names=defaults)
-    header_rate = None
-    if file_rate:
-        header_rate = float(file_rate)
-    elif rate_arg is None:
-        raise RecordError(
-            f"{where}: its header gives a sample rate of 0 Hz; give the true rate with "
-            "--sample-rate"
-        )
+    header_rate = _wav_header_rate(where, file_rate, rate_arg)
     kind = "float" if data.dtype.kind == "f" else "integer"
     meta = {"wav_channels": str(nch), "wav_sample_format": f"{bits}-bit {kind}"}
     return _finish(where, cols, meta, rate_arg, header_rate, "wav", header_label="WAV header")

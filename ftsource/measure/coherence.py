@@ -289,13 +289,15 @@ def analytic_envelope(y: np.ndarray) -> tuple[np.ndarray, int]:
     Elsewhere the mirror point reverses the fringe phase, which disturbs the envelope within
     a few fringes of the end; those samples (4 mean fringe periods) are returned as a margin.
     """
-    from scipy.signal import hilbert
+    from scipy.fft import rfft
+
+    from ftsource.interferogram.zpd import analytic_envelope as envelope
 
     yy = y - y.mean()
     n = yy.size
     ext = np.concatenate([yy, yy[-2:0:-1]]) if n > 2 else yy
-    env = np.abs(hilbert(ext))[:n]
-    p = np.abs(np.fft.rfft(yy)) ** 2
+    env = envelope(ext)[:n]  # |scipy.signal.hilbert(ext)|, from two real FFTs
+    p = np.abs(rfft(yy)) ** 2
     f = np.fft.rfftfreq(n)
     f_c = float(np.sum(p[1:] * f[1:]) / np.sum(p[1:])) if np.sum(p[1:]) > 0 else 0.0
     margin = int(np.ceil(4.0 / f_c)) if f_c > 0 else n

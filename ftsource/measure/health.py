@@ -91,14 +91,83 @@ class ScanHealth:
         raise KeyError(name)
 
 
+#: Samples per pass of :func:`percentiles` over a long column.
+PERCENTILE_BLOCK = 1 << 20
+#: Bins of :func:`percentiles`' first pass.
+PERCENTILE_BINS = 1 << 16
+
+
+def _all_finite(x: np.ndarray) -> bool:
+    return all(np.isfinite(x[a : a + PERCENTILE_BLOCK]).all()
+               for a in range(0, x.size, PERCENTILE_BLOCK))
+
+
+def percentiles(x, q) -> np.ndarray:
+    """``numpy.percentile(x, q)`` (its default linear method) of finite values, without a
+    copy of a long ``x``: the values are binned by value in blocks (a count per bin), then
+    only the values in the bins that hold the wanted ranks are gathered and sorted.
+
+    The result is numpy's to the last bit: the same order statistics, combined by the same
+    interpolation formula. A record's column is mapped or large; ``numpy.percentile``
+    partitions a full copy of it.
+    """
+    x = np.asarray(x, float)
+    n = x.size
+    qs = np.atleast_1d(np.asarray(q, float))
+    if n <= 2 * PERCENTILE_BLOCK:
+        return np.percentile(x, qs)
+    blocks = [(a, min(a + PERCENTILE_BLOCK, n)) for a in range(0, n, PERCENTILE_BLOCK)]
+    mn = min(float(x[a:b].min()) for a, b in blocks)
+    mx = max(float(x[a:b].max()) for a, b in blocks)
+    if mn == mx:
+        return np.full(qs.shape, mn)
+    scale = PERCENTILE_BINS / (mx - mn)
+
+    def bins(v):  # monotonic in v: order between bins is the order of the values
+        return np.minimum(((v - mn) * scale).astype(np.int64), PERCENTILE_BINS - 1)
+
+    counts = np.zeros(PERCENTILE_BINS, np.int64)
+    for a, b in blocks:
+        counts += np.bincount(bins(x[a:b]), minlength=PERCENTILE_BINS)
+    cum = np.cumsum(counts)
+    pos = qs / 100.0 * (n - 1)
+    lo_rank = np.floor(pos).astype(np.int64)
+    hi_rank = np.minimum(lo_rank + 1, n - 1)
+    ranks = np.unique(np.concatenate([lo_rank, hi_rank]))
+    where = np.searchsorted(cum, ranks, side="right")  # the bin of each rank
+    values = {}
+    for k in np.unique(where):
+        # the bin's distinct values with their counts, gathered block by block
+        vals, cnt = [], []
+        for a, b in blocks:
+            v = x[a:b]
+            u, c = np.unique(v[bins(v) == k], return_counts=True)
+            vals.append(u)
+            cnt.append(c)
+        u, inv = np.unique(np.concatenate(vals), return_inverse=True)
+        c = np.bincount(inv, weights=np.concatenate(cnt)).astype(np.int64)
+        start = cum[k - 1] if k > 0 else 0
+        for r, kk in zip(ranks, where, strict=True):
+            if kk == k:
+                values[int(r)] = float(u[np.searchsorted(np.cumsum(c), r - start, side="right")])
+    a_v = np.array([values[int(r)] for r in lo_rank])
+    b_v = np.array([values[int(r)] for r in hi_rank])
+    t = pos - lo_rank
+    # numpy's linear interpolation (numpy.lib._function_base_impl._lerp)
+    diff = b_v - a_v
+    out = a_v + diff * t
+    return np.where(t >= 0.5, b_v - diff * (1 - t), out)
+
+
 def fringe_visibility(channel) -> float | None:
     """Michelson visibility from the 1st and 99th percentiles; None when the channel goes
     below zero (AC-coupled or offset-subtracted: no zero level to refer to)."""
     c = np.asarray(channel, float)
-    c = c[np.isfinite(c)]
+    if not _all_finite(c):
+        c = c[np.isfinite(c)]
     if c.size < 16:
         return None
-    lo, hi = np.percentile(c, [1.0, 99.0])
+    lo, hi = percentiles(c, [1.0, 99.0])
     if lo < 0 or hi <= 0:
         return None
     return float((hi - lo) / (hi + lo))
@@ -311,7 +380,7 @@ def scan_health(
     dcs = np.array([ig.dc_level for ig in interferograms], float)
     sig = np.asarray(signal, float)
     if dcs.size >= 2 and sig.size:
-        lo, hi = np.percentile(sig, [1.0, 99.0])
+        lo, hi = percentiles(sig, [1.0, 99.0])
         scale = max(abs(float(np.mean(dcs))), (hi - lo) / 2)
         drift = float((dcs.max() - dcs.min()) / scale) if scale > 0 else None
     else:

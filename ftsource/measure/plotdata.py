@@ -127,6 +127,31 @@ def envelope(t, y, n_bins: int = MAX_POINTS // 2):
     return tt, yy
 
 
+def _sampled_envelope(y, fs: float, n_bins: int = MAX_POINTS // 2):
+    """:func:`envelope` of ``y`` against the sample times ``arange(n) / fs``, without making
+    the times of every sample (a long record's column would be copied for a few thousand
+    points)."""
+    if y.size <= 2 * n_bins:
+        return np.arange(y.size) / fs, y
+    edges = np.linspace(0, y.size, n_bins + 1).astype(int)
+    lo = np.minimum.reduceat(y, edges[:-1])
+    hi = np.maximum.reduceat(y, edges[:-1])
+    tt = np.column_stack([edges[:-1] / fs, np.maximum(edges[1:] - 1, 0) / fs]).ravel()
+    return tt, np.column_stack([lo, hi]).ravel()
+
+
+def _median_speed(x, a: int, b: int, fs: float) -> float:
+    """Median mirror speed (mm/s, half the OPD speed) over samples ``a:b`` of the path ``x``
+    (cm), NaN where unknown: ``numpy.gradient`` of the whole path, taken bin by bin (a bin
+    sees its neighbours' samples, so the differences are the same)."""
+    lo, hi = max(a - 1, 0), min(b + 1, x.size)
+    seg = x[lo:hi]
+    if seg.size < 2:
+        return np.nan
+    v = (np.gradient(seg) * fs / 2.0 * 10.0)[a - lo : a - lo + (b - a)]
+    return float(np.nanmedian(v)) if np.isfinite(v).any() else np.nan
+
+
 def _thin_max(x, y, n: int = MAX_POINTS):
     x = np.asarray(x, float)
     y = np.asarray(y, float)
@@ -234,21 +259,19 @@ def plot_data(
 
     fs = float(sample_rate_hz)
     sig = np.asarray(signal, float)
-    t = np.arange(sig.size) / fs
-    rt, rs = envelope(t, sig)
+    rt, rs = _sampled_envelope(sig, fs)
     rr = ()
     if reference is not None:
-        rr = _tuple(envelope(t, np.asarray(reference, float))[1])
+        rr = _tuple(_sampled_envelope(np.asarray(reference, float), fs)[1])
     kw: dict = {"record_time_s": _tuple(rt), "record_signal": _tuple(rs),
                 "record_reference": rr}
 
     if opd_cm is not None and np.asarray(opd_cm).size > 2:
         x = np.asarray(opd_cm, float)
-        v = np.gradient(x) * fs / 2.0 * 10.0  # mirror speed (half the OPD speed), mm/s
-        n_bins = min(MAX_POINTS, v.size)
-        edges = np.linspace(0, v.size, n_bins + 1).astype(int)
+        n_bins = min(MAX_POINTS, x.size)
+        edges = np.linspace(0, x.size, n_bins + 1).astype(int)
         with np.errstate(all="ignore"):
-            med = np.array([np.nanmedian(v[a:b]) if np.isfinite(v[a:b]).any() else np.nan
+            med = np.array([_median_speed(x, a, b, fs)
                             for a, b in zip(edges[:-1], edges[1:], strict=True)])
         tc = (edges[:-1] + edges[1:]) / 2 / fs
         kw.update(speed_time_s=_tuple(tc), speed_mm_s=_tuple(med))

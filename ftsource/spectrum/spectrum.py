@@ -15,6 +15,7 @@ Kernel units: wavenumber in cm⁻¹, OPD in cm.
 
 from __future__ import annotations
 
+import functools
 from dataclasses import dataclass, field, replace
 
 import numpy as np
@@ -44,6 +45,19 @@ def _gauss_legendre_01(n: int, cache: dict):
         t, w = roots_legendre(n)
         rule = cache[n] = (0.5 * (t + 1.0), 0.5 * w)
     return rule
+
+
+@functools.lru_cache(maxsize=1024)
+def _legendre(n: int) -> tuple[np.ndarray, np.ndarray]:
+    """Gauss–Legendre nodes and weights on [−1, 1] (``scipy.special.roots_legendre``),
+    read-only. A table of constants kept across calls (the same ``n`` always gives the same
+    rule): every line fit builds its quadrature from a few hundred of them."""
+    from scipy.special import roots_legendre
+
+    t, w = roots_legendre(n)
+    t.flags.writeable = False
+    w.flags.writeable = False
+    return t, w
 
 
 @dataclass(frozen=True)
@@ -277,20 +291,19 @@ class KernelEvaluator:
         # |σ − c| for any centre inside the points' span, with a margin
         self._dmax = float(2 * np.max(np.abs(sp))) if sp.size else 0.0
         self._sp = sp
+        self._recent: dict = {}  # the last few (centre, q, l) → (K, ∂K/∂c, ∂K/∂q, ∂K/∂l)
         apo = get_apodization(shape.apodization)
         groups: dict[float, float] = {}
         for L, w in zip(shape.L_cm, shape.weights, strict=False):
             key = float(np.round(L, 9))
             groups[key] = groups.get(key, 0.0) + w
-        from scipy.special import roots_legendre
-
         self._groups = []
         for L, w in groups.items():
             panels = []
             edges = [L / 2**k for k in range(_N_PANELS)] + [0.0]
             for hi, lo in zip(edges[:-1], edges[1:], strict=True):
                 n = _PANEL_NODES + int(np.ceil(1.5 * np.pi * self._dmax * (hi - lo)))
-                t, wt = roots_legendre(n)
+                t, wt = _legendre(n)
                 x = lo + (hi - lo) * 0.5 * (t + 1.0)
                 base = apo(x / L) * wt * 0.5 * (hi - lo) * 2.0  # ∫₀ᴸ … dx, K of unit area
                 panels.append([lo, x, base, None])
@@ -304,7 +317,23 @@ class KernelEvaluator:
 
     def __call__(self, centre: float, q_gauss: float, l_lorentz: float, *, derivatives=False):
         """``K(σ − centre)`` with signed widths as in :meth:`LineShape.kernel_signed`; with
-        ``derivatives`` also ``(∂K/∂centre, ∂K/∂q, ∂K/∂l)`` (for the magnitude kind, of |K|)."""
+        ``derivatives`` also ``(∂K/∂centre, ∂K/∂q, ∂K/∂l)`` (for the magnitude kind, of |K|).
+
+        The derivatives cost little more than the kernel (the tables are read once for all
+        four sums), so they are always computed and the last few trials are remembered: a
+        least-squares solver asks for the residuals and then the Jacobian at the same point.
+        """
+        key = (float(centre), float(q_gauss), float(l_lorentz))
+        hit = self._recent.get(key)
+        if hit is None:
+            hit = self._evaluate(*key)
+            if len(self._recent) >= 8:
+                self._recent.pop(next(iter(self._recent)))
+            self._recent[key] = hit
+        return hit if derivatives else hit[0]
+
+    def _evaluate(self, centre: float, q_gauss: float, l_lorentz: float):
+        """``(K, ∂K/∂centre, ∂K/∂q, ∂K/∂l)``, read-only (they are shared by the memo)."""
         c = float(centre) - self.ref
         n = self._sp.size
         out = np.zeros(n)
@@ -327,14 +356,17 @@ class KernelEvaluator:
                 f = base * env
                 cs, sn = np.cos(2 * np.pi * c * x), np.sin(2 * np.pi * c * x)
                 C, S = self._mats(panel)
-                k += C @ (f * cs) + S @ (f * sn)
-                if derivatives:
-                    fx = 2 * np.pi * x * f
-                    kc += S @ (fx * cs) - C @ (fx * sn)
-                    fq = gq * x * x * f
-                    kq += C @ (fq * cs) + S @ (fq * sn)
-                    fl = -np.pi * x * f
-                    kl += C @ (fl * cs) + S @ (fl * sn)
+                # the four sums as two matrix products: C and S are read once, not four times
+                # (they are large: points × nodes; reading them is the cost)
+                fx = 2 * np.pi * x * f
+                fq = gq * x * x * f
+                fl = -np.pi * x * f
+                r = C @ np.stack([f * cs, -fx * sn, fq * cs, fl * cs], axis=1)
+                r += S @ np.stack([f * sn, fx * cs, fq * sn, fl * sn], axis=1)
+                k += r[:, 0]
+                kc += r[:, 1]
+                kq += r[:, 2]
+                kl += r[:, 3]
             if self.shape.kind == "magnitude":
                 sgn = np.sign(k)
                 k, kc, kq, kl = np.abs(k), sgn * kc, sgn * kq, sgn * kl
@@ -342,9 +374,9 @@ class KernelEvaluator:
             dc += w * kc
             dq += w * kq
             dl += w * kl
-        if derivatives:
-            return out, dc, dq, dl
-        return out
+        for a in (out, dc, dq, dl):
+            a.flags.writeable = False
+        return out, dc, dq, dl
 
 
 def _kernel_fwhm(shape: LineShape, g: float, lor: float) -> float:
@@ -581,9 +613,13 @@ def coadd(
     """
     if not sweep_spectra:
         raise AnalysisError("no sweep could be transformed")
-    vals = np.array([s.values for s in sweep_spectra])
-    n = vals.shape[0]
-    mean = vals.mean(axis=0)
+    n = len(sweep_spectra)
+    # summed in sweep order, as numpy's mean over the first axis of the stacked values does,
+    # without stacking them (one more copy of every sweep's spectrum)
+    mean = np.array(sweep_spectra[0].values, dtype=float)
+    for s in sweep_spectra[1:]:
+        mean += s.values
+    mean /= n
     methods = {s.method for s in sweep_spectra}
     kind = "magnitude" if methods == {"magnitude"} else "real"
     # each sweep's own noise level (its spectrum is noise over most of the grid); sweeps of
