@@ -23,7 +23,7 @@ from dataclasses import dataclass, replace
 import numpy as np
 
 from ftsource.errors import AnalysisError, OptionError
-from ftsource.interferogram.periodic import periodic_phase_error, remove_periodic_error
+from ftsource.interferogram.periodic import periodic_phase_error
 from ftsource.interferogram.scale import HENE_VACUUM_WAVELENGTH_NM, OpdKind
 from ftsource.interferogram.turnarounds import (
     abrupt_steps_note,
@@ -639,8 +639,10 @@ def opd_from_quadrature(
     x *= to_phase
     periodic = periodic_phase_error(x, seg_runs, samples_per_fringe=spf)
     if periodic.amplitude_rad > 0:
-        for a, b in seg_runs:
-            x[a:b] = remove_periodic_error(x[a:b], periodic)
+        for a, b in seg_runs:  # in blocks: a few temporaries of 2**18 samples at most
+            for c in range(a, b, 1 << 18):
+                e = min(c + (1 << 18), b)
+                x[c:e] -= periodic(x[c:e])
     x *= 1 / to_phase
     if smooth:
         w = _odd(min(spf, 64))

@@ -48,7 +48,7 @@ __all__ = [
 #: errors at n − 1 and n + 1 cycles per fringe, so 2nd and 3rd harmonics need k = 1 … 4.
 PERIODIC_ORDERS = 4
 #: The regression uses at most about this many samples, strided over the stretches.
-PERIODIC_FIT_SAMPLES = 1 << 18
+PERIODIC_FIT_SAMPLES = 1 << 16
 
 
 @dataclass(frozen=True)
