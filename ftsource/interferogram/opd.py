@@ -640,7 +640,8 @@ def opd_from_quadrature(
     periodic = periodic_phase_error(x, seg_runs, samples_per_fringe=spf)
     if periodic.amplitude_rad > 0:
         for a, b in seg_runs:
-            x[a:b] = remove_periodic_error(x[a:b], periodic)
+            for c0, c1 in _blocks(b - a):  # per sample: by blocks, no full-length temporaries
+                x[a + c0 : a + c1] = remove_periodic_error(x[a + c0 : a + c1], periodic)
     x *= 1 / to_phase
     if smooth:
         w = _odd(min(spf, 64))
