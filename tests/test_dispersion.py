@@ -35,8 +35,13 @@ def test_polynomial_phase_recovers_its_coefficients():
     t = p.centre_per_cm - sc
     phi2 = 2 * c[2] + 6 * c[3] * t + 12 * c[4] * t**2
     assert p.dispersion_cm2 == pytest.approx(phi2 / (2 * math.pi), rel=1e-7)
-    # held constant beyond the fitted band
-    assert p(14_000.0) == pytest.approx(p(s[0]))
+    # continued beyond the fitted band by the quadratic with the edge's value, slope and
+    # curvature (closed-form derivatives of the quartic at the edge)
+    e, h = s[0] - sc, 14_000.0 - s[0]
+    v0 = sum(ck * e**k for k, ck in enumerate(c))
+    v1 = sum(k * ck * e ** (k - 1) for k, ck in enumerate(c) if k >= 1)
+    v2 = sum(k * (k - 1) * ck * e ** (k - 2) for k, ck in enumerate(c) if k >= 2)
+    assert p(14_000.0) == pytest.approx(v0 + v1 * h + 0.5 * v2 * h**2, rel=1e-7)
 
 
 def test_glass_thickness_from_published_bk7_group_velocity_dispersion():
@@ -160,11 +165,45 @@ def test_delay_weight_is_the_window_at_the_group_delay():
 
 
 def test_polynomial_group_delay_is_the_derivative_of_the_phase():
-    # φ(σ) = c0 + c1 s + c2 s² + c3 s³ (s = σ − σ_c): φ'/2π in closed form, 0 outside the band
-    p = D.PolynomialPhase(17000.0, (0.3, 2 * np.pi * 1e-3, 2.0e-4, -1.0e-8), (0.0,) * 4,
-                          (16000.0, 18000.0), 0.0)
+    # φ(σ) = c0 + c1 s + c2 s² + c3 s³ (s = σ − σ_c): φ and φ'/2π in closed form inside the
+    # band; beyond it the Taylor quadratic at the edge (value, slope, curvature)
+    c = (0.3, 2 * np.pi * 1e-3, 2.0e-4, -1.0e-8)
+    p = D.PolynomialPhase(17000.0, c, (0.0,) * 4, (16000.0, 18000.0), 0.0)
+
+    def phi(d):
+        return c[0] + c[1] * d + c[2] * d**2 + c[3] * d**3
+
+    def dphi(d):
+        return c[1] + 2 * c[2] * d + 3 * c[3] * d**2
+
     s = np.array([16500.0, 17000.0, 17800.0])
     d = s - 17000.0
-    want = np.abs(2 * np.pi * 1e-3 + 2 * 2.0e-4 * d - 3 * 1.0e-8 * d**2) / (2 * np.pi)
-    np.testing.assert_allclose(p.group_delay_cm(s), want, rtol=1e-12)
-    np.testing.assert_array_equal(p.group_delay_cm([15000.0, 19000.0]), [0.0, 0.0])
+    np.testing.assert_allclose(p(s), phi(d), rtol=1e-12)
+    np.testing.assert_allclose(p.group_delay_cm(s), np.abs(dphi(d)) / (2 * np.pi), rtol=1e-12)
+    e, h = 1000.0, 500.0  # 18500 cm⁻¹: 500 beyond the upper edge
+    curv = 2 * c[2] + 6 * c[3] * e
+    np.testing.assert_allclose(p([18500.0]), phi(e) + dphi(e) * h + 0.5 * curv * h**2,
+                               rtol=1e-12)
+    np.testing.assert_allclose(p.group_delay_cm([18500.0]),
+                               abs(dphi(e) + curv * h) / (2 * np.pi), rtol=1e-12)
+
+
+@pytest.mark.parametrize("name, zero_fill", [("boxcar", 1), ("boxcar", 4), ("happ-genzel", 4)])
+def test_noise_correlation_is_the_windows_correlation_sum(name, zero_fill):
+    # Discrete closed form: for white noise n_i windowed by w_i and zero-filled to N_fft
+    # points, the covariances of the spectrum points sum (over all points) to N_fft·w₀²·σ²
+    # while one point's variance is σ²·Σw_i² (DFT orthogonality), so Σρ = N_fft·w₀²/Σw_i²;
+    # the windows are written out here (boxcar 1; Happ-Genzel 0.54 + 0.46 cos πξ, Harris 1978)
+    from types import SimpleNamespace
+
+    from ftsource.spectrum.spectrum import noise_correlation
+
+    m, dx = 2000, 1e-5
+    xi = np.abs(np.arange(-m, m + 1)) / m
+    w = np.ones_like(xi) if name == "boxcar" else 0.54 + 0.46 * np.cos(np.pi * xi)
+    n_fft = zero_fill * (2 * m + 1)
+    want = n_fft * w[m] ** 2 / np.sum(w**2)
+    sigma = np.arange(n_fft // 2 + 1) / (n_fft * dx)
+    spec = SimpleNamespace(sigma_per_cm=sigma, max_opd_cm=m * dx,
+                           line_shape=SimpleNamespace(apodization=name))
+    assert noise_correlation(spec) == pytest.approx(want, rel=2e-3)

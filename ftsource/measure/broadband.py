@@ -440,7 +440,7 @@ def _figures(x, y, frac, notes):
 
 
 def flank_baseline(sigma_per_cm, density_per_cm, band_per_cm, noise_per_cm, *,
-                   min_points: int = 16) -> tuple[float, float]:
+                   min_points: int = 16, correlation: float = 1.0) -> tuple[float, float]:
     """Constant baseline of a spectrum per unit wavenumber from the points outside its band.
 
     The baseline is the median of ``density_per_cm`` over the points of the given grid that
@@ -459,6 +459,10 @@ def flank_baseline(sigma_per_cm, density_per_cm, band_per_cm, noise_per_cm, *,
         Standard uncertainty of each point.
     min_points : int
         Fewer flank points than this give ``(0.0, 0.0)``: no estimate.
+    correlation : float
+        Grid points per independent noise value
+        (:func:`ftsource.spectrum.spectrum.noise_correlation`): the median's ``n`` is the
+        number of flank points divided by it.
 
     Returns
     -------
@@ -479,7 +483,8 @@ def flank_baseline(sigma_per_cm, density_per_cm, band_per_cm, noise_per_cm, *,
     n = int(out.sum())
     if n < min_points:
         return 0.0, 0.0
-    return float(np.median(d[out])), float(1.2533 * np.median(noise[out]) / math.sqrt(n))
+    n_eff = n / max(float(correlation), 1.0)
+    return float(np.median(d[out])), float(1.2533 * np.median(noise[out]) / math.sqrt(n_eff))
 
 
 def band_edge_uncertainty(wavelength_nm, density_per_nm, *, fractions=EDGE_FRACTIONS

@@ -154,7 +154,8 @@ def burst_half_width_cm(x_cm, y, x_zpd_cm: float, *, level: float = 0.05) -> flo
 
 @dataclass(frozen=True)
 class PolynomialPhase:
-    """A phase ``φ(σ) = Σ c_k (σ − σ_c)^k`` fitted over ``band`` and held constant beyond.
+    """A phase ``φ(σ) = Σ c_k (σ − σ_c)^k`` fitted over ``band``, continued beyond it by the
+    quadratic with the edge's value, slope and curvature.
 
     ``coefficients`` ascend in power (rad·cm^k); ``u_coefficients`` are their standard
     uncertainties from the weighted fit, scaled by the residual (Birge ratio ≥ 1).
@@ -166,18 +167,28 @@ class PolynomialPhase:
     band: tuple[float, float]
     residual_rms_rad: float
 
+    def _derivatives(self, sigma_per_cm, order: int) -> np.ndarray:
+        """φ (``order`` 0) or φ' (1) inside ``band``; beyond it the quadratic that continues
+        the phase at the nearest edge with its value, slope and curvature (glass dispersion
+        goes on smoothly where the band's wings are too weak to fit)."""
+        c = np.asarray(self.coefficients, dtype=float)
+        sig = np.asarray(sigma_per_cm, dtype=float)
+        edge = np.clip(sig, *self.band)
+        e = edge - self.centre_per_cm
+        p = np.polynomial.polynomial
+        v0, v1, v2 = (p.polyval(e, p.polyder(c, k)) if c.size > k else np.zeros_like(e)
+                      for k in range(3))
+        h = sig - edge
+        if order == 0:
+            return v0 + v1 * h + 0.5 * v2 * h**2
+        return v1 + v2 * h
+
     def __call__(self, sigma_per_cm) -> np.ndarray:
-        s = np.clip(np.asarray(sigma_per_cm, dtype=float), *self.band) - self.centre_per_cm
-        return np.polynomial.polynomial.polyval(s, np.asarray(self.coefficients))
+        return self._derivatives(sigma_per_cm, 0)
 
     def group_delay_cm(self, sigma_per_cm) -> np.ndarray:
-        """Group delay in optical path, ``|φ'(σ)|/2π`` (cm), from the window's centre; 0
-        beyond ``band``, where the phase is held constant."""
-        s = np.asarray(sigma_per_cm, dtype=float)
-        inside = (s >= self.band[0]) & (s <= self.band[1])
-        d = np.polynomial.polynomial.polyder(np.asarray(self.coefficients))
-        tau = np.abs(np.polynomial.polynomial.polyval(s - self.centre_per_cm, d)) / (2 * np.pi)
-        return np.where(inside, tau, 0.0)
+        """Group delay in optical path, ``|φ'(σ)|/2π`` (cm), from the window's centre."""
+        return np.abs(self._derivatives(sigma_per_cm, 1)) / (2 * np.pi)
 
     @property
     def dispersion_cm2(self) -> float:

@@ -26,7 +26,7 @@ from ftsource.spectrum.apodization import get_apodization
 
 __all__ = [
     "LineShape", "KernelEvaluator", "Spectrum", "SweepSpectrum", "sweep_spectrum", "coadd",
-    "reconvolve",
+    "reconvolve", "noise_correlation",
 ]
 
 _LN2 = np.log(2.0)
@@ -720,3 +720,32 @@ def reconvolve(spectrum: Spectrum, band_per_cm: tuple[float, float], *,
     conv = np.convolve(spectrum.density[a:b], kern, mode="same")
     out[inside] = conv[inside - a]
     return out
+
+
+def noise_correlation(spec: Spectrum) -> float:
+    """How many grid points of ``spec`` share one independent noise value.
+
+    White interferogram noise, apodized by ``w(x)`` (``x`` within ±L) and zero-filled, gives
+    spectrum points whose correlations sum to ``Σρ = w(0)²/(δσ·∫w² dx)``
+    (``δσ`` the grid step; the covariance of two points is the transform of ``w²``, and the
+    sum of a transform's samples is ``1/δσ`` times the function at 0: Poisson summation). For
+    a box without zero-filling it is 1; with zero-filling by ``z``, ``z``. A mean or median
+    over ``n`` points has the spread of one over ``n/Σρ`` independent points. The window is
+    taken double-sided over ``±max_opd`` (a one-sided Mertz window is close).
+
+    References
+    ----------
+    .. [1] R. N. Bracewell, The Fourier Transform and Its Applications, 3rd ed., McGraw-Hill
+       (2000), ch. 6 (autocorrelation theorem) and ch. 10 (Poisson summation).
+    """
+    from ftsource.spectrum.apodization import get_apodization
+
+    sig = np.asarray(spec.sigma_per_cm, dtype=float)
+    step = float(np.median(np.abs(np.diff(sig)))) if sig.size > 1 else float("nan")
+    L = float(spec.max_opd_cm)
+    if not (step > 0 and L > 0 and np.isfinite(step * L)):
+        return 1.0
+    apo = get_apodization(spec.line_shape.apodization)
+    xi = np.linspace(0.0, 1.0, 2001)
+    mean_sq = float(np.trapezoid(np.asarray(apo(xi), dtype=float) ** 2, xi))  # ∫w²dx / 2L
+    return max(1.0, 1.0 / (step * 2 * L * mean_sq))
