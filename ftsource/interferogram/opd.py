@@ -639,10 +639,9 @@ def opd_from_quadrature(
     x *= to_phase
     periodic = periodic_phase_error(x, seg_runs, samples_per_fringe=spf)
     if periodic.amplitude_rad > 0:
-        for a, b in seg_runs:  # in blocks: a few temporaries of 2**18 samples at most
-            for c in range(a, b, 1 << 18):
-                e = min(c + (1 << 18), b)
-                x[c:e] -= periodic(x[c:e])
+        for a, b in seg_runs:
+            for c0, c1 in _blocks(b - a):  # per sample: by blocks, no full-length temporaries
+                x[a + c0 : a + c1] -= periodic(x[a + c0 : a + c1])
     x *= 1 / to_phase
     if smooth:
         w = _odd(min(spf, 64))
