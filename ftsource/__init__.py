@@ -9,7 +9,7 @@ Public API (imported lazily, so ``import ftsource`` and ``ftsource --help`` stay
 ``read_record``          read a CSV/TSV/whitespace table, ``.npz`` or ``.wav`` record
 ``Record``               the samples of one recording
 ``Result``               what an analysis found; ``Result.to_dict()`` is the JSON
-``write_outputs``        write ``result.json``, the spectrum files, ``report.html`` and figures atomically
+``write_outputs``        write ``result.json``, the spectrum files, the report and figures
 ``FFTPlanner``           explicitly cached FFTW plans
 ``simulate``             the forward model (module): records from a known source
 ``FtsourceError``        base of every error ftsource raises on purpose

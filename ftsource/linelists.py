@@ -322,8 +322,8 @@ def search_lines(
                 )
             except ImportError as exc:
                 raise OptionError(
-                    "conditions were given but ftsource.physics.air.vacuum_to_air_nm is not available:"
-                    " pass to_air=callable, or leave conditions out for standard air"
+                    "conditions were given but ftsource.physics.air.vacuum_to_air_nm is not "
+                    "available: pass to_air=callable, or leave conditions out for standard air"
                 ) from exc
 
             def converter(wl):

@@ -23,8 +23,6 @@ from pathlib import Path
 
 import numpy as np
 import pytest
-
-from ftsource.report.text import OUTPUT_FILES
 from astropy.table import Table
 from cli_helpers import run, tree
 
@@ -33,6 +31,7 @@ from ftsource import simulate as S
 from ftsource.analysis import AnalysisOptions
 from ftsource.errors import OptionError
 from ftsource.io.records import write_record_npz
+from ftsource.report.text import OUTPUT_FILES
 
 ROOT = Path(__file__).resolve().parent.parent
 REF = ["--reference-wavelength", "632.991nm", "--medium", "vacuum"]

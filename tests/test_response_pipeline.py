@@ -5,15 +5,15 @@ Oracles:
   a record is simulated from the source *times a known detector response* (each component of
   the LED comb scaled by the response at its wavenumber), so the true, unweighted spectrum is
   known exactly; its figures come from ftsource.measure.broadband (CIE 127 / IES definitions);
-* the detector response is the typical silicon shape of ftsource.calibrate.response (common practice /
-  from memory; here it is only an invented but known truth, shared by the simulation and the
-  response curve given to analyze);
+* the detector response is the typical silicon shape of ftsource.calibrate.response (common
+  practice / from memory; here it is only an invented but known truth, shared by the
+  simulation and the response curve given to analyze);
 * moments of a truncated normal distribution (closed form) for the response's correlated
   uncertainty;
-* colour: ftsource.measure.colour on the true spectrum (tested in test_colour.py against CIE data) and
-  the general-purpose colour-science library (PyPI ``colour-science``: ``colour.sd_to_XYZ``,
-  ``colour.XYZ_to_xy``, ``colour.dominant_wavelength``, whose dominant wavelength is a
-  whole-nanometre table value, so ±0.5 nm).
+* colour: ftsource.measure.colour on the true spectrum (tested in test_colour.py against CIE
+  data) and the general-purpose colour-science library (PyPI ``colour-science``:
+  ``colour.sd_to_XYZ``, ``colour.XYZ_to_xy``, ``colour.dominant_wavelength``, whose dominant
+  wavelength is a whole-nanometre table value, so ±0.5 nm).
 """
 
 from __future__ import annotations

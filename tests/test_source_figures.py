@@ -56,7 +56,8 @@ def test_multimode_diode_has_peak_centroid_and_envelope_fwhm():
     # the centroid of the modes (IES first moment of the simulated lines)
     assert s["centroid_wavelength_nm"] == pytest.approx(centroid, abs=0.02)
     # the peak is the strongest measured line; near the top of a smooth envelope neighbouring
-    # modes differ by 7 % in intensity (Gaussian envelope, closed form), so it is one of the modes within 80 % of the top
+    # modes differ by 7 % in intensity (Gaussian envelope, closed form), so it is one of the
+    # modes within 80 % of the top
     strongest = max((ln for ln in d["lines"] if ln["flag"] is None),
                     key=lambda ln: ln["relative_intensity"])
     assert s["peak_wavelength_nm"] == strongest["wavelength_nm"]

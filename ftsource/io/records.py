@@ -1173,7 +1173,8 @@ def _read_npy(where: str, head: bytes, mapping, rate_arg) -> Record:
         arr = np.load(where, mmap_mode="r", allow_pickle=False)
     except ValueError as exc:
         if "pickle" in str(exc).lower() or "object" in str(exc).lower():
-            raise RecordError(f"{where}: refused: holds pickled objects; save plain numbers") from None
+            raise RecordError(
+                f"{where}: refused: holds pickled objects; save plain numbers") from None
         raise RecordError(f"{where}: is a damaged .npy array ({_one_line(exc)})") from None
     except Exception as exc:  # noqa: BLE001 - truncated header, short file, ...
         raise RecordError(f"{where}: is a damaged .npy array ({_one_line(exc)})") from None

@@ -355,7 +355,8 @@ def coherence_from_visibility(
     y : array_like
         Interferogram samples on that grid.
     zpd_x_cm : float, optional
-        OPD of ZPD, cm. By default :func:`ftsource.interferogram.zpd.find_zpd` locates the centre burst.
+        OPD of ZPD, cm. By default :func:`ftsource.interferogram.zpd.find_zpd` locates the
+        centre burst.
         Give it when the record starts or ends at ZPD (a one-sided record) or when the
         envelope is flat (a narrow line), where the burst cannot be found.
     floor : float, optional

@@ -108,9 +108,8 @@ GLASS_DEFINITION = (
 def glass_facts(sweep_spectra, main) -> tuple[GlassFacts | None, tuple[str, ...]]:
     """The glass imbalance the sweeps' phase implies, with the advice to add a compensator
     (None and no note when no sweep needed the dispersion treatment)."""
-    from ftsource.spectrum.dispersion import glass_imbalance
-
     from ftsource.measure.classify import BROADBAND_FWHM_NM
+    from ftsource.spectrum.dispersion import glass_imbalance
 
     if main is None or not main.resolved or (
             u_nm_from_per_cm(main.centre_per_cm, main.fwhm_per_cm) <= BROADBAND_FWHM_NM):

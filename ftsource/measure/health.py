@@ -272,10 +272,23 @@ def scan_health(
     clipped_fraction : float
         Fraction of source samples at the record's extreme value.
     """
-    items = []
     spf = float(samples_per_reference_fringe)
     used = [s for s in sweeps if s.index in set(used_sweeps)] or list(sweeps)
+    items = [
+        *_reference_items(reference_channels, opd_kind, spf),
+        *_source_visibility_items(interferograms, source_kind),
+        *_motion_items(opd_cm, sweeps, used, sample_rate_hz, spf),
+        *_fault_items(dropouts, clipped_fraction),
+        *_drift_items(signal, interferograms),
+        *_snr_items(main_snr),
+        *_sampling_items(opd_kind, spf, min_wavelength_nm, shortest_line_nm),
+    ]
+    return ScanHealth(tuple(items))
 
+
+def _reference_items(reference_channels, opd_kind: str, spf: float) -> list:
+    """The reference fringes: visibility, or the amplitude's steadiness of an AC-coupled channel."""
+    items = []
     # ---- reference fringes
     if opd_kind in ("quadrature", "single") and reference_channels:
         vis = [fringe_visibility(c) for c in reference_channels]
@@ -308,7 +321,12 @@ def scan_health(
             "no reference laser in this record (OPD from "
             f"{opd_kind}): nothing to judge",
         ))
+    return items
 
+
+def _source_visibility_items(interferograms, source_kind: str) -> list:
+    """The source's fringe visibility near ZPD (judged for a laser only)."""
+    items = []
     # ---- source visibility near ZPD
     vis_src = None
     for ig in interferograms:
@@ -338,7 +356,12 @@ def scan_health(
             if vis_src is not None else
             "the source channel has no zero level (AC-coupled): its visibility cannot be told",
         ))
+    return items
 
+
+def _motion_items(opd_cm, sweeps, used, sample_rate_hz: float, spf: float) -> list:
+    """The mirror's speed, its jitter and the turnarounds."""
+    items = []
     # ---- speed, jitter, turnarounds
     med, jit = speed_jitter(opd_cm, used, sample_rate_hz, spf)
     items.append(HealthItem(
@@ -359,7 +382,12 @@ def scan_health(
         "turnarounds", float(n_turns), "", "note", "—", "—",
         f"{len(sweeps)} sweep(s), {len(used)} used; each turnaround joins two sweeps",
     ))
+    return items
 
+
+def _fault_items(dropouts: int, clipped_fraction: float) -> list:
+    """Reference dropouts and detector clipping."""
+    items = []
     # ---- dropouts, clipping
     items.append(HealthItem(
         "reference dropouts", float(dropouts), "", "good" if dropouts == 0 else "poor", "0",
@@ -375,7 +403,12 @@ def scan_health(
         "good: the detector stays in range" if clipped_fraction <= CLIPPED_FRACTION_MAX else
         "the detector or ADC clips, which makes harmonics: lower the gain or the light",
     ))
+    return items
 
+
+def _drift_items(signal, interferograms) -> list:
+    """The DC drift between sweeps, against the level or the fringe swing."""
+    items = []
     # ---- drift
     dcs = np.array([ig.dc_level for ig in interferograms], float)
     sig = np.asarray(signal, float)
@@ -393,7 +426,12 @@ def scan_health(
          "the source or detector level drifts: let them warm up, shield stray light, check "
          "the power supply") if drift is not None else "needs at least two sweeps",
     ))
+    return items
 
+
+def _snr_items(main_snr) -> list:
+    """The main line's signal-to-noise ratio."""
+    items = []
     # ---- SNR
     ok = main_snr is not None and main_snr >= SNR_MIN
     items.append(HealthItem(
@@ -403,7 +441,12 @@ def scan_health(
          "sweeps, or a lower detector noise; widths near the noise are not reliable")
         if main_snr is not None else "no line was found",
     ))
+    return items
 
+
+def _sampling_items(opd_kind: str, spf: float, min_wavelength_nm: float, shortest_line_nm) -> list:
+    """Samples per reference fringe and the margin of the shortest line to the alias limit."""
+    items = []
     # ---- sampling
     if opd_kind in ("quadrature", "single"):
         ok = spf >= SAMPLES_PER_FRINGE_MIN
@@ -424,4 +467,4 @@ def scan_health(
          f"{min_wavelength_nm:.0f} nm: sample faster or scan slower") if margin is not None
         else "no source line was found",
     ))
-    return ScanHealth(tuple(items))
+    return items

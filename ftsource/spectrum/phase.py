@@ -16,8 +16,9 @@ are densities per cm^-1 in the units of the samples times cm, scaled so that an 
 instrument line shape of unit area.
 
 One-sided interferograms (short side under 0.8 of the long side, see
-:class:`ftsource.interferogram.zpd.ZpdInfo`) are weighted by the Mertz ramp so that the double-sided part
-is not counted twice; double-sided ones use the symmetric part ``+-l`` (``l`` the shorter side).
+:class:`ftsource.interferogram.zpd.ZpdInfo`) are weighted by the Mertz ramp so that the
+double-sided part is not counted twice; double-sided ones use the symmetric part ``+-l``
+(``l`` the shorter side).
 """
 
 from __future__ import annotations
