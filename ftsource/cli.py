@@ -918,7 +918,8 @@ def _calibration_text(cal, what: str, target) -> str:
         f"measured {measured} nm (u = {u_measured} nm)\n"
         f"deviation_ppm: {deviation} (effective reference wavelength / nominal - 1); "
         f"uncorrected, the rig reads {reads} by that much\n"
-        f"effective reference wavelength: {effective}; saved to {target}\n"
+        f"effective reference wavelength: {effective}\n"
+        f"wrote {target}\n"
         "use it with: ftsource analyze RECORD --calibration " + str(target) + "\n"
     )
 
@@ -945,9 +946,10 @@ def _cmd_response(args, out, err) -> int:
     curve.to_file(target, overwrite=args.overwrite)
     lo, hi = curve.valid_band_per_cm
     out.write(
-        f"relative response from {1e7 / hi:.0f} to {1e7 / lo:.0f} nm saved to {target} "
+        f"relative response from {1e7 / hi:.0f} to {1e7 / lo:.0f} nm "
         f"(blackbody at {t:g} K ± {ut:g} K: tungsten's emissivity is not flat, so this is an "
-        "approximation)\nuse it with: ftsource analyze RECORD --response " + str(target) + "\n"
+        f"approximation)\nwrote {target}\n"
+        "use it with: ftsource analyze RECORD --response " + str(target) + "\n"
     )
     return 0
 

@@ -29,7 +29,9 @@ def test_calibrate_writes_a_calibration_that_analyze_uses(tmp_path, capsys):
     code = main(["calibrate", str(rec), "--known-wavelength", "532.24503610nm",
                  "--reference-wavelength", "632.991nm", "--medium", "vacuum", "--save", str(cal)])
     assert code == 0 and cal.exists()
-    assert "effective reference wavelength" in capsys.readouterr().out
+    printed = capsys.readouterr().out
+    assert "effective reference wavelength" in printed
+    assert f"wrote {cal}\n" in printed  # one line per file written, as every command says
     # refuses to overwrite without --overwrite, file unchanged
     before = cal.read_bytes()
     assert main(["calibrate", str(rec), "--known-wavelength", "532.24503610nm",
@@ -67,7 +69,9 @@ def test_response_command_recovers_a_known_response(tmp_path, capsys):
     out = tmp_path / "resp.ecsv"
     code = main(["response", str(rec), "--lamp-temperature", "2856K", "--reference-wavelength",
                  "632.991nm", "--medium", "vacuum", "--save", str(out)])
-    assert code == 0, capsys.readouterr().err
+    printed = capsys.readouterr()
+    assert code == 0, printed.err
+    assert f"wrote {out}\n" in printed.out
     curve = ResponseCurve.from_file(out)
     # the band where the lamp has signal: where its measured density exceeds 5 % of its peak
     # (and 20 × its noise), calibrate_response's default and the curve's valid band. It is set
