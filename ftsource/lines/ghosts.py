@@ -189,64 +189,79 @@ def flag_ghosts(
     tol = np.asarray(tolerances_per_cm, dtype=float)
     n_lines = sig.size
     ok = np.ones(n_lines, bool) if eligible is None else np.asarray(eligible, dtype=bool)
+    _check_ghost_inputs(sig, amp, tol, ok, max_intermod_order,
+                        reference_harmonic_spread_per_cm)
+    flags: list[str | None] = [None] * n_lines
+    if n_lines == 0:
+        return flags
+    strongest = int(np.argmax(amp))
+    mains, source_at_reference = _main_lines(sig, amp, tol, reference_per_cm)
+    sources: list[int] = []  # lines kept as source lines so far (all stronger than the current)
+    for k in map(int, np.argsort(-amp, kind="stable")):
+        flag = None
+        if ok[k] and not (k == strongest and source_at_reference):  # else: the source itself
+            flag = _ghost_flag(k, sources, mains, sig, amp, tol[k], reference_per_cm,
+                               reference_harmonic_spread_per_cm, clipped, band_edge_per_cm,
+                               max_intermod_order)
+        flags[k] = flag
+        if flag is None:
+            sources.append(k)
+    return flags
+
+
+def _ghost_flag(k, sources, mains, sig, amp, tol_k, reference_per_cm, spread, clipped,
+                band_edge_per_cm, max_intermod_order):
+    """The flag of line ``k`` (None: a source line), given the source lines kept so far (all
+    stronger than it)."""
+    if reference_per_cm is not None and _is_reference_ghost(k, mains, sig, tol_k,
+                                                            reference_per_cm):
+        return "reference-ghost"
+    if reference_per_cm is not None and _is_reference_harmonic(
+        k, sources, mains, sig, amp, tol_k + spread, reference_per_cm,
+    ):
+        return "reference-harmonic"
+    if clipped:
+        parents = [i for i in sources if amp[i] > amp[k]]
+        if _is_harmonic(sig[k], tol_k, sig[parents], band_edge_per_cm):
+            return "harmonic"
+        if _is_intermodulation(sig[k], amp[k], tol_k, sig[parents], amp[parents], sig[sources],
+                               band_edge_per_cm, max_intermod_order):
+            return "intermodulation"
+    return None
+
+
+def _check_ghost_inputs(sig, amp, tol, ok, max_intermod_order, spread) -> None:
+    """Refuse arrays of different shapes, a mixing order below 2 and negative tolerances."""
     if not (sig.ndim == amp.ndim == tol.ndim == ok.ndim == 1) or not (
-        amp.size == tol.size == ok.size == n_lines
+        amp.size == tol.size == ok.size == sig.size
     ):
         raise ValueError("centres, strengths, tolerances and eligible must be 1-D and of equal "
                          "length")
     if max_intermod_order < 2:
         raise ValueError(f"max_intermod_order must be at least 2, got {max_intermod_order!r}")
-    if not (reference_harmonic_spread_per_cm >= 0 and math.isfinite(
-            reference_harmonic_spread_per_cm)):
+    if not (spread >= 0 and math.isfinite(spread)):
         raise ValueError("reference_harmonic_spread_per_cm must be finite and non-negative, "
-                         f"got {reference_harmonic_spread_per_cm!r}")
+                         f"got {spread!r}")
     if np.any(tol < 0) or np.any(~np.isfinite(tol)):
         raise ValueError("tolerances must be finite and non-negative")
-    flags: list[str | None] = [None] * n_lines
-    if n_lines == 0:
-        return flags
-    # the main line(s) whose mixing with reference light is looked for: the strongest line,
-    # and the strongest one not at the reference wavenumber when that is another
+
+
+def _main_lines(sig, amp, tol, reference_per_cm):
+    """The main line(s) whose mixing with reference light is looked for (the strongest line,
+    and the strongest one not at the reference wavenumber when that is another), and whether
+    the strongest line is the source itself sitting at the reference wavenumber."""
     strongest = int(np.argmax(amp))
     mains = [strongest]
-    source_at_reference = False
-    if reference_per_cm is not None:
-        off_ref = np.flatnonzero(np.abs(sig - reference_per_cm) >= tol)
-        if off_ref.size:
-            mains.append(int(off_ref[np.argmax(amp[off_ref])]))
-        source_at_reference = bool(
-            abs(sig[strongest] - reference_per_cm) < tol[strongest]
-            and (off_ref.size == 0
-                 or np.max(amp[off_ref]) < REFERENCE_DOMINANCE * amp[strongest])
-        )
-    sources: list[int] = []  # lines kept as source lines so far (all stronger than the current)
-    for k in map(int, np.argsort(-amp, kind="stable")):
-        flag = None
-        if ok[k]:
-            if k == strongest and source_at_reference:
-                pass  # the source itself sits at the reference wavelength
-            elif reference_per_cm is not None and _is_reference_ghost(
-                k, mains, sig, tol[k], reference_per_cm
-            ):
-                flag = "reference-ghost"
-            elif reference_per_cm is not None and _is_reference_harmonic(
-                k, sources, mains, sig, amp, tol[k] + reference_harmonic_spread_per_cm,
-                reference_per_cm,
-            ):
-                flag = "reference-harmonic"
-            elif clipped:
-                parents = [i for i in sources if amp[i] > amp[k]]
-                if _is_harmonic(sig[k], tol[k], sig[parents], band_edge_per_cm):
-                    flag = "harmonic"
-                elif _is_intermodulation(
-                    sig[k], amp[k], tol[k], sig[parents], amp[parents], sig[sources],
-                    band_edge_per_cm, max_intermod_order,
-                ):
-                    flag = "intermodulation"
-        flags[k] = flag
-        if flag is None:
-            sources.append(k)
-    return flags
+    if reference_per_cm is None:
+        return mains, False
+    off_ref = np.flatnonzero(np.abs(sig - reference_per_cm) >= tol)
+    if off_ref.size:
+        mains.append(int(off_ref[np.argmax(amp[off_ref])]))
+    at_reference = bool(
+        abs(sig[strongest] - reference_per_cm) < tol[strongest]
+        and (off_ref.size == 0 or np.max(amp[off_ref]) < REFERENCE_DOMINANCE * amp[strongest])
+    )
+    return mains, at_reference
 
 
 def _is_reference_ghost(k, mains, sig, tol, s_ref) -> bool:

@@ -412,12 +412,9 @@ def aliasing_check(
     spread = float(np.ptp(v) / np.median(v)) if v.size else 0.0
     peaks = [_peaks(sg, vl, snr_min, rel_min, resolution_per_cm) for sg, vl in spectra]
     used = [np.zeros(len(p), bool) for p in peaks]
-    order = sorted(
-        ((j, q) for j in range(len(peaks)) for q in range(len(peaks[j]))),
-        key=lambda jq: -peaks[jq[0]][jq[1], 2],
-    )
+    order = sorted(((j, q) for j in range(len(peaks)) for q in range(len(peaks[j]))),
+                   key=lambda jq: -peaks[jq[0]][jq[1], 2])
     lines = []
-    n_sw = len(peaks)
     for j, q in order:
         if used[j][q]:
             continue
@@ -427,22 +424,15 @@ def aliasing_check(
             hyps += [(m, st) for st in (m * fs / v[j] - c0, m * fs / v[j] + c0) if st > 0]
         status, matched = _match_hypotheses(hyps, j, q, u0, v, fs, speed_rtol, k, spectra,
                                             peaks)
-        # sweeps that can tell the line from its first-fold alias (higher folds move more)
-        tell = []
-        for kk in range(n_sw):
-            diff = fs * abs(1 / v[kk] - 1 / v[j])
-            u_tot = np.hypot(np.sqrt(2) * u0, fs * speed_rtol * np.hypot(1 / v[j], 1 / v[kk]))
-            tell.append(kk != j and diff > k * u_tot)
+        tell = _sweeps_that_tell(j, u0, v, fs, speed_rtol, k)
         verdict, why, pick = _alias_verdict(hyps, status, matched, tell, j, c0, u0, v, fs,
                                             speed_rtol, k, spread, peaks)
         fold, tsig = hyps[pick] if pick else (0, float("nan"))
         for kk, bb in enumerate(matched[pick]):
             if bb >= 0:
                 used[kk][bb] = True
-        centres = tuple(
-            float(peaks[kk][bb, 0]) if bb >= 0 else float("nan")
-            for kk, bb in enumerate(matched[pick])
-        )
+        centres = tuple(float(peaks[kk][bb, 0]) if bb >= 0 else float("nan")
+                        for kk, bb in enumerate(matched[pick]))
         lines.append(
             LineVerdict(float(c0), float(u0), int(j), verdict, why, float(tsig), int(fold), centres)
         )
@@ -453,6 +443,17 @@ def aliasing_check(
         f"{100 * spread:.3g} %"
     )
     return AliasCheck(tuple(lines), crit, spread)
+
+
+def _sweeps_that_tell(j: int, u0: float, v, fs: float, speed_rtol: float, k: float) -> list:
+    """Per sweep: whether it can tell a line of the seed sweep ``j`` from its first-fold alias
+    (higher folds move more): the alias would move by more than ``k`` combined uncertainties."""
+    tell = []
+    for kk in range(len(v)):
+        diff = fs * abs(1 / v[kk] - 1 / v[j])
+        u_tot = np.hypot(np.sqrt(2) * u0, fs * speed_rtol * np.hypot(1 / v[j], 1 / v[kk]))
+        tell.append(kk != j and diff > k * u_tot)
+    return tell
 
 
 def _match_hypotheses(hyps, j, q, u0, v, fs, speed_rtol, k, spectra, peaks):

@@ -235,23 +235,7 @@ def broadband_metrics(
             )
     u = [math.nan] * 4
     if noise is not None and n_mc >= 2:
-        gen = rng if isinstance(rng, np.random.Generator) else np.random.default_rng(rng)
-        draws = np.empty((n_mc, 4))
-        for k in range(n_mc):
-            yk = y + gen.standard_normal(y.size) * noise
-            try:
-                pk, cen, lo_k, hi_k = _figures(lam, yk, frac, None)[:4]
-                draws[k] = (pk, cen, 0.5 * (lo_k + hi_k), hi_k - lo_k)
-            except AnalysisError:
-                draws[k] = math.nan
-        ok = np.all(np.isfinite(draws), axis=1)
-        if ok.sum() >= 2:
-            u = list(np.std(draws[ok], axis=0, ddof=1))
-        if ok.sum() < n_mc:
-            notes.append(
-                f"{n_mc - int(ok.sum())} of {n_mc} Monte Carlo copies had no half-maximum "
-                "crossing on one side; the uncertainties use the others"
-            )
+        u = _monte_carlo(lam, y, noise, frac, n_mc, rng, notes)
     for msg in dict.fromkeys(notes) if warn else ():
         warnings.warn(msg, FtsourceWarning, stacklevel=2)
     peak, centroid, lo_h, hi_h, (b_lo, b_hi), height = vals
@@ -270,6 +254,28 @@ def broadband_metrics(
         n_monte_carlo=n_mc if noise is not None else 0,
         warnings=tuple(dict.fromkeys(notes)),
     )
+
+
+def _monte_carlo(lam, y, noise, frac: float, n_mc: int, rng, notes: list) -> list:
+    """Standard deviations of (peak, centroid, centre, FWHM) over ``n_mc`` copies of the
+    density with independent Gaussian noise added (JCGM 101 propagation of distributions);
+    copies without a half-maximum crossing are left out, with a note."""
+    gen = rng if isinstance(rng, np.random.Generator) else np.random.default_rng(rng)
+    draws = np.empty((n_mc, 4))
+    for k in range(n_mc):
+        yk = y + gen.standard_normal(y.size) * noise
+        try:
+            pk, cen, lo_k, hi_k = _figures(lam, yk, frac, None)[:4]
+            draws[k] = (pk, cen, 0.5 * (lo_k + hi_k), hi_k - lo_k)
+        except AnalysisError:
+            draws[k] = math.nan
+    ok = np.all(np.isfinite(draws), axis=1)
+    if ok.sum() < n_mc:
+        notes.append(
+            f"{n_mc - int(ok.sum())} of {n_mc} Monte Carlo copies had no half-maximum "
+            "crossing on one side; the uncertainties use the others"
+        )
+    return list(np.std(draws[ok], axis=0, ddof=1)) if ok.sum() >= 2 else [math.nan] * 4
 
 
 # --- kernels ------------------------------------------------------------------------------

@@ -425,11 +425,16 @@ def coherence_from_visibility(
     v0 = float(np.interp(x0, x, env))
     if not v0 > 0:
         return None
-    # far ends of the record are trusted only where they are the ZPD end itself
-    n = x.size
-    lo_end = 0 if x0 - x[0] < 0.5 * abs(step) else margin
-    hi_end = n if x[-1] - x0 < 0.5 * abs(step) else n - margin
+    sides = _visibility_sides(x, env, x0, v0, margin, abs(step), floor)
+    return _from_sides(sides, floor)
 
+
+def _visibility_sides(x, env, x0: float, v0: float, margin: int, step: float, floor: float):
+    """:func:`_side` on each side of ZPD (None where a side has under two samples); the far
+    ends of the record are trusted only where they are the ZPD end itself."""
+    n = x.size
+    lo_end = 0 if x0 - x[0] < 0.5 * step else margin
+    hi_end = n if x[-1] - x0 < 0.5 * step else n - margin
     sides = []
     for sign in (+1, -1):
         if sign > 0:
@@ -442,7 +447,11 @@ def coherence_from_visibility(
         dist = np.concatenate([[0.0], np.abs(x[idx] - x0)])
         v = np.concatenate([[1.0], env[idx] / v0])
         sides.append(_side(dist, v, floor))
+    return sides
 
+
+def _from_sides(sides, floor: float) -> CoherenceEstimate:
+    """The coherence length from both sides, one side doubled, or a lower bound."""
     done = [sd for sd in sides if sd is not None and sd[2]]
     halves = [sd[3] for sd in sides if sd is not None and np.isfinite(sd[3])]
     x_half = float(np.mean(halves)) if halves else float("nan")

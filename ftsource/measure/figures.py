@@ -97,7 +97,6 @@ def source_figures(spec, source_lines, sweep_spectra, interferograms, *, options
         Per-sweep fits of the main line already made (:func:`ftsource.lines.sweeps.
         sweep_line_centres`).
     """
-    from ftsource.measure.band import band_figures
     from ftsource.measure.budget import centre_budget
     from ftsource.measure.width import width_figures
 
@@ -109,29 +108,8 @@ def source_figures(spec, source_lines, sweep_spectra, interferograms, *, options
         ))
     kind, main = cls.kind, cls.main
     sig0 = main.centre_per_cm
-    notes: list[str] = []
-    centre = CentreEstimate(nm_from_per_cm(sig0), u_nm_from_per_cm(sig0, main.u_centre_per_cm),
-                            main.dof)
-    fwhm_nm, modes, band = u_nm_from_per_cm(sig0, main.fwhm_per_cm), None, None
-    if kind == "multimode" and cls.comb is None:
-        modes = revival_mode_figures(main, cls.revival_period_cm, cls.u_revival_period_cm)
-        centre = modes.centre
-        notes.append(
-            f"the modes of this multimode laser are not resolved (the resolution, "
-            f"{u_nm_from_per_cm(sig0, spec.resolution_per_cm):.3g} nm, is not finer than their "
-            f"spacing): it was recognised from the bursts that repeat every "
-            f"{cls.revival_period_cm * 10:.4g} mm of path, which give the spacing; the centre "
-            "and width are those of the modes' envelope. Scan at least 1.5 times that path "
-            "from zero path difference to resolve the modes"
-        )
-    elif kind == "multimode":
-        modes = mode_figures(cls.comb, source_lines, interferograms, sweep_spectra)
-        centre = modes.centre
-    elif kind == "broadband":
-        band = band_figures(spec, main, sweep_spectra, options.response)
-        notes += band.notes
-        centre = CentreEstimate(band.centroid_nm, band.u_centroid_nm, band.dof)
-        fwhm_nm = band.fwhm_nm
+    centre, fwhm_nm, modes, band, notes = _centre_by_kind(cls, spec, source_lines,
+                                                          sweep_spectra, interferograms, options)
     if kind != "broadband" and options.aperture_diameter_m and options.focal_length_m:
         notes.append(
             "the field-of-view (aperture) correction applies to extended sources that fill the "
@@ -201,6 +179,40 @@ def source_figures(spec, source_lines, sweep_spectra, interferograms, *, options
         notes=tuple(notes),
         **band_fields,
     )
+
+
+def _centre_by_kind(cls, spec, source_lines, sweep_spectra, interferograms, options):
+    """The centre estimate by kind of source, before its budget: the main line's (narrow), the
+    modes' (multimode, resolved or known from revivals) or the band's centroid (broadband);
+    with the FWHM so far, the mode and band figures and their notes."""
+    from ftsource.measure.band import band_figures
+
+    kind, main = cls.kind, cls.main
+    sig0 = main.centre_per_cm
+    notes: list[str] = []
+    centre = CentreEstimate(nm_from_per_cm(sig0), u_nm_from_per_cm(sig0, main.u_centre_per_cm),
+                            main.dof)
+    fwhm_nm, modes, band = u_nm_from_per_cm(sig0, main.fwhm_per_cm), None, None
+    if kind == "multimode" and cls.comb is None:
+        modes = revival_mode_figures(main, cls.revival_period_cm, cls.u_revival_period_cm)
+        centre = modes.centre
+        notes.append(
+            f"the modes of this multimode laser are not resolved (the resolution, "
+            f"{u_nm_from_per_cm(sig0, spec.resolution_per_cm):.3g} nm, is not finer than their "
+            f"spacing): it was recognised from the bursts that repeat every "
+            f"{cls.revival_period_cm * 10:.4g} mm of path, which give the spacing; the centre "
+            "and width are those of the modes' envelope. Scan at least 1.5 times that path "
+            "from zero path difference to resolve the modes"
+        )
+    elif kind == "multimode":
+        modes = mode_figures(cls.comb, source_lines, interferograms, sweep_spectra)
+        centre = modes.centre
+    elif kind == "broadband":
+        band = band_figures(spec, main, sweep_spectra, options.response)
+        notes += band.notes
+        centre = CentreEstimate(band.centroid_nm, band.u_centroid_nm, band.dof)
+        fwhm_nm = band.fwhm_nm
+    return centre, fwhm_nm, modes, band, notes
 
 
 #: What ``summary.fwhm_nm`` is, by kind of source.

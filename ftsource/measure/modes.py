@@ -137,6 +137,16 @@ def _comb_numbers(d: np.ndarray, base: float, rtol: float) -> np.ndarray | None:
     return k.astype(int)
 
 
+def _comb_steps(d: np.ndarray, rtol: float) -> np.ndarray | None:
+    """Steps in mode number between neighbouring lines, tried against the median and then the
+    smallest gap as the spacing; None when neither fits."""
+    for base in (float(np.median(d)), float(np.min(d))):
+        k = _comb_numbers(d, base, rtol)
+        if k is not None:
+            return k
+    return None
+
+
 def _comb_subset(c: np.ndarray, a: np.ndarray, d: np.ndarray, rtol: float):
     """Mask of the lines (sorted ``c``) that form the comb holding the most intensity, or None.
 
@@ -195,16 +205,15 @@ def find_mode_comb(
     the lines left off it carry at most :data:`OFF_COMB_FRACTION` of the kept intensity and
     none exceeds :data:`OFF_COMB_PEAK` of the strongest (a weak artefact does not hide a comb;
     a strong line between modes, a second source, means no comb). The lines left off are
-    returned in ``off_comb_per_cm``. With ``widths_per_cm`` (each
-    line's intrinsic FWHM, or its upper bound) a comb is reported only when every mode is at
-    least :data:`MODE_NARROWNESS` times narrower than the spacing: broad overlapping "modes"
-    are the structure of one broad line, not a laser's comb. The spacing is then the
-    least-squares slope of centre against integer mode number, with its standard uncertainty
-    from the residual scatter (``s²/Σ(m − m̄)²``, ``s²`` the residual variance on ``n − 2``
-    degrees of freedom; 0 for a perfect comb). When the centres' own standard uncertainties
-    are given, the slope's uncertainty propagated from them, ``√(Σ(m − m̄)² u_i²)/Σ(m − m̄)²``
-    (weak edge modes with large u weigh most), is used when it is the larger: a residual
-    scatter on a few degrees of freedom is a poor estimate, and it averages unequal u_i.
+    returned in ``off_comb_per_cm``. With ``widths_per_cm`` (each line's intrinsic FWHM, or its
+    upper bound) a comb needs every mode :data:`MODE_NARROWNESS` times narrower than the
+    spacing: broad overlapping "modes" are the structure of one broad line, not a comb. The
+    spacing is then the least-squares slope of centre against integer mode number, with its
+    standard uncertainty from the residual scatter (``s²/Σ(m − m̄)²``, ``s²`` the residual
+    variance on ``n − 2`` degrees of freedom; 0 for a perfect comb). When the centres' own
+    standard uncertainties are given, the slope's uncertainty propagated from them,
+    ``√(Σ(m − m̄)² u_i²)/Σ(m − m̄)²`` (weak edge modes with large u weigh most), is used when it
+    is the larger: a residual scatter on a few degrees of freedom is a poor estimate.
 
     The envelope FWHM is that of a Gaussian fitted to the intensities against wavenumber by
     weighted least squares of ``ln I`` on a parabola, with weights ``I²`` (Guo 2011), exact for
@@ -261,18 +270,11 @@ def find_mode_comb(
         return None
     off = tuple(float(v) for v in c[~on])
     c, a = c[on], a[on]
-    uc = None if uc is None else uc[on]
-    wd = None if wd is None else wd[on]
-    d = np.diff(c)
-    k = None
-    for base in (float(np.median(d)), float(np.min(d))):
-        k = _comb_numbers(d, base, rtol)
-        if k is not None:
-            break
+    uc, wd = (None if v is None else v[on] for v in (uc, wd))
+    k = _comb_steps(np.diff(c), rtol)
     if k is None:
         return None
     m = np.concatenate([[0], np.cumsum(k)])
-
     n = c.size
     slope, u_slope, resid = _spacing_fit(c, m, uc)
     centroid = float(np.sum(a * c) / np.sum(a))
@@ -463,28 +465,13 @@ def check_revivals(
     .. [2] A. E. Siegman, *Lasers*, University Science Books (1986), §11.3.
     .. [3] D. Gabor, 'Theory of communication', J. IEE 93 (1946) 429-457 (analytic signal).
     """
-    from ftsource.interferogram.zpd import interferogram_arrays
 
     P = revival_opd_cm(spacing_per_cm)
     if not (0.0 < tol < 0.5):
         raise OptionError(f"tol must lie in (0, 0.5), got {tol!r}")
     if not (np.isfinite(min_contrast) and min_contrast >= 1.0):
         raise OptionError(f"min_contrast must be a finite number >= 1, got {min_contrast!r}")
-    x, yy, step = interferogram_arrays(x_cm, y)
-    if x.size < 16:
-        raise RecordError(f"an interferogram needs at least 16 samples here, got {x.size}")
-    if step < 0:
-        x, yy = x[::-1], yy[::-1]
-    env, margin = analytic_envelope(yy)
-    if zpd_x_cm is None:
-        x0 = float(x[int(np.argmax(env))])
-    else:
-        x0 = float(zpd_x_cm)
-        if not (np.isfinite(x0) and x[0] <= x0 <= x[-1]):
-            raise OptionError(
-                f"zpd_x_cm must lie inside the record [{x[0]:.6g}, {x[-1]:.6g}] cm, got "
-                f"{zpd_x_cm!r}"
-            )
+    x, env, margin, x0 = _envelope_from_zpd(x_cm, y, zpd_x_cm)
     u, e = _longer_side(x, env, x0, margin)
     reach = float(u[-1]) if u.size else 0.0
     if reach < P:
@@ -532,6 +519,28 @@ def check_revivals(
         f"{found}; period {period:.6g} cm differs from 1/spacing = {P:.6g} cm by {rel:+.2%} "
         f"(allowed {tol:.0%})",
     )
+
+
+def _envelope_from_zpd(x_cm, y, zpd_x_cm):
+    """The record on increasing OPD, its envelope, the envelope's untrusted end margin and
+    the OPD of ZPD (given, or the envelope's maximum)."""
+    from ftsource.interferogram.zpd import interferogram_arrays
+
+    x, yy, step = interferogram_arrays(x_cm, y)
+    if x.size < 16:
+        raise RecordError(f"an interferogram needs at least 16 samples here, got {x.size}")
+    if step < 0:
+        x, yy = x[::-1], yy[::-1]
+    env, margin = analytic_envelope(yy)
+    if zpd_x_cm is None:
+        return x, env, margin, float(x[int(np.argmax(env))])
+    x0 = float(zpd_x_cm)
+    if not (np.isfinite(x0) and x[0] <= x0 <= x[-1]):
+        raise OptionError(
+            f"zpd_x_cm must lie inside the record [{x[0]:.6g}, {x[-1]:.6g}] cm, got "
+            f"{zpd_x_cm!r}"
+        )
+    return x, env, margin, x0
 
 
 def _longer_side(x, env, x0: float, margin: int):

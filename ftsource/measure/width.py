@@ -240,22 +240,6 @@ def coherence_disagreement(lc_mm, u_lc_mm, lv_mm, u_lv_mm, *, floor: float = 0.1
     )
 
 
-def _profile_coherence(fit):
-    """Coherence length (Goodman's integral) of a fitted Voigt profile, from its closed-form
-    density on a grid wide enough for the Lorentzian wings (±2000 widths; the tail beyond
-    holds < 0.04 % of the area)."""
-    from scipy.special import voigt_profile
-
-    from ftsource.measure import coherence as coh
-
-    g, lw = fit.gauss_fwhm_per_cm, fit.lorentz_fwhm_per_cm
-    w = max(fit.fwhm_per_cm, 1e-12)
-    reach = 2000 * w if lw > 0 else 8 * w
-    sig = np.linspace(-reach, reach, 400_001)
-    dens = voigt_profile(sig, g / (2 * np.sqrt(2 * np.log(2))), lw / 2)
-    return coh.coherence_from_spectrum(sig + fit.centre_per_cm, dens)
-
-
 def _decay_without_zpd(interferograms, sweep_spectra):
     """Median fringe-envelope change across a sweep (:func:`ftsource.measure.coherence.
     envelope_decay`) when no sweep holds ZPD; None when one does (or none can be measured)."""
