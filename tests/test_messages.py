@@ -9,6 +9,9 @@ flag (``--air-temperature``): the library speaks in its keyword names (``air_tem
 which the command line spells as its flags (:func:`ftsource.parameters.cli_terms`).
 Records come from the forward model in ``tests/rig_model.py``; the encoder record from
 ``ftsource.simulate`` (tested against closed forms in tests/test_simulate.py).
+
+Reference: the project's JSON schema (``ftsource/schema/result-2.json``) for the keys; no
+numerical value is checked here.
 """
 
 from __future__ import annotations

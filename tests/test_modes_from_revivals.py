@@ -12,6 +12,10 @@ distortion and quantisation, 15 % mirror-speed wobble). Truths (closed forms):
 * mode spacing in wavelength Δλ = 10⁷·Δσ/σ₀² nm, cavity optical length n_g·L = 1/(2Δσ), free
   spectral range Δν = c·Δσ (c = 299 792 458 m/s exact);
 * the envelope's FWHM is that of the Gaussian of the amplitudes, F spacings.
+
+Source: A. E. Siegman, *Lasers*, University Science Books (1986), §11.3 (axial modes spaced by
+c/(2 n_g L)); M. Born and E. Wolf, *Principles of Optics*, 7th ed. (1999), §7.5.8 (visibility
+of fringes of several spectral components).
 """
 
 from __future__ import annotations

@@ -9,6 +9,9 @@ harmonic distortion and quantisation). Truths:
   weaker than ZPD — the visibility is largest at ZPD (Wiener–Khinchin: |γ(x)| ≤ γ(0));
 * the trajectory is given in closed form (breakpoints joined by straight lines, corners
   rounded), so the path from ZPD (x = 0) to each sweep's far end is known.
+
+Source: J. W. Goodman, *Statistical Optics*, Wiley (1985), §5.2 (|γ(x)| ≤ γ(0) for the complex
+degree of coherence); A. E. Siegman, *Lasers* (1986), §11.3 (mode spacing).
 """
 
 from __future__ import annotations

@@ -4,6 +4,9 @@ Debian's Chromium, headless, driven by subprocess (flags from the machine notes:
 root, no GPU, no network: every host name resolves to nothing). A missing browser FAILS this
 test (it is installed by `.ci/run`; install it with
 `apt-get install -y --no-install-recommends chromium`): it is never skipped.
+
+Reference: the W3C Content Security Policy Level 3 (``script-src``) that the page declares;
+the check is behavioural (no numerical value).
 """
 
 from __future__ import annotations
