@@ -214,10 +214,31 @@ def process_pool(workers: int):
     """A process pool of ``workers`` fresh interpreters, each set up by :func:`init_worker`
     (one BLAS/OpenMP thread each, Ctrl-C ignored)."""
     import multiprocessing
+    import signal
+    import threading
     from concurrent.futures import ProcessPoolExecutor
 
-    return ProcessPoolExecutor(max_workers=workers, initializer=init_worker,
-                               mp_context=multiprocessing.get_context("spawn"))
+    ex = ProcessPoolExecutor(max_workers=workers, initializer=init_worker,
+                             mp_context=multiprocessing.get_context("spawn"))
+    if threading.current_thread() is not threading.main_thread():
+        return ex  # only the main thread may change signal handlers
+    # Start every worker now with Ctrl-C ignored: a process inherits an ignored SIGINT
+    # through exec (POSIX), so a Ctrl-C while a worker is still starting, before its
+    # initializer runs, cannot kill it and break the pool (the records in flight would then
+    # fail instead of being finished and written). The pool spawns one worker per task
+    # submitted while none is idle.
+    old = signal.signal(signal.SIGINT, signal.SIG_IGN)
+    try:
+        for _ in range(workers):
+            ex.submit(_started)
+    finally:
+        signal.signal(signal.SIGINT, old)
+    return ex
+
+
+def _started() -> bool:
+    """A task that does nothing: it makes the pool start a worker."""
+    return True
 
 
 def ignore_interrupts() -> None:

@@ -179,11 +179,18 @@ def test_ctrl_c_keeps_completed_records_and_leaves_no_temporary_file(tmp_path):
     _records(folder, 8, duration_s=4.0)
     out_dir = tmp_path / "out"
     env = dict(os.environ, PYTHONPATH=str(ROOT))
-    proc = subprocess.Popen(
-        [sys.executable, "-m", "ftsource", "batch", str(folder), "--out", str(out_dir),
-         "--workers", "2", *REF],
-        stdout=subprocess.PIPE, stderr=subprocess.PIPE, env=env, start_new_session=True,
-    )
+    # A process started in the background by a non-interactive shell (a CI script's `cmd &`)
+    # has Ctrl-C ignored, and children inherit an ignored signal through exec: start the batch
+    # with Ctrl-C handled, as from a terminal (a handled signal is reset to the default on exec)
+    old = signal.signal(signal.SIGINT, signal.default_int_handler)
+    try:
+        proc = subprocess.Popen(
+            [sys.executable, "-m", "ftsource", "batch", str(folder), "--out", str(out_dir),
+             "--workers", "2", *REF],
+            stdout=subprocess.PIPE, stderr=subprocess.PIPE, env=env, start_new_session=True,
+        )
+    finally:
+        signal.signal(signal.SIGINT, old)
     deadline = time.monotonic() + 300
     while not any(out_dir.glob("rec*/spectrum.ecsv")) and time.monotonic() < deadline:
         if proc.poll() is not None:
@@ -191,8 +198,8 @@ def test_ctrl_c_keeps_completed_records_and_leaves_no_temporary_file(tmp_path):
         time.sleep(0.05)
     assert proc.poll() is None, "the batch ended before it could be interrupted"
     os.killpg(proc.pid, signal.SIGINT)  # what Ctrl-C in a terminal does: the whole group
-    _, err = proc.communicate(timeout=300)
-    assert proc.returncode == 130
+    out, err = proc.communicate(timeout=300)
+    assert proc.returncode == 130, (out + err).decode()[-3000:]
     assert err.decode().strip().splitlines()[-1] == "error: interrupted"
     assert "Traceback" not in err.decode()
     files = tree(out_dir)

@@ -65,11 +65,18 @@ class PeriodicError:
     def __call__(self, phi: np.ndarray) -> np.ndarray:
         """The error at the wrapped phases ``phi`` (rad)."""
         phi = np.asarray(phi, float)
-        out = np.zeros_like(phi)
-        for k, (c, s) in enumerate(zip(self.cos_k, self.sin_k, strict=True), start=1):
-            if c or s:
-                out += c * np.cos(k * phi) + s * np.sin(k * phi)
-        return out
+        if not self.cos_k:
+            return np.zeros_like(phi)
+        # Σ_k Re((c_k − i s_k)·z^k) with z = e^{iφ}, by Horner's rule: two trigonometric
+        # functions per sample instead of two per harmonic
+        z = np.cos(phi) + 1j * np.sin(phi)
+        coef = [complex(c, -s) for c, s in zip(self.cos_k, self.sin_k, strict=True)]
+        acc = np.full(phi.shape, coef[-1], dtype=complex)
+        for a in coef[-2::-1]:
+            acc *= z
+            acc += a
+        acc *= z
+        return acc.real.copy()
 
 
 _NONE = PeriodicError((), (), 0.0)

@@ -185,24 +185,31 @@ def uniform_step_cm(x_cm: np.ndarray, *, rtol: float = 1e-6) -> float:
     return float(step)
 
 
-def analytic_envelope(y: np.ndarray) -> np.ndarray:
-    """|y + i·H(y)|, the envelope of the analytic signal (the same as
-    ``abs(scipy.signal.hilbert(y))``), from two real FFTs: the Hilbert transform H(y) is the
-    inverse real FFT of −i·sign(σ)·Y with the DC and Nyquist terms set to zero.
+def analytic_envelope(y: np.ndarray, *, pad: bool = True) -> np.ndarray:
+    """|y + i·H(y)|, the envelope of the analytic signal, from two real FFTs: the Hilbert
+    transform H(y) is the inverse real FFT of −i·sign(σ)·Y with the DC and Nyquist terms set
+    to zero.
+
+    With ``pad=False`` this is ``abs(scipy.signal.hilbert(y))`` (the record taken as one
+    period). With ``pad`` (the default) ``y`` is zero-filled to the next length the FFT handles
+    fast (``scipy.fft.next_fast_len``; an awkward length, such as a large prime factor, is up
+    to 10× slower): the envelope then differs only within a few fringes of the record's ends,
+    where a periodic wrap is no better.
 
     References
     ----------
     .. [1] D. Gabor, 'Theory of communication', J. IEE 93 (1946) 429-457 (analytic signal).
     """
-    from scipy.fft import irfft, rfft
+    from scipy.fft import irfft, next_fast_len, rfft
 
     n = y.size
-    spec = rfft(y)
+    m = next_fast_len(n, real=True) if pad and n else n
+    spec = rfft(y, m)
     spec *= -1j
     spec[0] = 0.0
-    if n % 2 == 0:
+    if m % 2 == 0:
         spec[-1] = 0.0
-    h = irfft(spec, n)
+    h = irfft(spec, m)[:n]
     return np.hypot(y, h, out=h)
 
 

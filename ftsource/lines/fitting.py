@@ -213,6 +213,7 @@ def fit_line(
     *,
     profile: str = "auto",
     others=None,
+    min_snr: float | None = None,
 ) -> LineFit:
     """Fit one line near ``centre_guess_per_cm``.
 
@@ -241,6 +242,10 @@ def fit_line(
         ``auto`` as above; a name forces that profile.
     others : callable, optional
         ``others(sigma)`` gives the model of other lines to subtract first.
+    min_snr : float, optional
+        A peak whose first (Gaussian) fit stands below this signal-to-noise ratio is not
+        examined further (no other profiles, no pair test): the caller will not take it as a
+        line. :func:`find_lines` passes half its detection threshold.
 
     Returns
     -------
@@ -261,14 +266,24 @@ def fit_line(
     win = _window(spec, centre_guess_per_cm, others)
     ils = win.ils
     first = "gaussian" if profile in ("auto", "gaussian") else profile
-    results = {first: _run_profile(win, first)}
+    # a candidate whose height collapses far below the noise is not a line: its fit is given
+    # up (a ripple or a smooth residual makes the solver crawl to zero height for hundreds of
+    # steps)
+    give_up = None if min_snr is None else 0.25 * min_snr * float(spec.noise[win.i0])
+    results = {first: _run_profile(win, first, give_up_below=give_up)}
     cov, dof = _covariance(results[first][0], win)
     w, uw, g, lw = _widths(first, results[first][0].x, cov)
     resolved = bool(w >= RESOLVED_FACTOR * ils and w > 3 * uw)
     sel = _Selection(first, results[first][0], cov, dof, float(results[first][0].x[1]),
                      float(np.sqrt(max(cov[1, 1], 0.0))), w, uw, g, lw, {first: 1.0},
                      {first: (float(g), float(lw), float(uw))})
-    if profile == "auto" and resolved:
+    examine = profile == "auto"
+    if examine and min_snr is not None:
+        first_peak = float(sel.res.x[0] * spec.line_shape.kernel(np.zeros(1), g, lw)[0]
+                           / win.k00)
+        noise0 = float(spec.noise[win.i0])
+        examine = noise0 <= 0 or first_peak / noise0 >= min_snr
+    if examine and resolved:
         for prof in ("lorentzian", "voigt"):
             results[prof] = _run_profile(win, prof)
         sel = _select_profile(win, results)
@@ -276,7 +291,7 @@ def fit_line(
     claimed = _claimed_profile(sel, resolved and elements >= MIN_ELEMENTS_FOR_PROFILE,
                                forced=profile != "auto")
     pair, pair_lines = False, ()
-    if profile == "auto" and (resolved and elements < PAIR_ELEMENTS
+    if examine and (resolved and elements < PAIR_ELEMENTS
                               or not resolved and sel.fwhm > 0.5 * ils):
         aic_pair, pp = _run_pair(win, sel.centre, sel.fwhm)
         results["pair"] = (None, aic_pair)
@@ -379,8 +394,11 @@ def _window(spec: Spectrum, centre_guess_per_cm: float, others) -> _Window:
     )
 
 
-def _run_profile(win: _Window, prof: str):
-    """Least-squares fit of profile ``prof`` on the window: ``(result, AIC)``."""
+def _run_profile(win: _Window, prof: str, *, give_up_below: float | None = None):
+    """Least-squares fit of profile ``prof`` on the window: ``(result, AIC)``.
+
+    With ``give_up_below`` the solver stops (``success`` False) once the height has stayed
+    below that value after 10 iterations."""
     from scipy.optimize import least_squares
 
     ev, k00, y, wts, ils = win.ev, win.k00, win.y, win.wts, win.ils
@@ -415,9 +433,14 @@ def _run_profile(win: _Window, prof: str):
 
     # trial steps to large negative (signed) widths overflow the growing envelope; the
     # solver rejects their non-finite cost, so numpy's overflow warnings are noise here
+    def give_up(intermediate_result):
+        if intermediate_result.nit >= 10 and abs(intermediate_result.x[0]) < give_up_below:
+            raise StopIteration
+
     with np.errstate(over="ignore", invalid="ignore"):
         res = least_squares(fun, p0, jac=jac, x_scale=np.array(scale), method="trf",
-                            max_nfev=100 * len(p0))
+                            max_nfev=100 * len(p0),
+                            callback=None if give_up_below is None else give_up)
     return res, win.aic(float(np.sum(res.fun**2)), res.x.size)
 
 
@@ -558,7 +581,7 @@ def _reach(fit: LineFit) -> float:
     return 12 * max(fit.instrument_fwhm_per_cm, fit.fwhm_per_cm)
 
 
-def line_model(spec: Spectrum, fits: list[LineFit]):
+def line_model(spec: Spectrum, fits: list[LineFit], *, memo: dict | None = None):
     """Callable model of a set of fitted lines (without baselines).
 
     Within :func:`_reach` of its centre a line is its profile convolved with the line shape;
@@ -566,6 +589,9 @@ def line_model(spec: Spectrum, fits: list[LineFit]):
     (scipy.special.voigt_profile; there the instrument line shape, of unit area and far
     narrower than the distance, no longer changes the profile), so slowly falling Lorentzian
     wings are not left behind to be found as lines.
+
+    ``memo``, a dict the caller owns, keeps each line's model on the spectrum's own axis
+    (:func:`find_lines` asks for the model of the same lines again and again as it adds lines).
     """
     from scipy.special import voigt_profile
 
@@ -573,21 +599,34 @@ def line_model(spec: Spectrum, fits: list[LineFit]):
     k00 = shape.kernel(np.zeros(1))[0]
     to_sigma = 1.0 / (2.0 * np.sqrt(2.0 * np.log(2.0)))
 
+    def one(lf, sig):
+        """(indices within reach, the model there, the far wings on all of sig or None)."""
+        d = sig - lf.centre_per_cm
+        near = np.flatnonzero(np.abs(d) < _reach(lf))
+        vals = lf.height * shape.kernel(d[near], lf.gauss_fwhm_per_cm,
+                                        lf.lorentz_fwhm_per_cm) / k00
+        far = None
+        if lf.lorentz_fwhm_per_cm > 0:
+            far = lf.area * voigt_profile(d, lf.gauss_fwhm_per_cm * to_sigma,
+                                          lf.lorentz_fwhm_per_cm / 2)
+            far[near] = 0.0
+        return near, vals, far
+
     def f(sig):
         out = np.zeros_like(sig)
+        own_axis = memo is not None and sig is spec.sigma_per_cm
         for lf in fits:
             if not lf.success:
                 continue
-            d = sig - lf.centre_per_cm
-            m = np.abs(d) < _reach(lf)
-            out[m] += lf.height * shape.kernel(
-                d[m], lf.gauss_fwhm_per_cm, lf.lorentz_fwhm_per_cm
-            ) / k00
-            if lf.lorentz_fwhm_per_cm > 0:
-                far = ~m
-                out[far] += lf.area * voigt_profile(
-                    d[far], lf.gauss_fwhm_per_cm * to_sigma, lf.lorentz_fwhm_per_cm / 2
-                )
+            hit = memo.get(id(lf)) if own_axis else None
+            if hit is None or hit[0] is not lf:
+                hit = (lf, *one(lf, sig))
+                if own_axis:
+                    memo[id(lf)] = hit  # the fit is kept in the entry, so its id stays its own
+            _, near, vals, far = hit
+            out[near] += vals
+            if far is not None:
+                out += far
         return out
 
     return f
@@ -685,6 +724,16 @@ def two_lines_gain(spec: Spectrum, host: LineFit, extra: LineFit, *, others=None
     def two(p):
         return one(p) + p[5] * ev(p[6], p[7], 0.0) / k00
 
+    def jac_one(p):  # exact derivatives from the evaluator: no finite differences
+        k, dc, dq, dl = ev(p[1], p[3], p[4], derivatives=True)
+        cols = [k / k00, p[0] * dc / k00, np.ones_like(k), p[0] * dq / k00, p[0] * dl / k00]
+        return np.column_stack(cols) * wts[:, None]
+
+    def jac_two(p):
+        k, dc, dq, _ = ev(p[6], p[7], 0.0, derivatives=True)
+        extra = np.column_stack([k / k00, p[5] * dc / k00, p[5] * dq / k00]) * wts[:, None]
+        return np.hstack([jac_one(p), extra])
+
     q0 = max(host.gauss_fwhm_per_cm, 0.0) ** 2
     p1 = [host.height, host.centre_per_cm, 0.0, q0, max(host.lorentz_fwhm_per_cm, 0.0)]
     s1 = [hs, ils, hs, ils**2, ils]
@@ -692,14 +741,14 @@ def two_lines_gain(spec: Spectrum, host: LineFit, extra: LineFit, *, others=None
     p2 = p1 + [max(extra.height, 0.0), extra.centre_per_cm, q2]
     s2 = s1 + [hs, ils, ils**2]
     with np.errstate(over="ignore", invalid="ignore"):
-        r1 = least_squares(lambda p: (one(p) - y) * wts, p1, x_scale=np.array(s1),
-                           method="trf", max_nfev=400)
+        r1 = least_squares(lambda p: (one(p) - y) * wts, p1, jac=jac_one,
+                           x_scale=np.array(s1), method="trf", max_nfev=400)
         # two starts (the lines as found; the single profile plus the second line): the pair
         # contains the single profile, so it must fit at least as well
         rss2 = np.inf
         for start in (p2, list(r1.x) + p2[5:]):
-            r2 = least_squares(lambda p: (two(p) - y) * wts, start, x_scale=np.array(s2),
-                               method="trf", max_nfev=600)
+            r2 = least_squares(lambda p: (two(p) - y) * wts, start, jac=jac_two,
+                               x_scale=np.array(s2), method="trf", max_nfev=600)
             rss2 = min(rss2, float(np.sum(r2.fun**2)))
     rss1 = float(np.sum(r1.fun**2))
     if not (np.isfinite(rss1) and np.isfinite(rss2)):
@@ -729,14 +778,16 @@ def find_lines(
     # Near a fitted line the floor is its fit residual, not the white noise: a strong line
     # carries sidebands from mirror-speed and sampling errors that must not become "lines".
     floor2 = spec.noise**2
+    memo: dict = {}  # each line's model on the axis, made once
     for _ in range(max_lines):
-        model = line_model(spec, fits)
+        model = line_model(spec, fits, memo=memo)
         resid = spec.density - model(sig)
         score = np.where(inband, resid / np.sqrt(floor2), -np.inf)
         i0 = int(np.argmax(score))
         if score[i0] < snr_threshold:
             break
-        fit = fit_line(spec, sig[i0], profile=profile, others=model if fits else None)
+        fit = fit_line(spec, sig[i0], profile=profile, others=model if fits else None,
+                       min_snr=0.5 * snr_threshold)
         near = np.abs(sig - fit.centre_per_cm) < max(fit.instrument_fwhm_per_cm, fit.fwhm_per_cm)
         peak = float(resid[near].max()) if near.any() else float(resid[i0])
         plausible = (
@@ -762,7 +813,7 @@ def find_lines(
         fits.append(fit)
         win = _fit_window(spec, int(np.argmin(np.abs(sig - fit.centre_per_cm))),
                           2 * max(fit.instrument_fwhm_per_cm, fit.fwhm_per_cm))
-        r = (spec.density - line_model(spec, fits)(sig))[win]
+        r = (spec.density - line_model(spec, fits, memo=memo)(sig))[win]
         floor2[win] = np.maximum(floor2[win], np.median(r**2))
         # beyond the fitted model's reach, the line's far sidelobes (2× their envelope)
         far = inband & (np.abs(sig - fit.centre_per_cm) > _reach(fit))
@@ -783,7 +834,7 @@ def find_lines(
         host = _host(fit, rest)
         if host is None:
             continue
-        others = line_model(spec, [f for f in rest if f is not host])
+        others = line_model(spec, [f for f in rest if f is not host], memo=memo)
         # a weak feature far broader than the line it sits under is a pedestal (the line's
         # profile or baseline not quite right), not a second line
         pedestal = (fit.peak < 0.1 * host.peak and fit.fwhm_per_cm

@@ -36,13 +36,12 @@ TABLE_LIMIT = 1 << 21
 
 def _gauss_legendre_01(n: int, cache: dict):
     """Gauss–Legendre nodes and weights on [0, 1], memoised in ``cache`` (n rounded up to a
-    multiple of 32 so a handful of rules serve every call)."""
+    multiple of 32 so a handful of rules serve every call; the rules on [−1, 1] come from
+    :func:`_legendre`'s table, shared by every line shape)."""
     n = 32 * ((n + 31) // 32)
     rule = cache.get(n)
     if rule is None:
-        from scipy.special import roots_legendre
-
-        t, w = roots_legendre(n)
+        t, w = _legendre(n)
         rule = cache[n] = (0.5 * (t + 1.0), 0.5 * w)
     return rule
 
@@ -78,7 +77,7 @@ class LineShape:
     L_cm: tuple[float, ...]
     weights: tuple[float, ...]
     kind: str = "real"
-    _rules: dict = field(default_factory=dict, compare=False, repr=False)
+    _rules: dict = field(default_factory=dict, compare=False, repr=False, init=False)
 
     def kernel(
         self, delta_per_cm: np.ndarray, gauss_fwhm: float = 0.0, lorentz_fwhm: float = 0.0
@@ -253,8 +252,12 @@ class LineShape:
 
     @property
     def fwhm_per_cm(self) -> float:
-        """FWHM of the instrument line shape itself (a monochromatic line), cm⁻¹."""
-        return _kernel_fwhm(self, 0.0, 0.0)
+        """FWHM of the instrument line shape itself (a monochromatic line), cm⁻¹ (worked out
+        once per line shape: every line fit asks for it)."""
+        fw = self._rules.get("fwhm")
+        if fw is None:
+            fw = self._rules["fwhm"] = _kernel_fwhm(self, 0.0, 0.0)
+        return fw
 
     @property
     def max_opd_cm(self) -> float:
@@ -299,21 +302,36 @@ class KernelEvaluator:
             groups[key] = groups.get(key, 0.0) + w
         self._groups = []
         for L, w in groups.items():
-            panels = []
+            xs, bases, los, starts = [], [], [], []
             edges = [L / 2**k for k in range(_N_PANELS)] + [0.0]
             for hi, lo in zip(edges[:-1], edges[1:], strict=True):
                 n = _PANEL_NODES + int(np.ceil(1.5 * np.pi * self._dmax * (hi - lo)))
                 t, wt = _legendre(n)
                 x = lo + (hi - lo) * 0.5 * (t + 1.0)
-                base = apo(x / L) * wt * 0.5 * (hi - lo) * 2.0  # ∫₀ᴸ … dx, K of unit area
-                panels.append([lo, x, base, None])
-            self._groups.append((L, w, panels))
+                starts.append(sum(a.size for a in xs))
+                xs.append(x)
+                bases.append(apo(x / L) * wt * 0.5 * (hi - lo) * 2.0)  # ∫₀ᴸ … dx, unit area
+                los.append(lo)
+            # the panels' nodes side by side, the outermost panel first: the panels a decaying
+            # envelope skips are then a leading block of columns
+            x = np.concatenate(xs)
+            factors = np.column_stack([np.ones_like(x), 2 * np.pi * x, x * x, -np.pi * x])
+            self._groups.append(_PanelGroup(w, x, np.concatenate(bases), np.array(los),
+                                            np.array(starts), factors))
 
-    def _mats(self, panel):
-        if panel[3] is None:
-            ph = 2 * np.pi * np.outer(self._sp, panel[1])
-            panel[3] = (np.cos(ph), np.sin(ph))
-        return panel[3]
+    def _mats(self, g: _PanelGroup, start: int):
+        """The tables ``cos/sin 2πσ'x`` of the group's nodes from column ``start`` on, built
+        when first needed (a broad line's fits never need the outer panels)."""
+        if g.cos is None:
+            g.cos = np.empty((self._sp.size, g.x.size))
+            g.sin = np.empty((self._sp.size, g.x.size))
+            g.built = g.x.size
+        if start < g.built:
+            ph = 2 * np.pi * np.outer(self._sp, g.x[start : g.built])
+            g.cos[:, start : g.built] = np.cos(ph)
+            g.sin[:, start : g.built] = np.sin(ph)
+            g.built = start
+        return g.cos[:, start:], g.sin[:, start:]
 
     def __call__(self, centre: float, q_gauss: float, l_lorentz: float, *, derivatives=False):
         """``K(σ − centre)`` with signed widths as in :meth:`LineShape.kernel_signed`; with
@@ -333,50 +351,62 @@ class KernelEvaluator:
         return hit if derivatives else hit[0]
 
     def _evaluate(self, centre: float, q_gauss: float, l_lorentz: float):
-        """``(K, ∂K/∂centre, ∂K/∂q, ∂K/∂l)``, read-only (they are shared by the memo)."""
+        """``(K, ∂K/∂centre, ∂K/∂q, ∂K/∂l)``, read-only (they are shared by the memo).
+
+        All panels of a span are summed by two matrix products (the Python work does not grow
+        with the number of panels). Outer panels where the trial envelope is below 1e-15 over
+        the whole panel are left out.
+        """
         c = float(centre) - self.ref
-        n = self._sp.size
-        out = np.zeros(n)
-        dc = np.zeros(n)
-        dq = np.zeros(n)
-        dl = np.zeros(n)
+        acc = np.zeros((self._sp.size, 4))  # K and its three derivatives, by column
         gq = -(np.pi**2) / (4 * _LN2)
-        for _L, w, panels in self._groups:
-            k = np.zeros(n)
-            kc = np.zeros(n)
-            kq = np.zeros(n)
-            kl = np.zeros(n)
-            for panel in panels:
-                lo, x, base, _ = panel
-                expo = gq * q_gauss * lo * lo - np.pi * l_lorentz * lo
-                if expo < -35.0:  # the envelope is below 1e-15 over the whole panel
-                    continue
-                with np.errstate(over="ignore"):
-                    env = np.exp(gq * q_gauss * x * x - np.pi * l_lorentz * x)
-                f = base * env
-                cs, sn = np.cos(2 * np.pi * c * x), np.sin(2 * np.pi * c * x)
-                C, S = self._mats(panel)
-                # the four sums as two matrix products: C and S are read once, not four times
-                # (they are large: points × nodes; reading them is the cost)
-                fx = 2 * np.pi * x * f
-                fq = gq * x * x * f
-                fl = -np.pi * x * f
-                r = C @ np.stack([f * cs, -fx * sn, fq * cs, fl * cs], axis=1)
-                r += S @ np.stack([f * sn, fx * cs, fq * sn, fl * sn], axis=1)
-                k += r[:, 0]
-                kc += r[:, 1]
-                kq += r[:, 2]
-                kl += r[:, 3]
-            if self.shape.kind == "magnitude":
-                sgn = np.sign(k)
-                k, kc, kq, kl = np.abs(k), sgn * kc, sgn * kq, sgn * kl
-            out += w * k
-            dc += w * kc
-            dq += w * kq
-            dl += w * kl
-        for a in (out, dc, dq, dl):
-            a.flags.writeable = False
-        return out, dc, dq, dl
+        for g in self._groups:
+            expo = gq * q_gauss * g.lo * g.lo - np.pi * l_lorentz * g.lo
+            live = np.flatnonzero(expo >= -35.0)
+            if not live.size:
+                continue
+            start = int(g.starts[live[0]])
+            x, p = g.x[start:], g.factors[start:]
+            with np.errstate(over="ignore"):
+                f = g.base[start:] * np.exp((gq * q_gauss) * p[:, 2] - (np.pi * l_lorentz) * x)
+            arg = (2 * np.pi * c) * x
+            fc, fs = f * np.cos(arg), f * np.sin(arg)
+            C, S = self._mats(g, start)
+            # the four sums as two matrix products: C and S are read once, not four times
+            # (they are large: points × nodes; reading them is the cost). Columns: K, ∂/∂c,
+            # ∂/∂q, ∂/∂l, from f·cos and f·sin times (1, 2πx, x², −πx) (gq applied below).
+            a = fc[:, None] * p
+            a[:, 1] = -fs * p[:, 1]
+            b = fs[:, None] * p
+            b[:, 1] = fc * p[:, 1]
+            r = C @ a
+            r += S @ b
+            r[:, 2] *= gq
+            if self.shape.kind == "magnitude":  # |K| and its derivatives
+                r *= np.sign(r[:, :1])
+            r *= g.weight
+            acc += r
+        acc.flags.writeable = False
+        return acc[:, 0], acc[:, 1], acc[:, 2], acc[:, 3]
+
+
+@dataclass(eq=False)
+class _PanelGroup:
+    """The quadrature of one sweep span for :class:`KernelEvaluator`: nodes, apodization ×
+    Gauss–Legendre weights, each panel's lower end and first column, the nodes' derivative
+    factors and the lazily built trigonometric tables (columns from ``built`` on are
+    filled)."""
+
+    weight: float
+    x: np.ndarray
+    base: np.ndarray
+    lo: np.ndarray
+    starts: np.ndarray
+    #: per node: 1, 2πx, x², −πx (the factors of the kernel's derivatives)
+    factors: np.ndarray
+    cos: np.ndarray | None = None
+    sin: np.ndarray | None = None
+    built: int = 0
 
 
 def _kernel_fwhm(shape: LineShape, g: float, lor: float) -> float:
