@@ -18,20 +18,11 @@ machine the CPU ratio is the one to read.
 from __future__ import annotations
 
 import argparse
-import sys
 import time
-from pathlib import Path
 
+import _paths  # noqa: F401  (the tests' forward model; the checkout's ftsource)
 import numpy as np
-
-ROOT = Path(__file__).resolve().parent.parent
-sys.path.insert(0, str(ROOT / "tests"))
-try:  # run from a source checkout without installing
-    import ftsource  # noqa: F401
-except ImportError:  # pragma: no cover
-    sys.path.insert(0, str(ROOT))
-
-import rig_model as rm  # noqa: E402
+import rig_model as rm
 
 FS = 400e3
 CENTRE_NM = 650.0

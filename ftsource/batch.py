@@ -250,7 +250,9 @@ def ignore_interrupts() -> None:
 
 
 def _one_line(exc) -> str:
-    return " ".join(str(exc).split()) or type(exc).__name__
+    from ftsource._checks import one_line
+
+    return one_line(exc) or type(exc).__name__
 
 
 class _Progress:

@@ -1,4 +1,4 @@
-"""Helpers shared by the command-line tests (test_cli.py, test_errors.py).
+"""Helpers shared by the command-line tests (test_cli.py, test_errors.py, test_messages.py).
 
 Reference: docs/contract.md (exit statuses, the one-line ``error: ...`` rule); the helpers
 hold no numerical value of their own.
@@ -38,3 +38,14 @@ def tree(folder: Path) -> dict[str, bytes]:
             p = Path(root, f)
             out[str(p.relative_to(folder))] = p.read_bytes()
     return out
+
+
+def nested_dicts(o):
+    """Every dict inside a JSON value (a parsed result or schema), depth first."""
+    if isinstance(o, dict):
+        yield o
+        for v in o.values():
+            yield from nested_dicts(v)
+    elif isinstance(o, list):
+        for v in o:
+            yield from nested_dicts(v)

@@ -25,7 +25,7 @@ from pathlib import Path
 
 import numpy as np
 import pytest
-from cli_helpers import assert_clean_error, run, tree
+from cli_helpers import assert_clean_error, nested_dicts, run, tree
 
 import ftsource
 from ftsource import simulate as sim
@@ -372,18 +372,7 @@ def test_same_input_same_bytes(capsys, record_file, tmp_path):
     # no timestamps: no date or clock time anywhere in the result (common practice)
     assert not re.search(r"\b(19|20)\d\d-\d\d-\d\d", text)
     assert not re.search(r"\b\d\d:\d\d:\d\d\b", text)
-    keys = set()
-
-    def walk(o):
-        if isinstance(o, dict):
-            keys.update(o)
-            for v in o.values():
-                walk(v)
-        elif isinstance(o, list):
-            for v in o:
-                walk(v)
-
-    walk(json.loads(text))
+    keys = {k for d in nested_dicts(json.loads(text)) for k in d}
     assert not {k for k in keys if re.search(r"date|time(stamp)?$|created|when", k)} - {
         "time"}, keys
 

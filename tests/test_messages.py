@@ -22,6 +22,7 @@ import re
 import numpy as np
 import pytest
 import rig_model as rm
+from cli_helpers import nested_dicts
 
 from ftsource import simulate as S
 from ftsource.analysis import AnalysisOptions, analyze
@@ -37,21 +38,8 @@ def _json_keys() -> set[str]:
     import importlib.resources
 
     text = (importlib.resources.files("ftsource") / "schema" / "result-2.json").read_text("utf-8")
-    schema = json.loads(text)
-    keys: set[str] = set()
-
-    def walk(o):
-        if isinstance(o, dict):
-            props = o.get("properties")
-            if isinstance(props, dict):
-                keys.update(props)
-            for v in o.values():
-                walk(v)
-        elif isinstance(o, list):
-            for v in o:
-                walk(v)
-
-    walk(schema)
+    keys = {k for d in nested_dicts(json.loads(text))
+            if isinstance(d.get("properties"), dict) for k in d["properties"]}
     return {k for k in keys if "_" in k and k not in PARAMETERS}
 
 

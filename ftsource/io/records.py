@@ -41,7 +41,7 @@ from typing import Any
 
 import numpy as np
 
-from ftsource._checks import quote
+from ftsource._checks import one_line, quote
 from ftsource.errors import FtsourceError, OptionError, OutputError, RecordError
 
 __all__ = [
@@ -1067,8 +1067,8 @@ def _npz_metadata(arr: np.ndarray, where: str) -> dict[str, str]:
 
 
 def _one_line(exc: BaseException) -> str:
-    text = " ".join(str(exc).split()) or type(exc).__name__
-    return f"{type(exc).__name__}: {text}"[:160]
+    """A library's exception as part of a one-line message: its type and text."""
+    return one_line(f"{type(exc).__name__}: {exc}", 160)
 
 
 # ---- memory-mapped channels (npy, raw, wav) ----------------------------------------------

@@ -146,8 +146,9 @@ def _fit_window(spec: Spectrum, i0: int, half_width: float) -> slice:
     return slice(max(i0 - k, 1), min(i0 + k + 1, s.size))
 
 
-def _observed_fwhm(sig, y, i0):
-    half = y[i0] / 2
+def _observed_fwhm(sig, y, i0, base: float = 0.0):
+    """Width of the peak at ``i0`` at half its height above ``base``."""
+    half = base + (y[i0] - base) / 2 if y[i0] > base else y[i0] / 2
     lo = i0
     while lo > 0 and y[lo] > half:
         lo -= 1
@@ -266,9 +267,9 @@ def fit_line(
     win = _window(spec, centre_guess_per_cm, others)
     ils = win.ils
     first = "gaussian" if profile in ("auto", "gaussian") else profile
-    # a candidate whose height collapses far below the noise is not a line: its fit is given
-    # up (a ripple or a smooth residual makes the solver crawl to zero height for hundreds of
-    # steps)
+    # a candidate whose height collapses far below the noise (or turns negative) is not a
+    # line: its fit is given up (a ripple or a smooth residual makes the solver crawl to zero
+    # or negative height for hundreds of steps)
     give_up = None if min_snr is None else 0.25 * min_snr * float(spec.noise[win.i0])
     results = {first: _run_profile(win, first, give_up_below=give_up)}
     cov, dof = _covariance(results[first][0], win)
@@ -370,7 +371,12 @@ def _window(spec: Spectrum, centre_guess_per_cm: float, others) -> _Window:
     while 0 < i0 < sig.size - 1 and y_all[i0 - 1] > y_all[i0]:
         i0 -= 1
     ils = spec.line_shape.fwhm_per_cm
-    obs = _observed_fwhm(sig, y_all, i0)
+    # A magnitude spectrum stands on the noise's own mean (Rayleigh-distributed points are
+    # positive): half maximum is measured above that level (the spectrum's median, which the
+    # noise fills over most of the band), or a weak peak seems as wide as the noise around it.
+    base = (max(float(np.median(y_all[:: max(1, y_all.size // 65536)])), 0.0)
+            if spec.line_shape.kind == "magnitude" else 0.0)
+    obs = _observed_fwhm(sig, y_all, i0, base)
     # the main lobe of an unresolved line (first nulls near ±1.2 FWHM for the usual
     # apodizations) plus a margin; wider for resolved lines
     win = _fit_window(spec, i0, max(2.0 * ils, 2.5 * obs))
@@ -397,8 +403,8 @@ def _window(spec: Spectrum, centre_guess_per_cm: float, others) -> _Window:
 def _run_profile(win: _Window, prof: str, *, give_up_below: float | None = None):
     """Least-squares fit of profile ``prof`` on the window: ``(result, AIC)``.
 
-    With ``give_up_below`` the solver stops (``success`` False) once the height has stayed
-    below that value after 10 iterations."""
+    With ``give_up_below`` the solver stops (``success`` False) once the height is below
+    that value (or negative) after 10 iterations."""
     from scipy.optimize import least_squares
 
     ev, k00, y, wts, ils = win.ev, win.k00, win.y, win.wts, win.ils
@@ -434,7 +440,7 @@ def _run_profile(win: _Window, prof: str, *, give_up_below: float | None = None)
     # trial steps to large negative (signed) widths overflow the growing envelope; the
     # solver rejects their non-finite cost, so numpy's overflow warnings are noise here
     def give_up(intermediate_result):
-        if intermediate_result.nit >= 10 and abs(intermediate_result.x[0]) < give_up_below:
+        if intermediate_result.nit >= 10 and intermediate_result.x[0] < give_up_below:
             raise StopIteration
 
     with np.errstate(over="ignore", invalid="ignore"):

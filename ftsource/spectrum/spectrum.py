@@ -46,6 +46,17 @@ def _gauss_legendre_01(n: int, cache: dict):
     return rule
 
 
+def _integration_reach(L: float, q_gauss: float, l_lorentz: float) -> float:
+    """How far along the path (cm, at most ``L``) the line-shape integral must run: a
+    decaying envelope ends the integrand long before L for a broad line."""
+    x = L
+    if q_gauss > 0:
+        x = min(x, 3.0 / np.sqrt(q_gauss))  # exp(-(3π)²/4ln2) < 1e-13
+    if l_lorentz > 0:
+        x = min(x, 10.0 / l_lorentz)  # exp(-10π) < 1e-13
+    return x
+
+
 @functools.lru_cache(maxsize=1024)
 def _legendre(n: int) -> tuple[np.ndarray, np.ndarray]:
     """Gauss–Legendre nodes and weights on [−1, 1] (``scipy.special.roots_legendre``),
@@ -117,12 +128,7 @@ class LineShape:
         apo = get_apodization(self.apodization)
         out = np.zeros(s.shape)
         for L, w in self._groups().items():
-            # a decaying envelope ends the integrand long before L for a broad line
-            x_need = L
-            if q_gauss > 0:
-                x_need = min(x_need, 3.0 / np.sqrt(q_gauss))  # exp(-(3π)²/4ln2) < 1e-13
-            if l_lorentz > 0:
-                x_need = min(x_need, 10.0 / l_lorentz)  # exp(-10π) < 1e-13
+            x_need = _integration_reach(L, q_gauss, l_lorentz)
             x_tab = min(L, 1.5 * x_need)  # room for the widths to shrink during a fit
             n = 32 * ((64 + int(5 * x_tab * d_max) + 31) // 32)  # 25 % above 2·(2 x d_max)
             if n * s.size > TABLE_LIMIT:
@@ -180,12 +186,7 @@ class LineShape:
         d = np.abs(np.asarray(delta, dtype=float))
         out = np.zeros(d.shape)
         for L, w in self._groups().items():
-            # a decaying envelope ends the integrand long before L for a broad line
-            x_end = L
-            if q_gauss > 0:
-                x_end = min(x_end, 3.0 / np.sqrt(q_gauss))  # exp(-(3π)²/4ln2) < 1e-13
-            if lorentz_fwhm > 0:
-                x_end = min(x_end, 10.0 / lorentz_fwhm)  # exp(-10π) < 1e-13
+            x_end = _integration_reach(L, q_gauss, lorentz_fwhm)
             u = 2 * x_end * (float(d.max()) if d.size else 0.0)
             xi, wq = _gauss_legendre_01(64 + int(2 * u), self._rules)
             x = xi * x_end
