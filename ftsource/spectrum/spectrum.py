@@ -176,10 +176,41 @@ class LineShape:
 
     def noise_correlation(self, delta_per_cm: np.ndarray) -> np.ndarray:
         """Correlation between spectral points ``delta`` apart for white interferogram noise:
-        the transform of A², normalised to 1 at zero offset (Wiener–Khinchin)."""
+        the transform of A², normalised to 1 at zero offset (Wiener–Khinchin).
+
+        Offsets that are whole multiples of one step (a fit window's lags) are computed by
+        rotating ``exp(2πi·step·x)`` from one multiple to the next: one complex product per
+        node and lag instead of a cosine."""
+        d = np.abs(np.asarray(delta_per_cm, dtype=float))
+        steps = np.diff(np.unique(d))
+        step = float(steps.min()) if steps.size >= 2 else 0.0
+        if step > 0 and float(d.max()) / step <= 4 * d.size:
+            mult = np.rint(d / step).astype(int)
+            if np.allclose(mult * step, d, rtol=0.0, atol=1e-9 * step):
+                r = self._transform_multiples(step, int(mult.max()))
+                return r[mult] / r[0]
         k = self._transform(delta_per_cm, 0.0, 0.0, power=2)
         k0 = self._transform(np.zeros(1), 0.0, 0.0, power=2)[0]
         return k / k0
+
+    def _transform_multiples(self, step: float, kmax: int) -> np.ndarray:
+        """``_transform(k·step, 0, 0, power=2)`` for k = 0 … kmax, with the same nodes."""
+        apo = get_apodization(self.apodization)
+        out = np.zeros(kmax + 1)
+        for L, w in self._groups().items():
+            u = 2 * L * kmax * step
+            xi, wq = _gauss_legendre_01(64 + int(2 * u), self._rules)
+            x = xi * L
+            f = apo(x / L) ** 2 * wq * (2 * L)
+            rot = np.exp(2j * np.pi * step * x)
+            z = np.ones_like(rot)
+            vals = np.empty(kmax + 1)
+            vals[0] = f.sum()
+            for k in range(1, kmax + 1):
+                z *= rot
+                vals[k] = f @ z.real
+            out += w * vals
+        return out
 
     def _transform(self, delta, q_gauss, lorentz_fwhm, power):
         apo = get_apodization(self.apodization)
@@ -266,6 +297,9 @@ class LineShape:
         return float(np.dot(self.L_cm, self.weights))
 
 
+#: Largest growth (natural log) of a signed-width envelope along the path that
+#: :class:`KernelEvaluator` evaluates; beyond it a trial gives NaN.
+GROWTH_LIMIT = 50.0
 #: Graded panels of the fit quadrature: [L/2^(k+1), L/2^k] for k < _N_PANELS - 1, then [0, ...].
 _N_PANELS = 14
 #: Gauss–Legendre nodes per panel on top of those the oscillation needs (exact for
@@ -318,21 +352,23 @@ class KernelEvaluator:
             x = np.concatenate(xs)
             factors = np.column_stack([np.ones_like(x), 2 * np.pi * x, x * x, -np.pi * x])
             self._groups.append(_PanelGroup(w, x, np.concatenate(bases), np.array(los),
-                                            np.array(starts), factors))
+                                            np.array(starts), factors, float(x.max())))
 
     def _mats(self, g: _PanelGroup, start: int):
         """The tables ``cos/sin 2πσ'x`` of the group's nodes from column ``start`` on, built
         when first needed (a broad line's fits never need the outer panels)."""
         if g.cos is None:
-            g.cos = np.empty((self._sp.size, g.x.size))
-            g.sin = np.empty((self._sp.size, g.x.size))
+            # stored node by node (the transpose), so the nodes built together are one
+            # contiguous block of memory and the unbuilt ones are never touched
+            g.cos = np.empty((g.x.size, self._sp.size))
+            g.sin = np.empty((g.x.size, self._sp.size))
             g.built = g.x.size
         if start < g.built:
-            ph = 2 * np.pi * np.outer(self._sp, g.x[start : g.built])
-            g.cos[:, start : g.built] = np.cos(ph)
-            g.sin[:, start : g.built] = np.sin(ph)
+            ph = 2 * np.pi * np.outer(g.x[start : g.built], self._sp)
+            np.cos(ph, out=g.cos[start : g.built])
+            np.sin(ph, out=g.sin[start : g.built])
             g.built = start
-        return g.cos[:, start:], g.sin[:, start:]
+        return g.cos[start:].T, g.sin[start:].T
 
     def __call__(self, centre: float, q_gauss: float, l_lorentz: float, *, derivatives=False):
         """``K(σ − centre)`` with signed widths as in :meth:`LineShape.kernel_signed`; with
@@ -361,6 +397,14 @@ class KernelEvaluator:
         c = float(centre) - self.ref
         acc = np.zeros((self._sp.size, 4))  # K and its three derivatives, by column
         gq = -(np.pi**2) / (4 * _LN2)
+        x_end = max((g.reach for g in self._groups), default=0.0)
+        if gq * q_gauss * x_end**2 - np.pi * l_lorentz * x_end > GROWTH_LIMIT:
+            # a trial step to a large negative width: an envelope growing by more than
+            # e^GROWTH_LIMIT along the path is no line shape (it overflows soon after); NaN
+            # makes the solver reject the step without building every table for it
+            acc[:] = np.nan
+            acc.flags.writeable = False
+            return acc[:, 0], acc[:, 1], acc[:, 2], acc[:, 3]
         for g in self._groups:
             expo = gq * q_gauss * g.lo * g.lo - np.pi * l_lorentz * g.lo
             live = np.flatnonzero(expo >= -35.0)
@@ -405,6 +449,8 @@ class _PanelGroup:
     starts: np.ndarray
     #: per node: 1, 2πx, x², −πx (the factors of the kernel's derivatives)
     factors: np.ndarray
+    #: the largest node (cm)
+    reach: float
     cos: np.ndarray | None = None
     sin: np.ndarray | None = None
     built: int = 0
