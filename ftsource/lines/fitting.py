@@ -747,14 +747,17 @@ def two_lines_gain(spec: Spectrum, host: LineFit, extra: LineFit, *, others=None
     p2 = p1 + [max(extra.height, 0.0), extra.centre_per_cm, q2]
     s2 = s1 + [hs, ils, ils**2]
     with np.errstate(over="ignore", invalid="ignore"):
+        # the gain needs the residual sums to a relative 1e-6 (n_eff·1e-6 ≪ WING_BIC), not the
+        # solver's default 1e-8: a near-degenerate pair otherwise crawls for hundreds of steps
+        tol = {"ftol": 1e-6, "xtol": 1e-6, "gtol": 1e-6}
         r1 = least_squares(lambda p: (one(p) - y) * wts, p1, jac=jac_one,
-                           x_scale=np.array(s1), method="trf", max_nfev=400)
+                           x_scale=np.array(s1), method="trf", max_nfev=400, **tol)
         # two starts (the lines as found; the single profile plus the second line): the pair
         # contains the single profile, so it must fit at least as well
         rss2 = np.inf
         for start in (p2, list(r1.x) + p2[5:]):
             r2 = least_squares(lambda p: (two(p) - y) * wts, start, jac=jac_two,
-                               x_scale=np.array(s2), method="trf", max_nfev=600)
+                               x_scale=np.array(s2), method="trf", max_nfev=600, **tol)
             rss2 = min(rss2, float(np.sum(r2.fun**2)))
     rss1 = float(np.sum(r1.fun**2))
     if not (np.isfinite(rss1) and np.isfinite(rss2)):
