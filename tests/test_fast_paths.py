@@ -1,0 +1,126 @@
+"""The fast routes taken for speed (issue 14) give the values of the direct ones.
+
+* A Hilbert envelope computed at a fast FFT length (zero-filled) equals
+  ``abs(scipy.signal.hilbert(y))`` (scipy, a general-purpose library) for a burst inside the
+  record, and for fringes that fill the record it stays within 4/(π·distance) of their true
+  constant envelope away from the ends (the Hilbert kernel falls as 1/(π·t); the analytic
+  signal of cos θ is e^{iθ}: D. Gabor, "Theory of communication", J. IEE 93, 429–457 (1946)).
+* The visibility route's envelope of the even (mirror) extension, brought to a fast length by
+  zeros in the middle of the mirror image, equals scipy's envelope of the exact extension.
+* The envelope-decay ratio read from a sweep's two ends equals the closed form for an
+  exponentially decaying envelope: the mean of e^{−x/ℓ} over [a, a + k] is
+  ℓ/k·(e^{−a/ℓ} − e^{−(a+k)/ℓ}) (elementary integral).
+* The noise correlation at whole multiples of a lag step (complex rotation) equals the cosine
+  quadrature it replaces, for several apodizations and mixed sweep spans.
+* The line-shape evaluator (panels summed together) equals ``LineShape.kernel_signed`` and its
+  derivatives equal central differences of it, for narrow, broad and signed widths.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+from scipy.signal import hilbert
+
+from ftsource.interferogram.zpd import analytic_envelope
+from ftsource.measure import coherence as C
+from ftsource.spectrum.spectrum import LineShape
+
+PRIME = 131071  # a sweep length with a large prime factor: the slow case for an FFT
+
+
+@pytest.mark.parametrize("seed", (0, 1, 2))
+def test_padded_envelope_equals_scipy_hilbert_for_a_burst(seed):
+    rng = np.random.default_rng(seed)
+    x = np.arange(PRIME)
+    c = rng.uniform(0.3, 0.7) * PRIME
+    y = (np.exp(-(((x - c) / 8000.0) ** 2)) * np.cos(2 * np.pi * rng.uniform(0.1, 0.3) * x
+                                                    + 1e-6 * (x - c) ** 2)
+         + 1e-3 * rng.normal(size=x.size))
+    ref = np.abs(hilbert(y))
+    np.testing.assert_allclose(analytic_envelope(y)[40:-40], ref[40:-40], rtol=0,
+                               atol=1e-3 * ref.max())
+    np.testing.assert_allclose(analytic_envelope(y, pad=False), ref, rtol=0, atol=1e-12)
+
+
+@pytest.mark.parametrize("f", (0.0731, 0.2137, 0.411))
+def test_padded_envelope_of_fringes_filling_the_record(f):
+    x = np.arange(PRIME)
+    env = analytic_envelope(np.cos(2 * np.pi * f * x + 0.4))
+    q = PRIME // 4
+    # a jump of at most 1 at the record's ends (and at the zeros') disturbs the Hilbert
+    # transform by at most about 1/(π·distance): four of them, at least q samples away
+    assert np.max(np.abs(env[q:-q] - 1.0)) < 4 / (np.pi * q)
+
+
+@pytest.mark.parametrize("n", (200003, 150001, 99991))
+def test_mirror_envelope_equals_scipy_on_the_exact_extension(n):
+    x = np.arange(n)
+    y = np.exp(-x / 50000.0) * np.cos(2 * np.pi * 0.17 * x) + 0.3
+    env, margin = C.analytic_envelope(y)
+    yy = y - y.mean()
+    ref = np.abs(hilbert(np.concatenate([yy, yy[-2:0:-1]])))[:n]
+    np.testing.assert_allclose(env[margin:-margin], ref[margin:-margin], rtol=0,
+                               atol=1e-6 * ref.max())
+
+
+@pytest.mark.parametrize("ell", (2e4, 5e4, 2e5))
+def test_envelope_decay_from_the_ends_matches_the_closed_form(ell):
+    n = 200003
+    x = np.arange(n)
+    y = np.exp(-x / ell) * np.cos(2 * np.pi * 0.17 * x) + 0.3
+    _, margin = C.analytic_envelope(y)
+    k = int(0.1 * (n - 2 * margin))
+
+    def mean(a):
+        return ell / k * (np.exp(-a / ell) - np.exp(-(a + k) / ell))
+
+    assert C.envelope_decay(y) == pytest.approx(mean(margin) / mean(n - margin - k), rel=1e-4)
+
+
+@pytest.mark.parametrize("apod", ("boxcar", "hann", "happ-genzel"))
+@pytest.mark.parametrize("kind", ("real", "magnitude"))
+def test_noise_correlation_by_rotation_equals_the_cosine_quadrature(apod, kind):
+    shape = LineShape(apod, (0.5, 0.52, 0.49), (0.3, 0.3, 0.4), kind)
+    lags = 0.05 * np.arange(-599, 600)
+    direct = shape._transform(lags, 0.0, 0.0, power=2)
+    direct = direct / shape._transform(np.zeros(1), 0.0, 0.0, power=2)[0]
+    np.testing.assert_allclose(shape.noise_correlation(lags), direct, rtol=0, atol=1e-12)
+
+
+@pytest.mark.parametrize("kind", ("real", "magnitude"))
+@pytest.mark.parametrize("widths", ((0.0, 0.0), (4.0, 0.0), (0.0, 3.0), (2.0, 1.5),
+                                    (-0.5, 0.0), (0.0, -0.4), (400.0, 0.0)))
+def test_evaluator_equals_the_kernel_and_its_derivatives(kind, widths):
+    shape = LineShape("happ-genzel", (0.5, 0.45), (0.6, 0.4), kind)
+    sigma = 15800.0 + np.linspace(-12.0, 12.0, 97)
+    ev = shape.evaluator(sigma)
+    q, lor = widths
+    c = 15800.3
+    k, dc, dq, dl = ev(c, q, lor, derivatives=True)
+    ref = shape.kernel_signed(sigma - c, q, lor)
+    scale = np.max(np.abs(ref))
+    np.testing.assert_allclose(k, ref, rtol=0, atol=1e-9 * scale)
+    for got, step, args in ((dc, 1e-4, lambda h: (c + h, q, lor)),
+                            (dq, 1e-3, lambda h: (c, q + h, lor)),
+                            (dl, 1e-4, lambda h: (c, q, lor + h))):
+        num = (shape.kernel_signed(sigma - args(step)[0], *args(step)[1:])
+               - shape.kernel_signed(sigma - args(-step)[0], *args(-step)[1:])) / (2 * step)
+        if kind == "magnitude":  # |K| is not differentiable where K changes sign
+            keep = np.abs(ref) > 1e-3 * scale
+            got, num = got[keep], num[keep]
+        np.testing.assert_allclose(got, num, rtol=0, atol=1e-5 * np.max(np.abs(num)) + 1e-12)
+
+
+@pytest.mark.parametrize("base", (0.0, 0.3, 2.0))
+def test_half_maximum_is_measured_above_the_baseline(base):
+    """A Gaussian peak of FWHM 2√(2 ln 2)·s standing on a level ``base``: its width at half
+    its height above that level is the Gaussian's FWHM (closed form), to the grid step."""
+    from ftsource.lines.fitting import _observed_fwhm
+
+    sig = np.linspace(-50.0, 50.0, 20001)
+    s = 1.7
+    y = base + np.exp(-0.5 * (sig / s) ** 2)
+    i0 = int(np.argmax(y))
+    fwhm = 2 * np.sqrt(2 * np.log(2)) * s
+    assert _observed_fwhm(sig, y, i0, base) == pytest.approx(fwhm, abs=2 * (sig[1] - sig[0]))
