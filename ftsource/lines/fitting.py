@@ -280,10 +280,8 @@ def fit_line(
                      {first: (float(g), float(lw), float(uw))})
     examine = profile == "auto"
     if examine and min_snr is not None:
-        first_peak = float(sel.res.x[0] * spec.line_shape.kernel(np.zeros(1), g, lw)[0]
-                           / win.k00)
         noise0 = float(spec.noise[win.i0])
-        examine = noise0 <= 0 or first_peak / noise0 >= min_snr
+        examine = noise0 <= 0 or _peak(spec, win, sel.res.x[0], g, lw) / noise0 >= min_snr
     if examine and resolved:
         for prof in ("lorentzian", "voigt"):
             results[prof] = _run_profile(win, prof)
@@ -306,7 +304,7 @@ def fit_line(
         bound = float(max(np.sqrt(max(q + BOUND_K * uq, 0.0)), ils))
     noise_at = float(spec.noise[win.i0])
     p = res.x
-    peak = float(p[0] * spec.line_shape.kernel(np.zeros(1), sel.gauss, sel.lorentz)[0] / win.k00)
+    peak = _peak(spec, win, p[0], sel.gauss, sel.lorentz)
     return LineFit(
         centre_per_cm=sel.centre,
         u_centre_per_cm=sel.u_centre,
@@ -398,6 +396,12 @@ def _window(spec: Spectrum, centre_guess_per_cm: float, others) -> _Window:
         # the line shape at the fit points, with quadrature and trigonometric tables built once
         ev=spec.line_shape.evaluator(x), k00=float(spec.line_shape.kernel(np.zeros(1))[0]),
     )
+
+
+def _peak(spec: Spectrum, win: _Window, height: float, gauss: float, lorentz: float) -> float:
+    """The fitted line's peak value: its height scaled by the line shape at zero offset for
+    those widths over the zero-width shape's."""
+    return float(height * spec.line_shape.kernel(np.zeros(1), gauss, lorentz)[0] / win.k00)
 
 
 def _run_profile(win: _Window, prof: str, *, give_up_below: float | None = None):

@@ -331,12 +331,8 @@ class KernelEvaluator:
         self._sp = sp
         self._recent: dict = {}  # the last few (centre, q, l) → (K, ∂K/∂c, ∂K/∂q, ∂K/∂l)
         apo = get_apodization(shape.apodization)
-        groups: dict[float, float] = {}
-        for L, w in zip(shape.L_cm, shape.weights, strict=False):
-            key = float(np.round(L, 9))
-            groups[key] = groups.get(key, 0.0) + w
         self._groups = []
-        for L, w in groups.items():
+        for L, w in shape._groups().items():
             xs, bases, los, starts = [], [], [], []
             edges = [L / 2**k for k in range(_N_PANELS)] + [0.0]
             for hi, lo in zip(edges[:-1], edges[1:], strict=True):
