@@ -498,6 +498,9 @@ class _Lines:
     spectra: _Spectra
     sweep_fits: dict
     notes: tuple[str, ...]
+    #: no sweep holds ZPD and the fringe envelope decays across the sweeps: the lines'
+    #: magnitude shapes are not the instrument's, so their widths are not reported
+    envelope_decays: bool = False
 
 
 def _setup(record, options) -> _Setup:
@@ -672,7 +675,9 @@ def _lines(record, setup: _Setup, sampling: _Sampling, spectra: _Spectra) -> _Li
     spec, sigma_app, factor = spectra.spectrum, spectra.sigma_apparent, spectra.index_factor
     band = (1e7 / SEARCH_BAND_NM[1],
             min(1e7 / SEARCH_BAND_NM[0], 0.98 * limits.grid_nyquist_per_cm))
-    found = fitting.find_lines(spec, band_per_cm=band)
+    # a resolved line whose coherence ends inside sweeps without ZPD has 1/δ magnitude wings
+    decays = _envelope_decays(spectra.interferograms, spectra.sweep_spectra)
+    found = fitting.find_lines(spec, band_per_cm=band, envelope_decays=decays)
     sweep_fits: dict = {}  # per-sweep fits of the main line, shared with the sweep check
     outliers, notes = _sweep_outliers(spec, spectra.sweep_spectra, found, sweep_fits)
     if outliers:
@@ -686,7 +691,7 @@ def _lines(record, setup: _Setup, sampling: _Sampling, spectra: _Spectra) -> _Li
                                  if ig.sweep.index not in bad),
             rejected=spectra.rejected + tuple(outliers),
         )
-        found = fitting.find_lines(spec, band_per_cm=band)
+        found = fitting.find_lines(spec, band_per_cm=band, envelope_decays=decays)
     sigma_alias = 1e7 / limits.min_wavelength_nm
     flags, flag_notes = _flag_lines(found, setup.reference_wavelength_nm, sigma_alias,
                                     setup.opd_kind, record,
@@ -707,8 +712,20 @@ def _lines(record, setup: _Setup, sampling: _Sampling, spectra: _Spectra) -> _Li
         spectra = replace(spectra, spectrum=spec.with_axis(spec.sigma_per_cm * fov))
         found = [_rescale_line(f, fov) for f in found]
         source_lines = [f for f, fl in zip(found, flags, strict=True) if fl is None]
+    notes += _pair_notes(source_lines)
     return _Lines(tuple(found), tuple(flags), tuple(aliasing), alias_band, tuple(source_lines),
-                  fov, spectra, sweep_fits, notes + flag_notes)
+                  fov, spectra, sweep_fits, notes + flag_notes, decays)
+
+
+def _envelope_decays(interferograms, sweep_spectra) -> bool:
+    """Whether no sweep holds ZPD and the fringe envelope changes across the sweeps by more
+    than :data:`ftsource.measure.coherence.ENVELOPE_DECAY_LIMIT` (docs/measurements.md, "Width
+    bounds without ZPD")."""
+    from ftsource.measure.coherence import ENVELOPE_DECAY_LIMIT
+    from ftsource.measure.width import decay_without_zpd
+
+    decay = decay_without_zpd(interferograms, sweep_spectra)
+    return decay is not None and decay > ENVELOPE_DECAY_LIMIT
 
 
 def _result(record, setup: _Setup, sampling: _Sampling, spectra: _Spectra, lines: _Lines):
@@ -750,7 +767,7 @@ def _result(record, setup: _Setup, sampling: _Sampling, spectra: _Spectra, lines
         )
     reports, line_notes = facts.line_reports(
         lines.found, flags, lines.aliasing, options=options,
-        reference_uncertainty_ppm=ref_u_ppm, main=main,
+        reference_uncertainty_ppm=ref_u_ppm, main=main, widths=not lines.envelope_decays,
         budget=partial(line_budget, opd_kind=path.kind, options=options,
                        reference_wavelength_nm=setup.reference_wavelength_nm,
                        field_of_view_factor=lines.field_of_view_factor),
@@ -940,6 +957,33 @@ def _wobble_notes(source_lines, path, fs, resolution_per_cm) -> tuple[str, ...]:
     )
 
 
+def _pair_notes(source_lines) -> tuple[str, ...]:
+    """Say which lines may be two close lines (``pair_possible``), where the pair would be,
+    and what would separate them (docs/measurements.md, "Close pairs")."""
+    out = []
+    for f in source_lines:
+        if not f.pair_possible:
+            continue
+        here = f"the line at {1e7 / f.centre_per_cm:.4f} nm may be two close lines"
+        if f.magnitude_pair:
+            a, b = sorted((1e7 / f.magnitude_pair[1], 1e7 / f.magnitude_pair[3]))
+            out.append(
+                f"{here}: two unresolved lines near {a:.4f} and {b:.4f} nm fit its magnitude "
+                "spectrum clearly better than one (without zero path difference in the sweeps "
+                "their responses interfere, and no subtraction separates them), so it is "
+                "reported as one line whose uncertainty spans both. Scan through zero path "
+                "difference (equal arm lengths) and lengthen the mirror travel to measure them "
+                "as two lines"
+            )
+        else:
+            out.append(
+                f"{here}: a pair of unresolved lines fits the spectrum as well as one broad "
+                "line, so its width may be their separation. Lengthen the mirror travel to "
+                "tell one from two"
+            )
+    return tuple(out)
+
+
 def _burst_notes(sweep_specs) -> tuple[str, ...]:
     """Say when the burst used as a sweep's phase reference may be a coherence revival (or a
     beat maximum of close lines) rather than zero path difference."""
@@ -1008,6 +1052,11 @@ def _rescale_line(fit, factor: float):
         u_fwhm_per_cm=fit.u_fwhm_per_cm * factor,
         fwhm_upper_bound_per_cm=sc(fit.fwhm_upper_bound_per_cm),
         instrument_fwhm_per_cm=fit.instrument_fwhm_per_cm * factor,
+        pair_lines=tuple((c * factor, h) for c, h in fit.pair_lines),
+        magnitude_pair=(() if not fit.magnitude_pair else
+                        (fit.magnitude_pair[0], fit.magnitude_pair[1] * factor,
+                         fit.magnitude_pair[2], fit.magnitude_pair[3] * factor,
+                         fit.magnitude_pair[4])),
     )
 
 

@@ -14,7 +14,7 @@ from ftsource import __version__
 
 __all__ = ["Result", "SCHEMA_ID", "SCHEMA_VERSION"]
 
-SCHEMA_VERSION = "2.0"
+SCHEMA_VERSION = "2.1"
 SCHEMA_ID = "https://ftsource.invalid/schema/result-2.json"
 
 #: The keys of ``summary``, in the contract's order (each a field of SourceFigures).

@@ -21,7 +21,7 @@ Kernel units: wavenumber in cm⁻¹.
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 
 import numpy as np
 
@@ -39,6 +39,7 @@ __all__ = [
     "PAIR_ELEMENTS",
     "WING_BIC",
     "two_lines_gain",
+    "magnitude_wing_bound",
     "RESOLVED_FACTOR",
     "DETECTION_SNR",
 ]
@@ -97,8 +98,10 @@ class LineFit:
     unresolved line), ``profile_widths`` each profile's ``(gauss_fwhm, lorentz_fwhm,
     u_fwhm)``; ``pair_possible`` says a pair of unresolved lines fits as well as this one
     broad line, and ``pair_lines`` holds the pair's ``(centre, height)`` when the pair fits
-    clearly better (ΔAIC > :data:`PAIR_AIC_MARGIN`); ``bic_gain`` is Schwarz's criterion of
-    the line against the baseline alone.
+    clearly better (ΔAIC > :data:`PAIR_AIC_MARGIN`); on a magnitude spectrum such a pair is
+    kept as this one line, ``pair_possible`` set and ``magnitude_pair`` holding the pair's
+    ``(h1, σ1, h2, σ2, φ)`` (its model, :func:`line_model`); ``bic_gain`` is Schwarz's
+    criterion of the line against the baseline alone.
     ``success`` is False with a ``message`` when the fit failed; the object is still returned
     so callers can inspect it.
     """
@@ -129,6 +132,7 @@ class LineFit:
     pair_possible: bool = False
     pair_lines: tuple = ()
     bic_gain: float = float("nan")
+    magnitude_pair: tuple = ()
 
     @property
     def wavelength_nm(self) -> float:
@@ -289,12 +293,18 @@ def fit_line(
     elements = sel.fwhm / ils if ils > 0 else 0.0
     claimed = _claimed_profile(sel, resolved and elements >= MIN_ELEMENTS_FOR_PROFILE,
                                forced=profile != "auto")
-    pair, pair_lines = False, ()
+    pair, pair_lines, mag_pair, u_centre = False, (), (), sel.u_centre
     if examine and (resolved and elements < PAIR_ELEMENTS
                               or not resolved and sel.fwhm > 0.5 * ils):
         aic_pair, pp = _run_pair(win, sel.centre, sel.fwhm)
         results["pair"] = (None, aic_pair)
         pair, pair_lines = _pair_verdict(aic_pair, pp, results[sel.best][1], ils, resolved)
+        if pair_lines and win.magnitude:
+            # two lines whose complex responses interfere: one subtraction each cannot
+            # separate them, so they stay one line, marked, modelled as the pair, with the
+            # centre's uncertainty spanning both
+            pair_lines, mag_pair = (), tuple(float(v) for v in pp[:5])
+            u_centre = float(np.hypot(u_centre, 0.5 * abs(pp[3] - pp[1])))
     res, perr = sel.res, np.sqrt(np.clip(np.diag(sel.cov), 0, None))
     bound = None
     if not resolved:
@@ -307,7 +317,7 @@ def fit_line(
     peak = _peak(spec, win, p[0], sel.gauss, sel.lorentz)
     return LineFit(
         centre_per_cm=sel.centre,
-        u_centre_per_cm=sel.u_centre,
+        u_centre_per_cm=u_centre,
         height=float(p[0]),
         peak=peak,
         area=float(p[0] / win.k00),
@@ -332,6 +342,7 @@ def fit_line(
         pair_possible=pair,
         pair_lines=pair_lines,
         bic_gain=_bic_gain(win, res),
+        magnitude_pair=mag_pair,
     )
 
 
@@ -351,6 +362,7 @@ class _Window:
     rmat: np.ndarray
     ev: object
     k00: float
+    magnitude: bool = False
 
     def aic(self, rss: float, n_par: int) -> float:
         """Akaike's criterion on the effective number of independent points."""
@@ -395,6 +407,7 @@ def _window(spec: Spectrum, centre_guess_per_cm: float, others) -> _Window:
         rmat=r[(np.arange(x.size)[:, None] - np.arange(x.size)[None, :]) + x.size - 1],
         # the line shape at the fit points, with quadrature and trigonometric tables built once
         ev=spec.line_shape.evaluator(x), k00=float(spec.line_shape.kernel(np.zeros(1))[0]),
+        magnitude=spec.line_shape.kind == "magnitude",
     )
 
 
@@ -456,12 +469,15 @@ def _run_profile(win: _Window, prof: str, *, give_up_below: float | None = None)
 
 def _run_pair(win: _Window, fit_c: float, fit_w: float):
     """Two unresolved lines (instrument line shape) instead of one broad line:
-    ``(AIC, parameters)`` with parameters ``(h1, σ1, h2, σ2, baseline)``."""
+    ``(AIC, parameters)`` with parameters ``(h1, σ1, h2, σ2, baseline)`` (on a magnitude
+    spectrum ``(h1, σ1, h2, σ2, φ, baseline)``, :func:`_run_magnitude_pair`)."""
     from scipy.optimize import least_squares
 
     ev, k00, y, wts, ils = win.ev, win.k00, win.y, win.wts, win.ils
     hs = abs(win.h0) + 1e-300
     half = 0.5 * max(fit_w, 0.5 * ils)
+    if win.magnitude:
+        return _run_magnitude_pair(win, fit_c, half)
 
     def fun(p):
         return (p[0] * ev(p[1], 0.0, 0.0) / k00 + p[2] * ev(p[3], 0.0, 0.0) / k00 + p[4]
@@ -478,6 +494,71 @@ def _run_pair(win: _Window, fit_c: float, fit_w: float):
         res = least_squares(fun, p0, jac=jac, x_scale=np.array([hs, ils, hs, ils, hs]),
                             method="trf", max_nfev=500)
     return win.aic(float(np.sum(res.fun**2)), res.x.size), res.x
+
+
+def magnitude_pair_model(weights, k1, k2, h1, h2, phi, k00):
+    """Magnitude spectrum of two lines: ``Σ_g w_g |A1 + A2 e^{iφ}|``, ``A = h·K_g/k00`` with
+    ``K_g`` each sweep span's signed line shape.
+
+    About the centre ``x_c`` of a sweep that does not hold ZPD, a line at σ_k contributes
+    ``(h_k/2) K(σ − σ_k) e^{2πiσ_k x_c}`` to the complex spectrum (shift theorem): the two
+    lines' responses add with the relative phase ``φ = 2π(σ2 − σ1)x_c``, which the magnitude
+    does not remove (the cross term ``2A1A2 cos φ``); ``φ`` is fitted. Returns the model and
+    ``(∂/∂A1, ∂/∂A2, ∂/∂φ)`` of each span's modulus, for the Jacobian.
+
+    References
+    ----------
+    .. [1] R. N. Bracewell, *The Fourier Transform and Its Applications*, 3rd ed., McGraw-Hill
+       (2000), the shift theorem.
+    """
+    a1 = h1 * k1 / k00
+    a2 = h2 * k2 / k00
+    cp, sp = np.cos(phi), np.sin(phi)
+    m = np.sqrt(np.maximum(a1 * a1 + a2 * a2 + 2 * a1 * a2 * cp, 1e-300))
+    return (np.tensordot(weights, m, axes=1),
+            ((a1 + a2 * cp) / m, (a2 + a1 * cp) / m, -a1 * a2 * sp / m))
+
+
+def _run_magnitude_pair(win: _Window, fit_c: float, half: float):
+    """The pair test on a magnitude spectrum (:func:`magnitude_pair_model`): parameters
+    ``(h1, σ1, h2, σ2, φ, baseline)``, fitted from three starting phases (``φ`` and ``−φ``
+    give the same modulus), the best kept."""
+    from scipy.optimize import least_squares
+
+    ev, k00, y, wts, ils = win.ev, win.k00, win.y, win.wts, win.ils
+    hs = abs(win.h0) + 1e-300
+
+    def parts(p):
+        w, t1 = ev.by_span(p[1])
+        _, t2 = ev.by_span(p[3])
+        return w, t1, t2, magnitude_pair_model(w, t1[..., 0], t2[..., 0], p[0], p[2], p[4], k00)
+
+    def fun(p):
+        return (parts(p)[3][0] + p[5] - y) * wts
+
+    def jac(p):
+        w, t1, t2, (_, (d1, d2, dphi)) = parts(p)
+        cols = [np.tensordot(w, d1 * t1[..., 0], axes=1) / k00,
+                p[0] * np.tensordot(w, d1 * t1[..., 1], axes=1) / k00,
+                np.tensordot(w, d2 * t2[..., 0], axes=1) / k00,
+                p[2] * np.tensordot(w, d2 * t2[..., 1], axes=1) / k00,
+                np.tensordot(w, dphi, axes=1), np.ones_like(y)]
+        return np.column_stack(cols) * wts[:, None]
+
+    best = None
+    for phi0 in (0.6, 1.6, 2.6):
+        p0 = [0.5 * win.h0, fit_c - half, 0.5 * win.h0, fit_c + half, phi0, 0.0]
+        with np.errstate(over="ignore", invalid="ignore"):
+            res = least_squares(fun, p0, jac=jac, method="trf", max_nfev=300,
+                                x_scale=np.array([hs, ils, hs, ils, 1.0, hs]))
+        if best is None or res.cost < best.cost:
+            best = res
+    x = best.x.copy()
+    for k in (0, 2):  # (−h, φ + π) is the same pair as (h, φ): heights positive
+        if x[k] < 0:
+            x[k], x[4] = -x[k], x[4] + np.pi
+    x[4] = abs(np.angle(np.exp(1j * x[4])))  # φ in [0, π]
+    return win.aic(float(np.sum(best.fun**2)), x.size), x
 
 
 def _covariance(res, win: _Window):
@@ -586,6 +667,39 @@ def _bic_gain(win: _Window, res) -> float:
                  - (res.x.size - 1) * np.log(max(win.n_eff, 2.0)))
 
 
+def magnitude_wing_bound(fit: LineFit, sigma_per_cm: np.ndarray) -> np.ndarray:
+    """How high a resolved line's magnitude spectrum may stand at ``sigma_per_cm`` when its
+    fringe envelope decays across the sweep (no ZPD in it): ``peak · min(1, w/|δ|)``, w the
+    line's FWHM.
+
+    The magnitude is ``|F(δ)| = |∫ f(x) e^{2πiδx} dx|`` with ``f`` the apodized envelope over
+    the sweep. Integration by parts bounds it by ``(f(a) + f(b) + TV(f))/(2π|δ|) ≤ max f/(π|δ|)``
+    for an ``f`` that rises and falls once, against the peak ``F(0) = ∫f``. For an envelope
+    ``e^{−x/ℓ}`` falling from the sweep's start, ``∫f/max f = ℓ`` and the magnitude's FWHM is
+    ``√3/(πℓ)``, so the bound is ``peak · w/(√3|δ|)`` (twice the exact asymptote
+    ``peak · w/(2√3|δ|)``); ``w/|δ|`` keeps a further margin of √3 for envelopes of other shapes.
+
+    References
+    ----------
+    .. [1] R. N. Bracewell, *The Fourier Transform and Its Applications*, 3rd ed., McGraw-Hill
+       (2000): the transform of the one-sided exponential, ``ℓ/(1 − 2πiδℓ)`` (its table of
+       transforms; cited from memory).
+    .. [2] The bound ``|∫f e^{iωx}dx| ≤ (|f(a)| + |f(b)| + TV(f))/|ω|`` for ``f`` of bounded
+       variation on [a, b] is integration by parts (Riemann–Stieltjes); common practice.
+    """
+    w = max(fit.fwhm_per_cm, fit.instrument_fwhm_per_cm)
+    d = np.abs(np.asarray(sigma_per_cm, float) - fit.centre_per_cm)
+    return fit.peak * np.minimum(1.0, w / np.maximum(d, 1e-300))
+
+
+def _wing_height(fit: LineFit) -> float:
+    """The height whose sidelobes a line's far wings are: its peak, or for a pair kept as one
+    line on a magnitude spectrum the two lines' heights added (each has its own sidelobes)."""
+    if fit.magnitude_pair:
+        return abs(fit.magnitude_pair[0]) + abs(fit.magnitude_pair[2])
+    return fit.peak
+
+
 def _reach(fit: LineFit) -> float:
     """Distance from a line's centre within which its model is subtracted, cm⁻¹."""
     return 12 * max(fit.instrument_fwhm_per_cm, fit.fwhm_per_cm)
@@ -613,6 +727,14 @@ def line_model(spec: Spectrum, fits: list[LineFit], *, memo: dict | None = None)
         """(indices within reach, the model there, the far wings on all of sig or None)."""
         d = sig - lf.centre_per_cm
         near = np.flatnonzero(np.abs(d) < _reach(lf))
+        if lf.magnitude_pair:
+            h1, c1, h2, c2, phi = lf.magnitude_pair
+            spans = [replace(shape, L_cm=(L,), weights=(1.0,), kind="real")
+                     for L in shape._groups()]
+            k1 = np.array([sh.kernel(sig[near] - c1) for sh in spans])
+            k2 = np.array([sh.kernel(sig[near] - c2) for sh in spans])
+            w = np.array(list(shape._groups().values()))
+            return near, magnitude_pair_model(w, k1, k2, h1, h2, phi, k00)[0], None
         vals = lf.height * shape.kernel(d[near], lf.gauss_fwhm_per_cm,
                                         lf.lorentz_fwhm_per_cm) / k00
         far = None
@@ -777,12 +899,19 @@ def find_lines(
     snr_threshold: float = DETECTION_SNR,
     max_lines: int = 40,
     profile: str = "auto",
+    envelope_decays: bool = False,
 ) -> list[LineFit]:
     """Find lines one at a time: fit the strongest peak, subtract its model, repeat.
 
     Subtracting the fitted model (line shape included) removes the line's apodization
     sidelobes with it, so they are not mistaken for lines. A peak counts when it stands
     ``snr_threshold`` noise standard deviations above zero in the residual.
+
+    ``envelope_decays``: the spectrum is a magnitude spectrum of sweeps without ZPD whose fringe
+    envelope decays across them (:func:`ftsource.measure.coherence.envelope_decay`). A resolved
+    line's coherence then ends inside the sweep, and its magnitude wings fall only as 1/|δ|
+    (:func:`magnitude_wing_bound`), far above any instrument line shape's: residuals below
+    that bound are not taken as lines.
     """
     sig = spec.sigma_per_cm
     lo, hi = band_per_cm if band_per_cm is not None else (sig[1], sig[-1])
@@ -831,7 +960,9 @@ def find_lines(
         # beyond the fitted model's reach, the line's far sidelobes (2× their envelope)
         far = inband & (np.abs(sig - fit.centre_per_cm) > _reach(fit))
         env = spec.line_shape.sidelobe_envelope(sig[far] - fit.centre_per_cm)
-        floor2[far] += (2 * fit.peak * env / snr_threshold) ** 2
+        floor2[far] += (2 * _wing_height(fit) * env / snr_threshold) ** 2
+        if envelope_decays and fit.resolved and spec.line_shape.kind == "magnitude":
+            floor2[inband] += (magnitude_wing_bound(fit, sig[inband]) / snr_threshold) ** 2
     fits = _refit(spec, fits, profile)
     # the same line twice (two fits drawn to one peak) is one line: the stronger stays
     for fit in sorted(fits, key=lambda f: f.peak):

@@ -321,8 +321,13 @@ def instrument_facts(spec, limits, main, apodization) -> InstrumentFacts:
 
 
 def line_reports(lines, flags, aliasing, *, options, reference_uncertainty_ppm,
-                 main=None, budget=None) -> tuple[tuple[LineReport, ...], tuple[str, ...]]:
+                 main=None, budget=None, widths: bool = True
+                 ) -> tuple[tuple[LineReport, ...], tuple[str, ...]]:
     """The table of lines, sorted by wavelength, and the aliasing notes of its lines.
+
+    ``widths=False`` leaves out every line's width and width bound (sweeps without ZPD whose
+    fringe envelope decays across them: the magnitude line shape is not the instrument's,
+    docs/measurements.md, "Width bounds without ZPD").
 
     ``main`` is the strongest source line (intensities are relative to it); ``aliasing``
     holds each line's verdict (:mod:`ftsource.lines.aliasing`) or is None. ``budget``, when
@@ -353,8 +358,8 @@ def line_reports(lines, flags, aliasing, *, options, reference_uncertainty_ppm,
             snr=finite_or_none(f.snr),
             resolved=bool(f.resolved),
             fwhm_nm=finite_or_none(u_nm_from_per_cm(f.centre_per_cm, f.fwhm_per_cm))
-            if f.resolved else None,
-            fwhm_upper_bound_nm=None if f.resolved
+            if f.resolved and widths else None,
+            fwhm_upper_bound_nm=None if f.resolved or not widths
             else finite_or_none(u_nm_from_per_cm(f.centre_per_cm, f.fwhm_upper_bound_per_cm)),
             profile=f.profile,
             u_wavelength_nm=finite_or_none(u_wl),

@@ -59,7 +59,7 @@ def width_figures(kind, main, spec, interferograms, sweep_spectra, *, fwhm_nm: f
     notes: list[str] = []
     sig0 = main.centre_per_cm
     f: dict = {"resolved": bool(main.resolved)}
-    decay = _decay_without_zpd(interferograms, sweep_spectra)
+    decay = decay_without_zpd(interferograms, sweep_spectra)
     if decay is not None and decay > coh.ENVELOPE_DECAY_LIMIT:
         # docs/measurements.md, "Width bounds without ZPD"
         notes.append(
@@ -240,7 +240,7 @@ def coherence_disagreement(lc_mm, u_lc_mm, lv_mm, u_lv_mm, *, floor: float = 0.1
     )
 
 
-def _decay_without_zpd(interferograms, sweep_spectra):
+def decay_without_zpd(interferograms, sweep_spectra):
     """Median fringe-envelope change across a sweep (:func:`ftsource.measure.coherence.
     envelope_decay`) when no sweep holds ZPD; None when one does (or none can be measured)."""
     from ftsource.measure.coherence import envelope_decay

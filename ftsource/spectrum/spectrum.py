@@ -383,6 +383,33 @@ class KernelEvaluator:
             self._recent[key] = hit
         return hit if derivatives else hit[0]
 
+    def by_span(self, centre: float) -> tuple[np.ndarray, np.ndarray]:
+        """The zero-width line shape of each sweep span, signed (before any magnitude):
+        ``(weights, K)`` with ``K[g, :, 0]`` the kernel of span ``g`` at ``σ − centre`` and
+        ``K[g, :, 1]`` its derivative in ``centre``; the shape is ``Σ_g weights[g]·K[g]`` (for
+        the magnitude kind, of ``|K[g]|``). A magnitude spectrum of two close lines is the
+        modulus of the sum of their *complex* responses, which needs each span's signed
+        kernel (:func:`ftsource.lines.fitting.fit_line`'s pair test)."""
+        key = ("span", float(centre))
+        hit = self._recent.get(key)
+        if hit is not None:
+            return hit
+        c = float(centre) - self.ref
+        out = np.empty((len(self._groups), self._sp.size, 2))
+        for k, g in enumerate(self._groups):
+            arg = (2 * np.pi * c) * g.x
+            fc, fs = g.base * np.cos(arg), g.base * np.sin(arg)
+            C, S = self._mats(g, 0)
+            a = np.column_stack([fc, -fs * g.factors[:, 1]])
+            b = np.column_stack([fs, fc * g.factors[:, 1]])
+            out[k] = C @ a + S @ b
+        out.flags.writeable = False
+        hit = (np.array([g.weight for g in self._groups]), out)
+        if len(self._recent) >= 8:
+            self._recent.pop(next(iter(self._recent)))
+        self._recent[key] = hit
+        return hit
+
     def _evaluate(self, centre: float, q_gauss: float, l_lorentz: float):
         """``(K, ∂K/∂centre, ∂K/∂q, ∂K/∂l)``, read-only (they are shared by the memo).
 
@@ -489,6 +516,13 @@ class SweepSpectrum:
     #: treatment (:func:`dispersed_mertz`); NaN otherwise.
     dispersion_cm2: float = float("nan")
     u_dispersion_cm2: float = float("nan")
+
+    @functools.cached_property
+    def noise_level(self) -> float:
+        """The spectrum's noise standard deviation (:func:`_noise_level`), computed once: every
+        co-add of a set of sweeps (each sweep alone for the scatter checks, subsets for the
+        jackknife) asks for it again."""
+        return _noise_level(self)
 
 
 @dataclass(frozen=True)
@@ -697,7 +731,7 @@ def coadd(
     kind = "magnitude" if methods == {"magnitude"} else "real"
     # each sweep's own noise level (its spectrum is noise over most of the grid); sweeps of
     # different span have different line shapes, so their scatter at a line is not noise
-    floors = np.array([_noise_level(s) for s in sweep_spectra])
+    floors = np.array([s.noise_level for s in sweep_spectra])
     noise = np.full(mean.shape, np.sqrt(np.sum(floors**2)) / n)
     L = tuple(float(s.L_cm) for s in sweep_spectra)
     w = tuple(1.0 / n for _ in sweep_spectra)
