@@ -959,7 +959,8 @@ def _wobble_notes(source_lines, path, fs, resolution_per_cm) -> tuple[str, ...]:
 
 def _pair_notes(source_lines) -> tuple[str, ...]:
     """Say which lines may be two close lines (``pair_possible``), where the pair would be,
-    and what would separate them (docs/measurements.md, "Close pairs")."""
+    and what would separate them (docs/measurements.md, "Unresolved pair possible" and "Close
+    pairs on a magnitude spectrum")."""
     out = []
     for f in source_lines:
         if not f.pair_possible:

@@ -23,6 +23,7 @@ obtained. See ``docs/reference_spectra.md``.
 
 from __future__ import annotations
 
+import functools
 from collections.abc import Callable, Iterable, Sequence
 from dataclasses import dataclass
 from pathlib import Path
@@ -540,8 +541,17 @@ class ReferenceEntry:
 
 
 def _entries(name: str) -> list[ReferenceEntry]:
+    """The entries of one bundled list (a fresh list of the immutable entries)."""
+    return list(_stored_entries(name))
+
+
+@functools.lru_cache(maxsize=64)
+def _stored_entries(name: str) -> tuple[ReferenceEntry, ...]:
+    """The entries of one bundled list, read once per process: the files are package data
+    that never change while it runs, and the OPD scale, identification and the checks of a
+    reference wavelength each ask for them (reading all lists took ~0.1 s per analysis)."""
     t = load_line_list(name)
-    return [
+    return tuple(
         ReferenceEntry(
             list_name=name,
             species=str(t["species"][i]),
@@ -554,7 +564,7 @@ def _entries(name: str) -> list[ReferenceEntry]:
             else float(t["u_vac_nm"][i]) / float(t["wavelength_vac_nm"][i]),
         )
         for i in range(len(t))
-    ]
+    )
 
 
 def pick_entry(list_name: str, wavelength_nm: float) -> ReferenceEntry:

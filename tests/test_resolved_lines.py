@@ -376,6 +376,8 @@ def test_a_close_pair_on_a_magnitude_spectrum_is_marked_with_both_lines(sep):
     the cross term). Now: one line marked ``pair_possible`` whose pair model puts each line
     within 0.1 element of the truth, with a centre uncertainty that spans both, or two lines
     at the right places; over three seeds and sweep positions."""
+    from ftsource.analysis import _pair_notes
+
     L = 0.05
     ils = LineShape("happ-genzel", (L,), (1.0,), "magnitude").fwhm_per_cm
     d = sep * ils
@@ -396,6 +398,11 @@ def test_a_close_pair_on_a_magnitude_spectrum_is_marked_with_both_lines(sep):
         assert got == pytest.approx(truth, abs=0.1 * ils)
         assert f.u_centre_per_cm >= 0.45 * d
         assert abs(f.centre_per_cm - S0) < 2 * f.u_centre_per_cm
+        # the warning names both wavelengths and what to change
+        (note,) = _pair_notes([f])
+        for c in got:
+            assert f"{1e7 / c:.4f} nm" in note or f"{1e7 / c:.4f} and" in note
+        assert "zero path difference" in note
 
 
 @pytest.mark.parametrize("lor_nm", [0.3, 0.5, 1.0])

@@ -368,7 +368,6 @@ def mertz(
     n = _check_n_fft(n_fft, needed, default)
     spec = _rfft(_wrap_buffer(w * lay.y[lay.j + k], k, n), n, planner)
     sigma = np.arange(spec.size) / (n * lay.dx)
-    spec = lay.dx * spec * np.exp(2j * np.pi * sigma * lay.delta * lay.dx)
     poly = None
     if phase_model == "polynomial":
         from ftsource.spectrum.dispersion import fit_polynomial_phase
@@ -377,7 +376,9 @@ def mertz(
         phi = poly(sigma)
     else:
         phi = _interp_phase(sigma, *_reliable_phase(lay, m, planner))
-    rotated = spec * np.exp(-1j * phi)
+    # the fractional ZPD's linear phase and the removal of phi in one rotation
+    rotated = spec * np.exp(1j * (2 * np.pi * lay.delta * lay.dx * sigma - phi))
+    rotated *= lay.dx
     if poly is not None and lay.double_sided:
         rotated = rotated / delay_weight(poly.group_delay_cm(sigma), L, apo)
     if lay.double_sided:
