@@ -257,8 +257,12 @@ def low_resolution_phase(
     return -phi if lay.mirrored else phi
 
 
-def _double_sided_imag(lay, m_s, apo, phi, sigma, n, planner, y=None, delta=None):
-    """Imaginary part of ``B exp(-i phi)`` from the symmetric part ``+-m_s`` samples."""
+def _double_sided_imag(lay, m_s, apo, phi, sigma, n, planner, y=None, delta=None,
+                       rotation=None):
+    """Imaginary part of ``B exp(-i phi)`` from the symmetric part ``+-m_s`` samples.
+
+    ``rotation``, when given, is ``exp(i(2πσ·delta·dx − phi))`` already computed (Mertz has
+    it for the whole record)."""
     y = lay.y if y is None else y
     delta = lay.delta if delta is None else delta
     if m_s < 1:
@@ -266,8 +270,10 @@ def _double_sided_imag(lay, m_s, apo, phi, sigma, n, planner, y=None, delta=None
     k = np.arange(-m_s, m_s + 1)
     w = apo(np.abs(k - delta) / m_s)
     spec = _rfft(_wrap_buffer(w * y[lay.j + k], k, n), n, planner)
-    spec = 2.0 * lay.dx * spec * np.exp(2j * np.pi * sigma * delta * lay.dx - 1j * phi)
-    return spec.imag
+    if rotation is None:
+        rotation = np.exp(2j * np.pi * sigma * delta * lay.dx - 1j * phi)
+    # Im(spec·rotation), without the complex product's real part
+    return 2.0 * lay.dx * (spec.real * rotation.imag + spec.imag * rotation.real)
 
 
 def _finish(lay, sigma, real, imag, phi, method, L, apo, poly=None) -> PhasedSpectrum:
@@ -377,14 +383,15 @@ def mertz(
     else:
         phi = _interp_phase(sigma, *_reliable_phase(lay, m, planner))
     # the fractional ZPD's linear phase and the removal of phi in one rotation
-    rotated = spec * np.exp(1j * (2 * np.pi * lay.delta * lay.dx * sigma - phi))
+    rotation = np.exp(1j * (2 * np.pi * lay.delta * lay.dx * sigma - phi))
+    rotated = spec * rotation
     rotated *= lay.dx
     if poly is not None and lay.double_sided:
         rotated = rotated / delay_weight(poly.group_delay_cm(sigma), L, apo)
     if lay.double_sided:
         imag = rotated.imag
     else:
-        imag = _double_sided_imag(lay, m_s, apo, phi, sigma, n, planner)
+        imag = _double_sided_imag(lay, m_s, apo, phi, sigma, n, planner, rotation=rotation)
     return _finish(lay, sigma, rotated.real, imag, phi, "mertz", L, apo, poly)
 
 
