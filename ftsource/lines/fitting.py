@@ -782,7 +782,7 @@ def _broad_kernel(shape, delta: np.ndarray, lf: LineFit) -> np.ndarray:
     from scipy.interpolate import CubicSpline
 
     g, lor = lf.gauss_fwhm_per_cm, lf.lorentz_fwhm_per_cm
-    w = lf.fwhm_per_cm
+    w = voigt_fwhm(max(g, 0.0), max(lor, 0.0))  # of the widths modelled, not the reported one
     if not (w > BROAD_FACTOR * lf.instrument_fwhm_per_cm) or delta.size < 4096:
         return shape.kernel(delta, g, lor)
     lo, hi = float(delta.min()), float(delta.max())
