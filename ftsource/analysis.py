@@ -498,9 +498,23 @@ class _Lines:
     spectra: _Spectra
     sweep_fits: dict
     notes: tuple[str, ...]
-    #: no sweep holds ZPD and the fringe envelope decays across the sweeps: the lines'
-    #: magnitude shapes are not the instrument's, so their widths are not reported
-    envelope_decays: bool = False
+    #: how much the fringe envelope changes across a sweep when no sweep holds ZPD
+    #: (:func:`ftsource.measure.width.decay_without_zpd`; None when one does)
+    envelope_decay: float | None = None
+
+    @staticmethod
+    def decays(decay: float | None) -> bool:
+        """Whether an envelope change ``decay`` means the envelope decays across sweeps without
+        ZPD: the lines' magnitude shapes are then not the instrument's, so their widths are not
+        reported (docs/measurements.md, "Width bounds without ZPD")."""
+        from ftsource.measure.coherence import ENVELOPE_DECAY_LIMIT
+
+        return decay is not None and decay > ENVELOPE_DECAY_LIMIT
+
+    @property
+    def envelope_decays(self) -> bool:
+        """:meth:`decays` of this result's sweeps."""
+        return self.decays(self.envelope_decay)
 
 
 def _setup(record, options) -> _Setup:
@@ -669,6 +683,7 @@ def _lines(record, setup: _Setup, sampling: _Sampling, spectra: _Spectra) -> _Li
     """Lines of the spectrum (outlier sweeps removed and the spectrum co-added again), each
     flagged when it is not the source's (ghost, alias), and the field-of-view correction."""
     from ftsource.lines import fitting
+    from ftsource.measure.width import decay_without_zpd
     from ftsource.spectrum import spectrum
 
     limits, options = sampling.limits, setup.options
@@ -676,8 +691,9 @@ def _lines(record, setup: _Setup, sampling: _Sampling, spectra: _Spectra) -> _Li
     band = (1e7 / SEARCH_BAND_NM[1],
             min(1e7 / SEARCH_BAND_NM[0], 0.98 * limits.grid_nyquist_per_cm))
     # a resolved line whose coherence ends inside sweeps without ZPD has 1/δ magnitude wings
-    decays = _envelope_decays(spectra.interferograms, spectra.sweep_spectra)
-    found = fitting.find_lines(spec, band_per_cm=band, envelope_decays=decays)
+    decay = decay_without_zpd(spectra.interferograms, spectra.sweep_spectra)
+    found = fitting.find_lines(spec, band_per_cm=band,
+                               envelope_decays=_Lines.decays(decay))
     sweep_fits: dict = {}  # per-sweep fits of the main line, shared with the sweep check
     outliers, notes = _sweep_outliers(spec, spectra.sweep_spectra, found, sweep_fits)
     if outliers:
@@ -691,7 +707,9 @@ def _lines(record, setup: _Setup, sampling: _Sampling, spectra: _Spectra) -> _Li
                                  if ig.sweep.index not in bad),
             rejected=spectra.rejected + tuple(outliers),
         )
-        found = fitting.find_lines(spec, band_per_cm=band, envelope_decays=decays)
+        decay = decay_without_zpd(spectra.interferograms, spectra.sweep_spectra)
+        found = fitting.find_lines(spec, band_per_cm=band,
+                                   envelope_decays=_Lines.decays(decay))
     sigma_alias = 1e7 / limits.min_wavelength_nm
     flags, flag_notes = _flag_lines(found, setup.reference_wavelength_nm, sigma_alias,
                                     setup.opd_kind, record,
@@ -714,18 +732,7 @@ def _lines(record, setup: _Setup, sampling: _Sampling, spectra: _Spectra) -> _Li
         source_lines = [f for f, fl in zip(found, flags, strict=True) if fl is None]
     notes += _pair_notes(source_lines)
     return _Lines(tuple(found), tuple(flags), tuple(aliasing), alias_band, tuple(source_lines),
-                  fov, spectra, sweep_fits, notes + flag_notes, decays)
-
-
-def _envelope_decays(interferograms, sweep_spectra) -> bool:
-    """Whether no sweep holds ZPD and the fringe envelope changes across the sweeps by more
-    than :data:`ftsource.measure.coherence.ENVELOPE_DECAY_LIMIT` (docs/measurements.md, "Width
-    bounds without ZPD")."""
-    from ftsource.measure.coherence import ENVELOPE_DECAY_LIMIT
-    from ftsource.measure.width import decay_without_zpd
-
-    decay = decay_without_zpd(interferograms, sweep_spectra)
-    return decay is not None and decay > ENVELOPE_DECAY_LIMIT
+                  fov, spectra, sweep_fits, notes + flag_notes, decay)
 
 
 def _result(record, setup: _Setup, sampling: _Sampling, spectra: _Spectra, lines: _Lines):
@@ -777,6 +784,7 @@ def _result(record, setup: _Setup, sampling: _Sampling, spectra: _Spectra, lines
         spec, source_lines, sweep_specs, spectra.interferograms, options=options,
         opd_kind=path.kind, reference_wavelength_nm=setup.reference_wavelength_nm,
         field_of_view_factor=lines.field_of_view_factor, sweep_fit_cache=lines.sweep_fits,
+        envelope_decay=lines.envelope_decay,
     )
     scan = _scan_health(record, setup, sampling, spectra, figures.kind, source_lines)
     glass, glass_notes = facts.glass_facts(sweep_specs, main)
@@ -968,8 +976,13 @@ def _pair_notes(source_lines) -> tuple[str, ...]:
         here = f"the line at {1e7 / f.centre_per_cm:.4f} nm may be two close lines"
         if f.magnitude_pair:
             a, b = sorted((1e7 / f.magnitude_pair[1], 1e7 / f.magnitude_pair[3]))
+            # the pair model's own error on rig-like records (harmonics, quantisation, speed
+            # wobble, rounded turnarounds) reached 0.05 of a resolution element
+            # (tests/test_resolved_lines.py): a tenth is stated
+            tol = 0.1 * 1e7 * f.instrument_fwhm_per_cm / f.centre_per_cm**2
             out.append(
-                f"{here}: two unresolved lines near {a:.4f} and {b:.4f} nm fit its magnitude "
+                f"{here}: two unresolved lines near {a:.4f} and {b:.4f} nm (each within about "
+                f"±{tol:.2g} nm, a tenth of a resolution element) fit its magnitude "
                 "spectrum clearly better than one (without zero path difference in the sweeps "
                 "their responses interfere, and no subtraction separates them), so it is "
                 "reported as one line whose uncertainty spans both. Scan through zero path "

@@ -75,8 +75,8 @@ class SourceFigures:
 
 
 def source_figures(spec, source_lines, sweep_spectra, interferograms, *, options, opd_kind,
-                   reference_wavelength_nm, field_of_view_factor: float = 1.0,
-                   sweep_fit_cache=None) -> SourceFigures:
+                   reference_wavelength_nm, envelope_decay: float | None,
+                   field_of_view_factor: float = 1.0, sweep_fit_cache=None) -> SourceFigures:
     """Measure the source from its lines (:class:`ftsource.lines.fitting.LineFit`).
 
     Parameters
@@ -91,6 +91,9 @@ def source_figures(spec, source_lines, sweep_spectra, interferograms, *, options
     opd_kind : ftsource.interferogram.scale.OpdKind
         Where the OPD scale came from (a reference laser, an encoder, an assumed speed).
     reference_wavelength_nm : float or None
+    envelope_decay : float or None
+        The fringe envelope's change across a sweep when no sweep holds ZPD
+        (:func:`ftsource.measure.width.decay_without_zpd`, measured once by the caller).
     field_of_view_factor : float
         The Jacquinot factor applied to the axis (1: none).
     sweep_fit_cache : dict, optional
@@ -134,6 +137,7 @@ def source_figures(spec, source_lines, sweep_spectra, interferograms, *, options
     if kind == "narrow" and len(sweep_spectra) >= 2:
         notes += sweep_consistency_notes(spec, sweep_spectra, sig0, sweep_fit_cache)
     width = width_figures(kind, main, spec, interferograms, sweep_spectra, fwhm_nm=fwhm_nm,
+                          envelope_decay=envelope_decay,
                           u_fwhm_nm=band.u_fwhm_nm if band is not None else None,
                           baseline_per_cm=band.baseline_per_cm if band is not None else 0.0)
     notes += width.notes

@@ -38,11 +38,13 @@ class WidthFigures:
 
 
 def width_figures(kind, main, spec, interferograms, sweep_spectra, *, fwhm_nm: float,
-                  u_fwhm_nm: float | None = None, baseline_per_cm: float = 0.0
-                  ) -> WidthFigures:
+                  envelope_decay: float | None, u_fwhm_nm: float | None = None,
+                  baseline_per_cm: float = 0.0) -> WidthFigures:
     """Width and coherence of the main line ``main`` of a source of ``kind``.
 
-    ``fwhm_nm`` is the line's FWHM (for a broad band, corrected for the line shape) and
+    ``envelope_decay`` is :func:`decay_without_zpd` of these sweeps (measured once by the
+    caller, whose line search uses it too). ``fwhm_nm`` is the line's FWHM (for a broad band,
+    corrected for the line shape) and
     ``u_fwhm_nm`` its standard uncertainty when already known (broad band), else the fit's.
     ``baseline_per_cm`` is a broad band's baseline of S_σ (:func:`ftsource.measure.band.
     band_baseline`), removed before its coherence length. A multimode source gets no width
@@ -59,7 +61,7 @@ def width_figures(kind, main, spec, interferograms, sweep_spectra, *, fwhm_nm: f
     notes: list[str] = []
     sig0 = main.centre_per_cm
     f: dict = {"resolved": bool(main.resolved)}
-    decay = decay_without_zpd(interferograms, sweep_spectra)
+    decay = envelope_decay
     if decay is not None and decay > coh.ENVELOPE_DECAY_LIMIT:
         # docs/measurements.md, "Width bounds without ZPD"
         notes.append(
